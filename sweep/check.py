@@ -1,0 +1,311 @@
+"""``sweep check``: every stored point against the analytic results that exist for it.
+
+For each point whose geometry has a closed form (intervals, half-lines, boxes as products
+of intervals, absorbing balls), the simulated statistic with its standard error is
+compared with the exact value: z = (simulated - exact) / stderr, and the check passes
+when |z| <= Z_PASS. Points without an analytic counterpart are listed as such.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from collections.abc import Sequence
+from dataclasses import asdict, dataclass
+from pathlib import Path
+
+import numpy as np
+import xarray as xr
+
+from sweep import analytic, stats, store
+from sweep.spec import PointSpec, Sweep
+
+#: |z| above this fails a check. With a handful of statistics per point and thousands
+#: of points, 5 standard errors keeps false alarms rare (two-sided 5.7e-7 per check).
+Z_PASS = 5.0
+#: Survival is compared at up to this many grid times where the exact value is
+#: between SURVIVAL_RANGE[0] and SURVIVAL_RANGE[1] (where the binomial error is useful).
+SURVIVAL_TIMES = 3
+SURVIVAL_RANGE = (0.05, 0.95)
+
+
+@dataclass(frozen=True)
+class CheckRow:
+    """One comparison of a simulated statistic with its exact value."""
+
+    point: int
+    statistic: str
+    simulated: float
+    stderr: float
+    exact: float
+    z: float
+    passed: bool
+    source: str
+
+
+@dataclass(frozen=True)
+class CheckReport:
+    """All comparisons of a store, plus the points that have none."""
+
+    store: str
+    rows: tuple[CheckRow, ...]
+    unchecked: tuple[tuple[int, str], ...]
+
+    @property
+    def passed(self) -> bool:
+        return all(r.passed for r in self.rows)
+
+    def to_json(self) -> str:
+        return json.dumps(
+            {
+                "store": self.store,
+                "passed": self.passed,
+                "z_pass": Z_PASS,
+                "rows": [_finite(asdict(r)) for r in self.rows],
+                "unchecked": [{"point": p, "reason": why} for p, why in self.unchecked],
+            },
+            indent=2,
+        )
+
+
+def check_store(path: str | Path) -> CheckReport:
+    """Compare every point of the store at ``path`` with its analytic results."""
+    ds = store.open_dataset(path)
+    sweep = store.load_sweep(path)
+    return check_dataset(ds, sweep, str(path))
+
+
+def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
+    """Like :func:`check_store` for an opened Dataset and its sweep."""
+    rows: list[CheckRow] = []
+    unchecked: list[tuple[int, str]] = []
+    per_walker = "first_passage_time" in ds
+    surv = stats.survival(ds)
+    mean = stats.mean_first_passage_time(ds) if per_walker else None
+    split = stats.splitting_probability(ds) if per_walker else None
+    for p, point in enumerate(sweep.points):
+        if int(ds["walkers_done"][p]) == 0:
+            unchecked.append((p, "no finished tasks yet"))
+            continue
+        reason = _unsupported(point)
+        if reason:
+            unchecked.append((p, reason))
+            continue
+        rows += _survival_rows(p, point, surv.isel(point=p))
+        if mean is not None and split is not None:
+            censored = float(mean["censored"][p])
+            if censored == 0.0:
+                rows += _mean_rows(p, point, mean.isel(point=p))
+                rows += _splitting_rows(p, point, split.isel(point=p))
+    return CheckReport(store=name, rows=tuple(rows), unchecked=tuple(unchecked))
+
+
+# --------------------------------------------------------------------------- which
+
+
+def _unsupported(point: PointSpec) -> str:
+    """Why a point has no analytic counterpart ("" when it has one)."""
+    m, dom = point.motion, point.domain
+    if m.start is None:
+        return "uniform start: no closed form implemented"
+    if dom.targets:
+        return "absorbing targets: no closed form"
+    if point.timing.monitoring != "bridge":
+        return "endpoint monitoring: first-passage bias O(sqrt(dt)); closed forms not comparable"
+    if dom.shape == "ball":
+        if not dom.surface_absorbing:
+            return "reflecting ball: nothing absorbs"
+        if any(v != 0.0 for v in m.drift):
+            return "ball with drift: no closed form"
+        if m.dimension not in (2, 3):
+            return "ball in d > 3: no closed form implemented"
+        return ""
+    for i in range(m.dimension):
+        reflecting = (math.isfinite(dom.lower[i]) and not dom.absorbing_low[i]) or (
+            math.isfinite(dom.upper[i]) and not dom.absorbing_high[i]
+        )
+        absorbing = dom.absorbing_low[i] or dom.absorbing_high[i]
+        if m.drift[i] != 0.0 and reflecting and absorbing:
+            return "drift toward a reflecting wall: mirror reflection is not exact"
+    return ""
+
+
+def _walls(point: PointSpec) -> list[tuple[str, str]]:
+    dom = point.domain
+    kind = {True: "absorbing", False: "reflecting"}
+    return [
+        (kind[lo], kind[hi]) for lo, hi in zip(dom.absorbing_low, dom.absorbing_high)
+    ]
+
+
+def _exact_survival(point: PointSpec, t: np.ndarray) -> np.ndarray:
+    m, dom = point.motion, point.domain
+    assert m.start is not None
+    if dom.shape == "ball":
+        r0 = math.dist(m.start, dom.center)
+        return np.asarray(
+            analytic.ball_survival(t, r0, dom.radius, m.diffusivity, m.dimension)
+        )
+    return np.asarray(
+        analytic.box_survival(
+            t, m.start, dom.lower, dom.upper, _walls(point), m.diffusivity, m.drift
+        )
+    )
+
+
+def _exact_mean(point: PointSpec) -> float:
+    m, dom = point.motion, point.domain
+    assert m.start is not None
+    if dom.shape == "ball":
+        r0 = math.dist(m.start, dom.center)
+        return float(
+            analytic.ball_mean_exit_time(r0, dom.radius, m.diffusivity, m.dimension)
+        )
+    return float(
+        analytic.box_mean_exit_time(
+            m.start, dom.lower, dom.upper, _walls(point), m.diffusivity, m.drift
+        )
+    )
+
+
+# --------------------------------------------------------------------------- rows
+
+
+def _survival_rows(p: int, point: PointSpec, surv: xr.Dataset) -> list[CheckRow]:
+    times = surv["time"].values
+    try:
+        exact = _exact_survival(point, times)
+    except NotImplementedError:
+        return []
+    inside = np.flatnonzero((exact > SURVIVAL_RANGE[0]) & (exact < SURVIVAL_RANGE[1]))
+    if inside.size == 0:
+        return []
+    picks = inside[
+        np.unique(np.linspace(0, inside.size - 1, SURVIVAL_TIMES).round().astype(int))
+    ]
+    n = float(surv["n"])
+    source = (
+        "ball survival series (Carslaw & Jaeger ch. IX; Redner 2001 ch. 6) [from memory]"
+        if point.domain.shape == "ball"
+        else "product of 1-D survivals: images / eigenfunction series (Redner 2001 ch. 2-3; "
+        "Carslaw & Jaeger ch. III) [from memory]"
+    )
+    rows = []
+    for k in picks:
+        s_exact = float(exact[k])
+        # The binomial standard error at the exact value: stable even when few walkers
+        # survive, and what the z-score's null hypothesis implies.
+        se = math.sqrt(s_exact * (1 - s_exact) / n)
+        s_sim = float(surv["estimate"][k])
+        z = stats.zscore(s_sim, s_exact, se)
+        rows.append(
+            CheckRow(
+                p,
+                f"survival S(t={times[k]:.4g})",
+                s_sim,
+                se,
+                s_exact,
+                z,
+                abs(z) <= Z_PASS,
+                source,
+            )
+        )
+    return rows
+
+
+def _mean_rows(p: int, point: PointSpec, mean: xr.Dataset) -> list[CheckRow]:
+    try:
+        exact = _exact_mean(point)
+    except NotImplementedError:
+        return []
+    if not math.isfinite(exact):
+        return []
+    est, se = float(mean["estimate"]), float(mean["stderr"])
+    z = stats.zscore(est, exact, se)
+    if point.domain.shape == "ball":
+        source = "(R^2 - r0^2) / (2 d D) (Oksendal, Example 7.4.2) [from memory]"
+    elif point.motion.dimension == 1:
+        source = "interval mean exit time (Redner 2001 ch. 2; Karlin & Taylor 1981 ch. 15) [from memory]"
+    else:
+        source = "integral of the product of 1-D survivals (quadrature)"
+    return [
+        CheckRow(
+            p, "mean first-passage time", est, se, exact, z, abs(z) <= Z_PASS, source
+        )
+    ]
+
+
+def _splitting_rows(p: int, point: PointSpec, split: xr.Dataset) -> list[CheckRow]:
+    m, dom = point.motion, point.domain
+    if (
+        dom.shape != "box"
+        or m.dimension != 1
+        or not (dom.absorbing_low[0] and dom.absorbing_high[0])
+    ):
+        return []
+    assert m.start is not None
+    length = dom.upper[0] - dom.lower[0]
+    exact = float(
+        analytic.interval_splitting(
+            m.start[0] - dom.lower[0], length, m.diffusivity, m.drift[0]
+        )
+    )
+    est = float(split["estimate"].sel(wall="x_high"))
+    n = float(split["n"])
+    se = math.sqrt(exact * (1 - exact) / n)
+    z = stats.zscore(est, exact, se)
+    source = "splitting probability (Redner 2001 ch. 2) [from memory]"
+    return [
+        CheckRow(p, "P(exit at x_high)", est, se, exact, z, abs(z) <= Z_PASS, source)
+    ]
+
+
+# --------------------------------------------------------------------------- text
+
+
+def format_table(
+    report: CheckReport,
+    swept: Sequence[str] = (),
+    values: Sequence[Sequence[object]] = (),
+) -> str:
+    """The report as an aligned text table, one row per comparison."""
+    header = ("point", "statistic", "simulated ± 95% CI", "exact", "z", "verdict")
+    lines = [header]
+    z95 = stats.z_value()
+    for r in report.rows:
+        lines.append(
+            (
+                str(r.point),
+                r.statistic,
+                f"{r.simulated:.5g} ± {z95 * r.stderr:.2g}",
+                f"{r.exact:.5g}",
+                f"{r.z:+.2f}",
+                "ok" if r.passed else "FAIL",
+            )
+        )
+    widths = [max(len(row[i]) for row in lines) for i in range(len(header))]
+    text = "\n".join(
+        "  ".join(c.ljust(w) for c, w in zip(row, widths)).rstrip() for row in lines
+    )
+    if values and swept:
+        legend = "\n".join(
+            f"  point {i}: " + ", ".join(f"{k} = {v}" for k, v in zip(swept, vals))
+            for i, vals in enumerate(values)
+        )
+        text = f"points:\n{legend}\n\n{text}"
+    for p, why in report.unchecked:
+        text += f"\npoint {p}: not checked ({why})"
+    failed = sum(not r.passed for r in report.rows)
+    verdict = (
+        "all checks passed"
+        if report.passed
+        else f"{failed} of {len(report.rows)} checks FAILED"
+    )
+    return f"{text}\n\n{verdict} (|z| <= {Z_PASS:g}; z = (simulated - exact) / standard error)"
+
+
+def _finite(row: dict[str, object]) -> dict[str, object]:
+    return {
+        k: (None if isinstance(v, float) and not math.isfinite(v) else v)
+        for k, v in row.items()
+    }

@@ -1,0 +1,210 @@
+"""The ``sweep`` command line: parses arguments and calls the public API, nothing more.
+
+Exit codes: 0 success; 1 a check failed (or tasks failed); 2 bad input, with one message
+naming the file, the key, the value and what is allowed; 130 interrupted.
+"""
+
+from __future__ import annotations
+
+import argparse
+import logging
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+
+from sweep.errors import SweepError
+
+MAX_TABLE_POINTS = 20
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="sweep",
+        description="Resumable parameter sweeps of first-passage problems of Brownian walkers.",
+    )
+    parser.add_argument(
+        "--traceback", action="store_true", help="show full tracebacks of errors"
+    )
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    run = sub.add_parser("run", help="run or resume a sweep into a zarr store")
+    run.add_argument("spec", help="sweep definition (TOML)")
+    run.add_argument(
+        "--store", help="zarr store directory (default: <definition name>.zarr)"
+    )
+    where = run.add_mutually_exclusive_group()
+    where.add_argument(
+        "--threads", type=int, help="local threads (default: one per core)"
+    )
+    where.add_argument(
+        "--processes", type=int, help="worker processes of a local Dask cluster"
+    )
+    where.add_argument("--scheduler", help="address of an existing Dask scheduler")
+    where.add_argument(
+        "--scheduler-file", help="scheduler file of an existing Dask cluster"
+    )
+    run.add_argument("--quiet", action="store_true", help="no progress line")
+
+    status = sub.add_parser("status", help="progress of a store, per point")
+    status.add_argument("store")
+
+    check = sub.add_parser("check", help="compare a store with analytic results")
+    check.add_argument("store")
+    check.add_argument("--json", action="store_true", help="machine-readable output")
+
+    plan = sub.add_parser(
+        "plan", help="show the points, tasks and work of a definition"
+    )
+    plan.add_argument("spec")
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the ``sweep`` console script."""
+    args = build_parser().parse_args(argv)
+    logging.basicConfig(
+        level=logging.WARNING, format="sweep: %(message)s", stream=sys.stderr
+    )
+    try:
+        return _dispatch(args)
+    except SweepError as err:
+        if args.traceback:
+            raise
+        print(f"sweep: error: {err}", file=sys.stderr)
+        return err.exit_code
+    except KeyboardInterrupt:
+        print("\nsweep: interrupted.", file=sys.stderr)
+        return 130
+
+
+def _dispatch(args: argparse.Namespace) -> int:
+    if args.command == "run":
+        return _run(args)
+    if args.command == "status":
+        return _status(args)
+    if args.command == "check":
+        return _check(args)
+    if args.command == "plan":
+        return _plan(args)
+    raise AssertionError(args.command)  # argparse rejects unknown commands
+
+
+def _run(args: argparse.Namespace) -> int:
+    from sweep.check import check_dataset, format_table
+    from sweep.execute import RunOptions, run
+    from sweep.spec import load_spec
+    from sweep.store import open_dataset
+
+    sweep = load_spec(args.spec)
+    options = RunOptions(
+        threads=args.threads,
+        processes=args.processes,
+        scheduler=args.scheduler,
+        scheduler_file=args.scheduler_file,
+        progress=not args.quiet,
+    )
+    summary = run(sweep, args.store, options)
+    if summary.interrupted:
+        print(
+            f"sweep: stopped; {summary.store} keeps every finished task. Rerun to resume."
+        )
+        return 130
+    done = summary.already_done + summary.completed
+    print(
+        f"{summary.store}: {done}/{summary.n_tasks} tasks done "
+        f"({summary.completed} now, {summary.already_done} before); "
+        f"{summary.walker_steps / 1e6:.1f} M walker-steps in {summary.seconds:.1f} s."
+    )
+    if not summary.complete:
+        return 1
+    if sweep.n_points > MAX_TABLE_POINTS:
+        print(
+            f"{sweep.n_points} points: run `sweep check {summary.store}` for the analytic comparison."
+        )
+        return 0
+    report = check_dataset(open_dataset(summary.store), sweep, str(summary.store))
+    print()
+    print(format_table(report, sweep.swept, sweep.values))
+    return 0 if report.passed else 1
+
+
+def _status(args: argparse.Namespace) -> int:
+    from sweep import store
+
+    path = Path(args.store)
+    attrs = store.read_attrs(path)
+    sweep = store.load_sweep(path)
+    markers = store.read_markers(path)
+    n_c = attrs["n_chunks"]
+    per_point: dict[int, list[dict[str, object]]] = {}
+    for m in markers:
+        per_point.setdefault(int(m["point"]), []).append(m)  # type: ignore[arg-type]
+    holder = store.lock_holder(path)
+    print(
+        f"store {path}: sweep {sweep.name!r}, {sweep.n_points} points x {n_c} tasks, spec {attrs['spec_hash'][:12]}"
+    )
+    if holder:
+        print(
+            f"running now: pid {holder.get('pid')} on {holder.get('host')} since {holder.get('started')}"
+        )
+    header = ["point", *sweep.swept, "tasks", "walkers", "censored"]
+    rows = [header]
+    total = 0
+    for p in range(sweep.n_points):
+        ms = per_point.get(p, [])
+        total += len(ms)
+        walkers = sum(int(m["walkers"]) for m in ms)  # type: ignore[call-overload]
+        censored = sum(int(m["censored"]) for m in ms)  # type: ignore[call-overload]
+        frac = f"{censored / walkers:.3%}" if walkers else "-"
+        rows.append(
+            [
+                str(p),
+                *(str(v) for v in sweep.values[p]),
+                f"{len(ms)}/{n_c}",
+                str(walkers),
+                frac,
+            ]
+        )
+    widths = [max(len(r[i]) for r in rows) for i in range(len(header))]
+    for r in rows:
+        print("  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip())
+    print(f"{total}/{sweep.n_points * n_c} tasks done")
+    return 0
+
+
+def _check(args: argparse.Namespace) -> int:
+    from sweep.check import check_store, format_table
+    from sweep.store import load_sweep
+
+    report = check_store(args.store)
+    if args.json:
+        print(report.to_json())
+    else:
+        sweep = load_sweep(args.store)
+        print(format_table(report, sweep.swept, sweep.values))
+    return 0 if report.passed else 1
+
+
+def _plan(args: argparse.Namespace) -> int:
+    from sweep.plan import make_plan
+    from sweep.spec import load_spec
+
+    sweep = load_spec(args.spec)
+    plan = make_plan(sweep)
+    bound = plan.walker_steps_bound()
+    print(f"sweep {sweep.name!r} ({sweep.source})")
+    print(f"  points:        {sweep.n_points}")
+    print(
+        f"  walkers/point: {sweep.walkers}  (tasks of {sweep.chunk} walkers, {sweep.n_chunks} per point)"
+    )
+    print(f"  tasks:         {plan.n_tasks}")
+    print(
+        f"  walker-steps:  at most {bound:.3g} (if no walker were absorbed before the horizon)"
+    )
+    if sweep.swept:
+        print(f"  swept:         {', '.join(sweep.swept)}")
+    return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,525 @@
+"""Running a plan: Dask fans tasks out, numba kernels simulate, the store keeps results.
+
+The only module that imports dask. Local threads use Dask's threaded scheduler (the
+kernel releases the GIL); ``--processes`` starts a ``distributed.LocalCluster`` (a dead
+worker's task is rerun elsewhere); ``--scheduler`` / ``--scheduler-file`` connect to an
+existing cluster. Every path submits the same task function, so results are
+bit-identical whichever is used.
+"""
+
+from __future__ import annotations
+
+import errno
+import logging
+import math
+import os
+import socket
+import sys
+import threading
+import time
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from kernels.walkers import simulate
+from sweep import store
+from sweep.errors import StoreError, SweepError, TaskError
+from sweep.plan import Task, make_plan
+from sweep.spec import Sweep, load_spec
+
+log = logging.getLogger(__name__)
+
+#: At most this many tasks per worker thread are in flight on a distributed cluster,
+#: so 10^5 tasks do not flood the scheduler.
+WINDOW_PER_WORKER = 4
+
+
+@dataclass(frozen=True)
+class RunOptions:
+    """Where and how to run. At most one of the executor choices may be set.
+
+    Attributes
+    ----------
+    threads : int or None
+        Local threads (the default, with one per core).
+    processes : int or None
+        Worker processes of a local ``distributed.LocalCluster``.
+    scheduler : str or None
+        Address of an existing Dask scheduler, e.g. ``tcp://10.0.0.5:8786``.
+    scheduler_file : str or None
+        Scheduler file written by ``dask scheduler --scheduler-file``.
+    progress : bool
+        Show a progress line on stderr.
+    """
+
+    threads: int | None = None
+    processes: int | None = None
+    scheduler: str | None = None
+    scheduler_file: str | None = None
+    progress: bool = True
+
+    def __post_init__(self) -> None:
+        chosen = [
+            name
+            for name in ("threads", "processes", "scheduler", "scheduler_file")
+            if getattr(self, name) is not None
+        ]
+        if len(chosen) > 1:
+            raise SweepError(
+                f"choose one executor; got {', '.join('--' + c.replace('_', '-') for c in chosen)}."
+            )
+        for name in ("threads", "processes"):
+            value = getattr(self, name)
+            if value is not None and value < 1:
+                raise SweepError(f"--{name} must be >= 1; got {value}.")
+
+    @property
+    def kind(self) -> str:
+        if self.processes is not None:
+            return "processes"
+        if self.scheduler is not None or self.scheduler_file is not None:
+            return "cluster"
+        return "threads"
+
+
+@dataclass
+class RunSummary:
+    """What a run did."""
+
+    store: Path
+    n_tasks: int
+    already_done: int
+    completed: int = 0
+    failed: list[str] = field(default_factory=list)
+    walker_steps: int = 0
+    seconds: float = 0.0
+    interrupted: bool = False
+
+    @property
+    def complete(self) -> bool:
+        return self.already_done + self.completed == self.n_tasks
+
+
+# --------------------------------------------------------------------------- task
+
+
+def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
+    """Run the kernel for one task; returns its output and the walker-steps done."""
+    a = task.args
+    n, d = task.n_walkers, a.start.shape[0]
+    out_time = np.empty(n, dtype=np.float64)
+    out_wall = np.empty(n, dtype=np.int16)
+    out_position = np.empty((n, d), dtype=np.float64)
+    out_survival = np.zeros(a.survival_times.shape[0], dtype=np.int64)
+    n_snap = a.occupancy_steps.shape[0]
+    out_occupancy = np.zeros(
+        (n_snap, a.occupancy_bins**d if n_snap else 0), dtype=np.int64
+    )
+    steps = simulate(
+        task.generator(),
+        n,
+        a.start,
+        a.uniform_start,
+        a.lower,
+        a.upper,
+        a.absorbing_low,
+        a.absorbing_high,
+        a.ball_center,
+        a.ball_radius,
+        a.ball_absorbing,
+        a.target_center,
+        a.target_radius,
+        a.diffusivity,
+        a.drift,
+        a.dt,
+        a.n_steps,
+        a.bridge,
+        a.survival_times,
+        a.occupancy_steps,
+        a.occupancy_lower,
+        a.occupancy_upper,
+        a.occupancy_bins,
+        out_time,
+        out_wall,
+        out_position,
+        out_survival,
+        out_occupancy,
+        np.empty((n, d), dtype=np.float64),
+    )
+    occupancy = None
+    if n_snap:
+        # The kernel visits snapshots in ascending step order (see plan.kernel_args);
+        # undo that sort so rows follow the user's list of times.
+        occupancy = np.empty_like(out_occupancy)
+        occupancy[a.occupancy_order] = out_occupancy
+        occupancy = occupancy.reshape((n_snap, *(a.occupancy_bins,) * d))
+    return store.TaskOutput(
+        out_time, out_wall, out_position, out_survival, occupancy
+    ), int(steps)
+
+
+def run_task(
+    store_path: str, task: Task, stop: threading.Event | None = None
+) -> dict[str, Any]:
+    """Simulate and store one task; never raises (errors come back in the summary).
+
+    Returns
+    -------
+    dict
+        ``{"point", "chunk", "walkers", "steps", "seconds", "censored", "host", "pid"}``
+        on success, ``{"point", "chunk", "error", "errno"}`` on failure, or
+        ``{"point", "chunk", "skipped": True}`` when the run is stopping.
+    """
+    if stop is not None and stop.is_set():
+        return {"point": task.point, "chunk": task.chunk, "skipped": True}
+    try:
+        start = time.perf_counter()
+        output, steps = simulate_task(task)
+        summary = {
+            "point": task.point,
+            "chunk": task.chunk,
+            "walkers": task.n_walkers,
+            "steps": steps,
+            "seconds": round(time.perf_counter() - start, 6),
+            "censored": int(np.count_nonzero(output.wall < 0)),
+            "absorbed_by": np.bincount(output.wall[output.wall >= 0]).tolist(),
+            "host": socket.gethostname(),
+            "pid": os.getpid(),
+            "thread": threading.current_thread().name,
+        }
+        store.write_task(store_path, task, output, summary)
+        return summary
+    except Exception as err:  # reported per task; the other tasks go on
+        return {
+            "point": task.point,
+            "chunk": task.chunk,
+            "error": f"{type(err).__name__}: {err}",
+            "errno": getattr(err, "errno", None),
+        }
+
+
+def warm_up() -> None:
+    """Compile the kernel once in the driver before tasks fan out."""
+    from sweep.spec import parse_spec
+
+    tiny = parse_spec(
+        """
+        [sweep]
+        seed = 0
+        walkers = 1
+        [motion]
+        dimension = 1
+        diffusivity = 1.0
+        start = 0.5
+        [time]
+        dt = 0.1
+        horizon = 0.2
+        [domain]
+        lower = 0.0
+        upper = 1.0
+        walls = { x_low = "absorbing", x_high = "reflecting" }
+        """,
+        source="<warm-up>",
+    )
+    simulate_task(make_plan(tiny).tasks[0])
+
+
+# --------------------------------------------------------------------------- progress
+
+
+class Progress:
+    """One status line on stderr: tasks done/total, walker-steps per second, time left."""
+
+    def __init__(self, total: int, done: int, enabled: bool, concurrency: int) -> None:
+        self.total = total
+        self.done = done
+        self.start_done = done
+        self.enabled = enabled
+        self.steps = 0
+        self.t0 = time.monotonic()
+        self.last = 0.0
+        self.tty = sys.stderr.isatty()
+        self.concurrency = concurrency
+        self.lock = threading.Lock()
+
+    def update(self, summary: dict[str, Any]) -> None:
+        with self.lock:
+            if "steps" in summary:
+                self.done += 1
+                self.steps += summary["steps"]
+            now = time.monotonic()
+            interval = 0.5 if self.tty else 30.0
+            if self.enabled and (
+                now - self.last >= interval or self.done == self.total
+            ):
+                self.last = now
+                self._show(now)
+
+    def _show(self, now: float) -> None:
+        elapsed = max(now - self.t0, 1e-9)
+        new = self.done - self.start_done
+        rate = self.steps / elapsed
+        left = self.total - self.done
+        eta = "?" if new == 0 else _duration(elapsed / new * left)
+        width = 24
+        filled = int(width * self.done / max(self.total, 1))
+        bar = "#" * filled + "." * (width - filled)
+        line = (
+            f"[{bar}] {self.done}/{self.total} tasks  {rate / 1e6:8.2f} M walker-steps/s  "
+            f"elapsed {_duration(elapsed)}  left {eta}"
+        )
+        sys.stderr.write(("\r" + line) if self.tty else (line + "\n"))
+        sys.stderr.flush()
+
+    def close(self) -> None:
+        if self.enabled and self.tty:
+            self._show(time.monotonic())
+            sys.stderr.write("\n")
+            sys.stderr.flush()
+
+
+def _duration(seconds: float) -> str:
+    if not math.isfinite(seconds):
+        return "?"
+    s = int(round(seconds))
+    h, rem = divmod(s, 3600)
+    m, sec = divmod(rem, 60)
+    return f"{h}:{m:02d}:{sec:02d}" if h else f"{m:02d}:{sec:02d}"
+
+
+# --------------------------------------------------------------------------- run
+
+
+def run(
+    spec: Sweep | str | Path,
+    store_path: str | Path | None = None,
+    options: RunOptions | None = None,
+) -> RunSummary:
+    """Run (or resume) a sweep into a zarr store.
+
+    Parameters
+    ----------
+    spec : Sweep, str or Path
+        A validated sweep or the path of its definition file.
+    store_path : str or Path, optional
+        Where the zarr store lives; default ``<definition name>.zarr`` in the current
+        directory. An existing store of the same definition is resumed: only tasks
+        without a completion marker run.
+    options : RunOptions, optional
+        Executor choice and progress display; default local threads, one per core.
+
+    Returns
+    -------
+    RunSummary
+
+    Raises
+    ------
+    SweepError
+        Bad input, a store of another definition, a locked store, a full disk.
+    TaskError
+        Some tasks failed; the others' results are stored and a rerun retries them.
+    """
+    options = options or RunOptions()
+    sweep = spec if isinstance(spec, Sweep) else load_spec(spec)
+    if store_path is None:
+        store_path = Path.cwd() / f"{Path(sweep.source).stem}.zarr"
+    plan = make_plan(sweep)
+    path = store.prepare(store_path, plan)
+    with store.runner_lock(path):
+        removed = store.clean_partials(path)
+        if removed:
+            log.warning(
+                "%s: removed %d partial files left by a killed writer.", path, removed
+            )
+        done = store.done_tasks(path)
+        pending = [t for t in plan.tasks if (t.point, t.chunk) not in done]
+        summary = RunSummary(
+            store=path, n_tasks=plan.n_tasks, already_done=plan.n_tasks - len(pending)
+        )
+        if not pending:
+            return summary
+        _log_run(
+            path,
+            f"start {options.kind}: {len(pending)} of {plan.n_tasks} tasks pending",
+        )
+        start = time.monotonic()
+        try:
+            if options.kind == "threads":
+                _run_threads(path, pending, options, summary)
+            else:
+                _run_distributed(path, pending, options, summary)
+        finally:
+            summary.seconds = time.monotonic() - start
+            _log_run(
+                path,
+                f"end: {summary.completed} completed, {len(summary.failed)} failed, "
+                f"interrupted={summary.interrupted}",
+            )
+    _raise_failures(summary)
+    return summary
+
+
+def _handle(
+    result: dict[str, Any],
+    summary: RunSummary,
+    progress: Progress,
+    stop: threading.Event,
+) -> None:
+    if result.get("skipped"):
+        return
+    if "error" in result:
+        summary.failed.append(
+            f"point {result['point']}, chunk {result['chunk']}: {result['error']}"
+        )
+        if result.get("errno") in (errno.ENOSPC, errno.EDQUOT, errno.EROFS):
+            stop.set()  # nothing more can be written; stop starting tasks
+    else:
+        summary.completed += 1
+        summary.walker_steps += int(result["steps"])
+    progress.update(result)
+
+
+def _run_threads(
+    path: Path, pending: list[Task], options: RunOptions, summary: RunSummary
+) -> None:
+    import dask
+    from dask.callbacks import Callback
+
+    n = options.threads or os.cpu_count() or 1
+    warm_up()
+    stop = threading.Event()
+    progress = Progress(summary.n_tasks, summary.already_done, options.progress, n)
+
+    def posttask(key: Any, result: Any, dsk: Any, state: Any, worker_id: Any) -> None:
+        if isinstance(result, dict) and "point" in result:
+            _handle(result, summary, progress, stop)
+
+    tasks = [dask.delayed(run_task, pure=False)(str(path), t, stop) for t in pending]
+    try:
+        with Callback(posttask=posttask):
+            dask.compute(*tasks, scheduler="threads", num_workers=n)
+    except KeyboardInterrupt:
+        stop.set()
+        summary.interrupted = True
+        sys.stderr.write(
+            "\ninterrupted: running tasks finish and are kept; rerun the same command "
+            "to resume.\n"
+        )
+    finally:
+        progress.close()
+
+
+def _run_distributed(
+    path: Path, pending: list[Task], options: RunOptions, summary: RunSummary
+) -> None:
+    import dask
+    from distributed import Client, LocalCluster, as_completed
+
+    stop = threading.Event()
+    cluster = None
+    if options.processes is not None:
+        # Tasks that kill their worker are retried a few times, then reported.
+        with dask.config.set({"distributed.scheduler.allowed-failures": 3}):
+            cluster = LocalCluster(
+                n_workers=options.processes,
+                threads_per_worker=1,
+                processes=True,
+                dashboard_address=None,
+                host="127.0.0.1",
+            )
+        client = Client(cluster)
+    elif options.scheduler_file is not None:
+        client = Client(scheduler_file=options.scheduler_file, timeout="60s")
+    else:
+        client = Client(options.scheduler, timeout="60s")
+    try:
+        n_threads = max(1, sum(client.nthreads().values()))
+        progress = Progress(
+            summary.n_tasks, summary.already_done, options.progress, n_threads
+        )
+        window = max(2, WINDOW_PER_WORKER * n_threads)
+        queue = iter(pending)
+        prefix = f"sweep-{path.name}-{os.getpid()}"
+
+        def submit(batch: Iterable[Task]) -> list[Any]:
+            return [
+                client.submit(
+                    run_task,
+                    str(path),
+                    t,
+                    key=f"{prefix}-p{t.point}-c{t.chunk}",
+                    pure=False,
+                )
+                for t in batch
+            ]
+
+        futures = as_completed(
+            submit(_take(queue, window)), with_results=True, raise_errors=False
+        )
+        try:
+            for future, result in futures:
+                if isinstance(result, BaseException) or future.status == "error":
+                    summary.failed.append(f"{future.key}: {result!r}")
+                elif isinstance(result, dict):
+                    _handle(result, summary, progress, stop)
+                future.release()
+                if not stop.is_set():
+                    for f in submit(_take(queue, 1)):
+                        futures.add(f)
+        except KeyboardInterrupt:
+            summary.interrupted = True
+            sys.stderr.write(
+                "\ninterrupted: finished tasks are kept; rerun the same command to resume.\n"
+            )
+        finally:
+            progress.close()
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+
+
+def _take(queue: Iterable[Task], n: int) -> list[Task]:
+    out = []
+    for task in queue:
+        out.append(task)
+        if len(out) == n:
+            break
+    return out
+
+
+def _raise_failures(summary: RunSummary) -> None:
+    if not summary.failed:
+        return
+    disk = [f for f in summary.failed if "No space left" in f or "Disk quota" in f]
+    shown = "\n  ".join(summary.failed[:10])
+    more = (
+        f"\n  ... and {len(summary.failed) - 10} more"
+        if len(summary.failed) > 10
+        else ""
+    )
+    if disk:
+        raise StoreError(
+            f"{summary.store}: the disk is full; {len(summary.failed)} tasks could not be "
+            f"written. Results already stored are intact; free space and rerun the same "
+            f"command to resume.\n  {shown}{more}"
+        )
+    raise TaskError(
+        f"{summary.store}: {len(summary.failed)} of {summary.n_tasks} tasks failed; the "
+        f"results of the others are stored and a rerun retries only the failed ones.\n"
+        f"  {shown}{more}"
+    )
+
+
+def _log_run(path: Path, message: str) -> None:
+    """Append a line to the store's run log (what ran where, and when)."""
+    stamp = time.strftime("%Y-%m-%dT%H:%M:%S%z")
+    line = f"{stamp} host={socket.gethostname()} pid={os.getpid()} {message}\n"
+    try:
+        with open(path / "_runs.log", "a") as f:
+            f.write(line)
+    except OSError as err:
+        raise store.os_error(path, "write the run log", err) from err

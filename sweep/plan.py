@@ -1,0 +1,223 @@
+"""From a validated sweep to tasks: points x chunks, kernel arguments, random streams.
+
+A task simulates one chunk of walkers of one point. Its random stream comes from a
+``numpy.random.SeedSequence`` keyed by the sweep seed, a digest of the point's resolved
+parameters and the chunk index, so it depends neither on scheduling order nor on the
+other points of the grid.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+
+from sweep.spec import PointSpec, Sweep, axis_names
+
+
+@dataclass(frozen=True)
+class KernelArgs:
+    """Everything the kernel needs for one point, as arrays (see kernels.walkers)."""
+
+    start: NDArray[np.float64]
+    uniform_start: bool
+    lower: NDArray[np.float64]
+    upper: NDArray[np.float64]
+    absorbing_low: NDArray[np.bool_]
+    absorbing_high: NDArray[np.bool_]
+    ball_center: NDArray[np.float64]
+    ball_radius: float
+    ball_absorbing: bool
+    target_center: NDArray[np.float64]
+    target_radius: NDArray[np.float64]
+    diffusivity: float
+    drift: NDArray[np.float64]
+    dt: float
+    n_steps: int
+    bridge: bool
+    survival_times: NDArray[np.float64]
+    occupancy_steps: NDArray[np.int64]
+    occupancy_order: NDArray[np.int64]
+    occupancy_lower: NDArray[np.float64]
+    occupancy_upper: NDArray[np.float64]
+    occupancy_bins: int
+
+
+@dataclass(frozen=True)
+class Task:
+    """One unit of work: chunk ``chunk`` of point ``point``.
+
+    Attributes
+    ----------
+    point, chunk : int
+        Indices into the store's ``point`` and ``chunk`` dimensions.
+    first_walker, n_walkers : int
+        The walkers this task owns: ``first_walker : first_walker + n_walkers``.
+    entropy : tuple of int
+        SeedSequence entropy of this task's random stream.
+    args : KernelArgs
+    """
+
+    point: int
+    chunk: int
+    first_walker: int
+    n_walkers: int
+    entropy: tuple[int, ...]
+    args: KernelArgs
+
+    @property
+    def name(self) -> str:
+        return f"point {self.point}, chunk {self.chunk}"
+
+    def generator(self) -> np.random.Generator:
+        """A fresh Generator for this task (never share one between threads)."""
+        return np.random.Generator(
+            np.random.PCG64(np.random.SeedSequence(self.entropy))
+        )
+
+
+@dataclass(frozen=True)
+class Plan:
+    """All tasks of a sweep plus the sizes the store needs."""
+
+    sweep: Sweep
+    tasks: tuple[Task, ...]
+
+    @property
+    def n_tasks(self) -> int:
+        return len(self.tasks)
+
+    def walker_steps_bound(self) -> int:
+        """Walker-steps if no walker is ever absorbed (an upper bound on the work)."""
+        return sum(t.n_walkers * t.args.n_steps for t in self.tasks)
+
+
+def point_digest(point: PointSpec) -> tuple[int, ...]:
+    """Four 32-bit words digesting a point's resolved parameters (for seeding)."""
+    text = json.dumps(point.canonical(), sort_keys=True, separators=(",", ":"))
+    digest = hashlib.sha256(text.encode()).digest()
+    return tuple(int.from_bytes(digest[i : i + 4], "little") for i in range(0, 16, 4))
+
+
+def snapshot_steps(point: PointSpec) -> NDArray[np.int64]:
+    """Occupancy snapshot times snapped to the step grid, as step numbers."""
+    return np.array(
+        [round(t / point.timing.dt) for t in point.record.occupancy_times],
+        dtype=np.int64,
+    )
+
+
+def kernel_args(point: PointSpec) -> KernelArgs:
+    """Translate one point's parameters into the kernel's array arguments."""
+    m, tm, dom, rec = point.motion, point.timing, point.domain, point.record
+    d = m.dimension
+    targets = dom.targets
+    occupancy_steps = snapshot_steps(point)
+    order = np.argsort(occupancy_steps, kind="stable")
+    return KernelArgs(
+        start=np.array(
+            m.start if m.start is not None else [math.nan] * d, dtype=np.float64
+        ),
+        uniform_start=m.start is None,
+        lower=np.array(dom.lower, dtype=np.float64),
+        upper=np.array(dom.upper, dtype=np.float64),
+        absorbing_low=np.array(dom.absorbing_low, dtype=np.bool_),
+        absorbing_high=np.array(dom.absorbing_high, dtype=np.bool_),
+        ball_center=np.array(
+            dom.center if dom.shape == "ball" else [0.0] * d, dtype=np.float64
+        ),
+        ball_radius=dom.radius if dom.shape == "ball" else math.inf,
+        ball_absorbing=dom.surface_absorbing,
+        target_center=np.array([t.center for t in targets], dtype=np.float64).reshape(
+            len(targets), d
+        ),
+        target_radius=np.array([t.radius for t in targets], dtype=np.float64),
+        diffusivity=m.diffusivity,
+        drift=np.array(m.drift, dtype=np.float64),
+        dt=tm.dt,
+        n_steps=tm.n_steps,
+        bridge=tm.monitoring == "bridge",
+        survival_times=np.array(rec.survival_times, dtype=np.float64),
+        # The kernel walks snapshots in ascending step order; the store keeps the
+        # user's order, so results are permuted back on write.
+        occupancy_steps=occupancy_steps[order],
+        occupancy_order=order.astype(np.int64),
+        occupancy_lower=np.array(rec.occupancy_lower or dom.lower, dtype=np.float64),
+        occupancy_upper=np.array(rec.occupancy_upper or dom.upper, dtype=np.float64),
+        occupancy_bins=rec.occupancy_bins,
+    )
+
+
+def make_plan(sweep: Sweep) -> Plan:
+    """Split every point of ``sweep`` into chunks of ``sweep.chunk`` walkers.
+
+    Returns
+    -------
+    Plan
+        Tasks in (point, chunk) order.
+    """
+    tasks: list[Task] = []
+    for p, point in enumerate(sweep.points):
+        args = kernel_args(point)
+        digest = point_digest(point)
+        for c in range(sweep.n_chunks):
+            tasks.append(
+                Task(
+                    point=p,
+                    chunk=c,
+                    first_walker=c * sweep.chunk,
+                    n_walkers=sweep.chunk_walkers(c),
+                    entropy=(sweep.seed, *digest, c),
+                    args=args,
+                )
+            )
+    return Plan(sweep=sweep, tasks=tuple(tasks))
+
+
+def coordinate_columns(sweep: Sweep) -> dict[str, list[Any]]:
+    """Per-point coordinate values of every swept key, vectors split per axis.
+
+    ``motion.diffusivity`` becomes ``diffusivity``; ``domain.upper`` becomes
+    ``upper_x``, ``upper_y``, ...; ``domain.targets.0.radius`` becomes
+    ``target_0_radius``. A name that would repeat gets its table as prefix.
+    """
+    axes = axis_names(sweep.dimension)
+    columns: dict[str, list[Any]] = {}
+    leaves = [_leaf_name(key) for key in sweep.swept]
+    for j, key in enumerate(sweep.swept):
+        name = leaves[j]
+        if leaves.count(name) > 1:
+            name = key.replace(".", "_")
+        values = [v[j] for v in sweep.values]
+        if any(isinstance(v, list) for v in values):
+            width = max(len(v) if isinstance(v, list) else 1 for v in values)
+            for i in range(width):
+                label = axes[i] if i < len(axes) else str(i)
+                columns[f"{name}_{label}"] = [
+                    float(v[i] if isinstance(v, list) else v) for v in values
+                ]
+        else:
+            columns[name] = [_coordinate_value(v) for v in values]
+    return columns
+
+
+def _leaf_name(key: str) -> str:
+    parts = key.split(".")
+    if parts[1] == "targets":
+        return f"target_{parts[2]}_{parts[3]}"
+    if parts[1] == "walls":
+        return f"wall_{parts[2]}"
+    return parts[-1]
+
+
+def _coordinate_value(value: Any) -> Any:
+    if isinstance(value, bool) or isinstance(value, str):
+        return value
+    if isinstance(value, int | float):
+        return float(value)
+    return json.dumps(value)

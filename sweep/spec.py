@@ -1,0 +1,950 @@
+"""Sweep definitions: TOML text in, validated frozen dataclasses out.
+
+This is the only module that reads user-written dictionaries. Everything downstream
+receives :class:`Sweep` and :class:`PointSpec` objects and never re-validates. Nothing
+read from a file is evaluated: values are taken as TOML data only.
+"""
+
+from __future__ import annotations
+
+import copy
+import dataclasses
+import difflib
+import hashlib
+import itertools
+import json
+import math
+import tomllib
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Literal
+
+from sweep.errors import SpecError
+
+WallKind = Literal["absorbing", "reflecting"]
+WALL_KINDS: tuple[str, ...] = ("absorbing", "reflecting")
+MONITORING: tuple[str, ...] = ("bridge", "endpoint")
+SHAPES: tuple[str, ...] = ("box", "ball")
+MAX_DIMENSION = 8
+#: Default number of points of the survival curve's uniform time grid.
+DEFAULT_SURVIVAL_POINTS = 101
+
+SECTIONS: dict[str, tuple[str, ...]] = {
+    "sweep": ("name", "seed", "walkers", "chunk", "description"),
+    "motion": ("dimension", "diffusivity", "drift", "start"),
+    "time": ("dt", "horizon", "monitoring"),
+    "domain": (
+        "shape",
+        "lower",
+        "upper",
+        "walls",
+        "center",
+        "radius",
+        "wall",
+        "targets",
+    ),
+    "record": ("per_walker", "survival", "occupancy"),
+    "grid": (),
+    "zip": (),
+}
+#: Tables whose keys may be swept by [grid] and [[zip]].
+SWEEPABLE_SECTIONS = ("motion", "time", "domain")
+#: Keys that change array shapes or the meaning of stored indices: one store, one value.
+SHAPE_KEYS = ("motion.dimension", "domain.shape")
+TARGET_KEYS = ("center", "radius")
+
+
+def axis_names(dimension: int) -> tuple[str, ...]:
+    """Names of the axes of a ``dimension``-dimensional domain: x, y, z, x3, x4, ..."""
+    base = ("x", "y", "z")
+    return tuple(base[i] if i < 3 else f"x{i}" for i in range(dimension))
+
+
+# --------------------------------------------------------------------------- types
+
+
+@dataclass(frozen=True)
+class Target:
+    """An absorbing ball inside the domain.
+
+    Attributes
+    ----------
+    center : tuple of float, length d, length units
+    radius : float, length units, > 0
+    """
+
+    center: tuple[float, ...]
+    radius: float
+
+
+@dataclass(frozen=True)
+class Domain:
+    """Where walkers live and which walls absorb them.
+
+    For a box, ``lower``/``upper`` give each axis' extent (infinite sides allowed) and
+    ``absorbing_low``/``absorbing_high`` each face's kind (an infinite side is never
+    absorbing). For a ball, ``center``/``radius``/``surface_absorbing`` describe it and
+    ``lower``/``upper`` hold its bounding box.
+    """
+
+    shape: Literal["box", "ball"]
+    lower: tuple[float, ...]
+    upper: tuple[float, ...]
+    absorbing_low: tuple[bool, ...]
+    absorbing_high: tuple[bool, ...]
+    center: tuple[float, ...] = ()
+    radius: float = math.inf
+    surface_absorbing: bool = False
+    targets: tuple[Target, ...] = ()
+
+    @property
+    def dimension(self) -> int:
+        return len(self.lower)
+
+    @property
+    def bounded(self) -> bool:
+        return all(math.isfinite(v) for v in self.lower + self.upper)
+
+    def wall_names(self) -> tuple[str, ...]:
+        """Names of every wall in the order of stored wall indices.
+
+        Box faces ``<axis>_low``, ``<axis>_high`` come first (also reflecting ones, so
+        indices do not depend on wall kinds), then ``target_<i>``, then ``surface``
+        for a ball.
+        """
+        names: list[str] = []
+        if self.shape == "box":
+            for axis in axis_names(self.dimension):
+                names += [f"{axis}_low", f"{axis}_high"]
+        names += [f"target_{i}" for i in range(len(self.targets))]
+        if self.shape == "ball":
+            names.append("surface")
+        return tuple(names)
+
+    def contains(self, point: Sequence[float]) -> bool:
+        """Whether ``point`` lies strictly inside the domain and outside every target."""
+        if self.shape == "box":
+            inside = all(
+                lo < p < hi for p, lo, hi in zip(point, self.lower, self.upper)
+            )
+        else:
+            inside = _distance(point, self.center) < self.radius
+        return inside and not any(
+            _distance(point, t.center) <= t.radius for t in self.targets
+        )
+
+
+@dataclass(frozen=True)
+class Motion:
+    """Brownian motion with constant drift: dX = drift dt + sqrt(2 D) dW per axis."""
+
+    dimension: int
+    diffusivity: float
+    drift: tuple[float, ...]
+    #: Start point, or None for uniform over the (bounded) domain outside targets.
+    start: tuple[float, ...] | None
+
+
+@dataclass(frozen=True)
+class Timing:
+    """Time stepping: step ``dt`` and the censoring ``horizon`` (time units)."""
+
+    dt: float
+    horizon: float
+    monitoring: Literal["bridge", "endpoint"]
+
+    @property
+    def n_steps(self) -> int:
+        """Number of steps to the horizon (the horizon is snapped to the step grid)."""
+        return max(1, round(self.horizon / self.dt))
+
+
+@dataclass(frozen=True)
+class Record:
+    """What each task records besides (optionally) the per-walker values."""
+
+    per_walker: bool
+    survival_stop: float
+    survival_points: int
+    occupancy_times: tuple[float, ...] = ()
+    occupancy_bins: int = 0
+    occupancy_lower: tuple[float, ...] | None = None
+    occupancy_upper: tuple[float, ...] | None = None
+
+    @property
+    def survival_times(self) -> tuple[float, ...]:
+        """The survival curve's uniform time grid, from 0 to ``survival_stop``."""
+        n = self.survival_points
+        return tuple(self.survival_stop * i / (n - 1) for i in range(n))
+
+
+@dataclass(frozen=True)
+class PointSpec:
+    """Every parameter of one point of the sweep, fully resolved."""
+
+    motion: Motion
+    timing: Timing
+    domain: Domain
+    record: Record
+
+    def canonical(self) -> dict[str, Any]:
+        """A JSON-able dictionary of this point's parameters (used for seeding)."""
+        return _jsonable(
+            {
+                "motion": self.motion.__dict__,
+                "time": self.timing.__dict__,
+                "domain": {
+                    **{k: v for k, v in self.domain.__dict__.items() if k != "targets"},
+                    "targets": [t.__dict__ for t in self.domain.targets],
+                },
+                "record": self.record.__dict__,
+            }
+        )
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """A validated sweep: the points to simulate and how many walkers each gets.
+
+    Attributes
+    ----------
+    name, seed, walkers, chunk
+        From ``[sweep]``; ``chunk`` is the number of walkers per task (resolved).
+    source : str
+        Path of the definition file (for messages).
+    swept : tuple of str
+        Dotted keys that vary between points, in definition order.
+    points : tuple of PointSpec, shape (n_points,)
+    values : tuple of tuple, shape (n_points, n_swept)
+        Each point's value of each swept key, as written in the file.
+    canonical : dict
+        The whole definition with defaults filled in; stored with the results.
+    """
+
+    name: str
+    seed: int
+    walkers: int
+    chunk: int
+    source: str
+    swept: tuple[str, ...]
+    points: tuple[PointSpec, ...]
+    values: tuple[tuple[Any, ...], ...]
+    canonical: dict[str, Any] = field(compare=False, repr=False)
+    #: The definition's TOML text, stored with the results for provenance.
+    text: str = field(default="", compare=False, repr=False)
+
+    @property
+    def n_points(self) -> int:
+        return len(self.points)
+
+    @property
+    def n_chunks(self) -> int:
+        return -(-self.walkers // self.chunk)
+
+    @property
+    def dimension(self) -> int:
+        return self.points[0].motion.dimension
+
+    @property
+    def spec_hash(self) -> str:
+        """sha256 of the canonical definition: equal hashes mean equal results."""
+        return canonical_hash(self.canonical)
+
+    def chunk_walkers(self, chunk: int) -> int:
+        """Number of walkers in chunk ``chunk`` (the last one may be smaller)."""
+        return min(self.chunk, self.walkers - chunk * self.chunk)
+
+
+def canonical_hash(canonical: Mapping[str, Any]) -> str:
+    """sha256 hex digest of a canonical dictionary's sorted, compact JSON."""
+    text = json.dumps(canonical, sort_keys=True, separators=(",", ":"))
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
+# --------------------------------------------------------------------------- parsing
+
+
+def load_spec(path: str | Path) -> Sweep:
+    """Read and validate a sweep definition file.
+
+    Parameters
+    ----------
+    path : str or Path
+        A TOML file laid out as in the design's "Sweep definition".
+
+    Returns
+    -------
+    Sweep
+
+    Raises
+    ------
+    SpecError
+        With one message naming the file, the key, the value and what is allowed.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise SpecError(f"{path}: no such sweep definition file.") from None
+    except IsADirectoryError:
+        raise SpecError(f"{path}: is a directory; expected a TOML file.") from None
+    except UnicodeDecodeError as err:
+        raise SpecError(f"{path}: not UTF-8 text ({err.reason}).") from None
+    except OSError as err:
+        raise SpecError(f"{path}: cannot be read ({err.strerror}).") from None
+    return parse_spec(text, source=str(path))
+
+
+def parse_spec(text: str, source: str = "<string>") -> Sweep:
+    """Validate the TOML ``text`` of a sweep definition (see :func:`load_spec`)."""
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise SpecError(f"{source}: not valid TOML: {err}.") from None
+    sweep = _Parser(source).sweep(raw)
+    return dataclasses.replace(sweep, text=text)
+
+
+class _Parser:
+    """Validation with messages that name the file and the key."""
+
+    def __init__(self, source: str) -> None:
+        self.source = source
+        self.context = ""  # e.g. " (grid point 3: motion.diffusivity = -1)"
+
+    def fail(self, key: str, message: str) -> SpecError:
+        return SpecError(f"{self.source}: [{key}] {message}{self.context}")
+
+    # ----- generic value readers
+
+    def keys(
+        self, table: Mapping[str, Any], allowed: Sequence[str], where: str
+    ) -> None:
+        for key in table:
+            if key not in allowed:
+                hint = difflib.get_close_matches(key, allowed, n=1, cutoff=0.5)
+                maybe = f" Did you mean {hint[0]!r}?" if hint else ""
+                raise SpecError(
+                    f"{self.source}: unknown key {key!r} in [{where}]."
+                    f" Allowed keys: {', '.join(allowed)}.{maybe}{self.context}"
+                )
+
+    def table(self, raw: Mapping[str, Any], key: str, where: str) -> dict[str, Any]:
+        value = raw.get(key, {})
+        if not isinstance(value, dict):
+            raise self.fail(
+                f"{where}.{key}" if where else key,
+                f"must be a table; got {value!r}.",
+            )
+        return value
+
+    def required(self, table: Mapping[str, Any], key: str, where: str) -> Any:
+        if key not in table:
+            raise SpecError(
+                f"{self.source}: [{where}] is missing the required key {key!r}.{self.context}"
+            )
+        return table[key]
+
+    def number(
+        self,
+        value: Any,
+        key: str,
+        *,
+        positive: bool = False,
+        nonnegative: bool = False,
+        allow_inf: bool = False,
+    ) -> float:
+        if isinstance(value, str) and value.strip() in ("inf", "+inf", "-inf"):
+            value = float(value)
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            raise self.fail(key, f"must be a number; got {value!r}.")
+        value = float(value)
+        if math.isnan(value):
+            raise self.fail(key, "must be a number; got nan.")
+        if math.isinf(value) and not allow_inf:
+            raise self.fail(key, f"must be finite; got {value!r}.")
+        if positive and not value > 0:
+            raise self.fail(key, f"must be > 0; got {value!r}.")
+        if nonnegative and not value >= 0:
+            raise self.fail(key, f"must be >= 0; got {value!r}.")
+        return value
+
+    def integer(
+        self, value: Any, key: str, *, minimum: int, maximum: int | None = None
+    ) -> int:
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise self.fail(key, f"must be a whole number; got {value!r}.")
+        if value < minimum or (maximum is not None and value > maximum):
+            allowed = (
+                f">= {minimum}" if maximum is None else f"from {minimum} to {maximum}"
+            )
+            raise self.fail(key, f"must be {allowed}; got {value!r}.")
+        return value
+
+    def vector(
+        self, value: Any, key: str, dimension: int, *, allow_inf: bool = False
+    ) -> tuple[float, ...]:
+        if dimension == 1 and not isinstance(value, list):
+            value = [value]
+        if not isinstance(value, list) or len(value) != dimension:
+            raise self.fail(
+                key,
+                f"must be a list of {dimension} numbers (one per axis of a "
+                f"{dimension}-dimensional domain); got {value!r}.",
+            )
+        return tuple(self.number(v, key, allow_inf=allow_inf) for v in value)
+
+    def choice(self, value: Any, key: str, allowed: Sequence[str]) -> str:
+        if value not in allowed:
+            quoted = " or ".join(repr(a) for a in allowed)
+            raise self.fail(key, f"must be {quoted}; got {value!r}.")
+        return str(value)
+
+    def boolean(self, value: Any, key: str) -> bool:
+        if not isinstance(value, bool):
+            raise self.fail(key, f"must be true or false; got {value!r}.")
+        return value
+
+    # ----- the sweep as a whole
+
+    def sweep(self, raw: dict[str, Any]) -> Sweep:
+        self.keys(raw, tuple(SECTIONS), "top level")
+        for name in ("sweep", "motion", "time", "domain"):
+            if name not in raw:
+                raise SpecError(
+                    f"{self.source}: the table [{name}] is missing; a definition needs "
+                    f"[sweep], [motion], [time] and [domain]."
+                )
+        for name in ("sweep", "motion", "time", "domain", "record", "grid"):
+            self.table(raw, name, "")
+        head = raw["sweep"]
+        self.keys(head, SECTIONS["sweep"], "sweep")
+        name = head.get("name", Path(self.source).stem)
+        if not isinstance(name, str) or not name.strip():
+            raise self.fail("sweep.name", f"must be a non-empty string; got {name!r}.")
+        description = head.get("description", "")
+        if not isinstance(description, str):
+            raise self.fail(
+                "sweep.description", f"must be a string; got {description!r}."
+            )
+        seed = self.integer(
+            self.required(head, "seed", "sweep"), "sweep.seed", minimum=0
+        )
+        walkers = self.integer(
+            self.required(head, "walkers", "sweep"), "sweep.walkers", minimum=1
+        )
+        if "chunk" in head:
+            chunk = self.integer(
+                head["chunk"], "sweep.chunk", minimum=1, maximum=walkers
+            )
+        else:
+            chunk = auto_chunk(walkers)
+
+        axes = self.axes(raw)
+        base = {
+            k: copy.deepcopy(raw[k])
+            for k in ("motion", "time", "domain", "record")
+            if k in raw
+        }
+        combos = list(itertools.product(*(values for _, values in axes)))
+        swept = tuple(key for keys, _ in axes for key in keys)
+
+        points: list[PointSpec] = []
+        values: list[tuple[Any, ...]] = []
+        for index, combo in enumerate(combos):
+            flat = tuple(v for group in combo for v in group)
+            point_raw = copy.deepcopy(base)
+            for key, value in zip(swept, flat):
+                _assign(point_raw, key, copy.deepcopy(value))
+            if swept:
+                shown = ", ".join(f"{k} = {_show(v)}" for k, v in zip(swept, flat))
+                self.context = f" (at point {index}: {shown})"
+            points.append(self.point(point_raw))
+            values.append(flat)
+        self.context = ""
+        self.same_shapes(points, swept, values)
+        # Point 0 fully resolved plus every point's swept values determine all points:
+        # keys not swept are equal everywhere, swept ones are overridden everywhere.
+        canonical = _jsonable(
+            {
+                "sweep": {
+                    "name": name,
+                    "seed": seed,
+                    "walkers": walkers,
+                    "chunk": chunk,
+                },
+                "point0": points[0].canonical(),
+                "swept": list(swept),
+                "values": [list(v) for v in values],
+            }
+        )
+        return Sweep(
+            name=name,
+            seed=seed,
+            walkers=walkers,
+            chunk=chunk,
+            source=self.source,
+            swept=swept,
+            points=tuple(points),
+            values=tuple(values),
+            canonical=canonical,
+        )
+
+    def axes(
+        self, raw: dict[str, Any]
+    ) -> list[tuple[tuple[str, ...], list[tuple[Any, ...]]]]:
+        """The sweep's axes: each ([keys], [values per step]); a product over axes."""
+        axes: list[tuple[tuple[str, ...], list[tuple[Any, ...]]]] = []
+        seen: set[str] = set()
+        for key, values in raw.get("grid", {}).items():
+            self.sweep_key(key, "grid", seen)
+            if not isinstance(values, list) or not values:
+                raise self.fail(
+                    f"grid.{key}",
+                    f"must be a non-empty list of values; got {values!r}.",
+                )
+            axes.append(((key,), [(v,) for v in values]))
+        zips = raw.get("zip", [])
+        if not isinstance(zips, list) or not all(isinstance(z, dict) for z in zips):
+            raise self.fail(
+                "zip", "must be written as [[zip]] tables of lists of equal length."
+            )
+        for number, group in enumerate(zips):
+            if not group:
+                raise self.fail(
+                    f"zip #{number + 1}", "is empty; give it at least one key."
+                )
+            lengths = set()
+            for key, values in group.items():
+                self.sweep_key(key, f"zip #{number + 1}", seen)
+                if not isinstance(values, list) or not values:
+                    raise self.fail(
+                        f"zip #{number + 1}.{key}",
+                        f"must be a non-empty list of values; got {values!r}.",
+                    )
+                lengths.add(len(values))
+            if len(lengths) > 1:
+                shown = ", ".join(f"{k}: {len(v)}" for k, v in group.items())
+                raise self.fail(
+                    f"zip #{number + 1}",
+                    f"lists must all have the same length; got {shown}.",
+                )
+            keys = tuple(group)
+            axes.append(
+                (keys, [tuple(group[k][i] for k in keys) for i in range(lengths.pop())])
+            )
+        return axes
+
+    def sweep_key(self, key: str, where: str, seen: set[str]) -> None:
+        parts = key.split(".")
+        section = parts[0]
+        if key in SHAPE_KEYS:
+            raise self.fail(
+                f"{where}.{key}",
+                "cannot be swept: it changes array shapes within one store. "
+                "Write one sweep definition per value instead.",
+            )
+        if section not in SWEEPABLE_SECTIONS or len(parts) < 2:
+            allowed = ", ".join(
+                f"{s}.{k}"
+                for s in SWEEPABLE_SECTIONS
+                for k in SECTIONS[s]
+                if f"{s}.{k}" not in SHAPE_KEYS
+            )
+            raise self.fail(
+                f"{where}.{key}",
+                f"is not a sweepable key. Sweepable keys are dotted paths into "
+                f"[motion], [time] and [domain]: {allowed} "
+                f"(and domain.targets.<i>.center / domain.targets.<i>.radius, "
+                f"domain.walls.<wall>).",
+            )
+        leaf = parts[1]
+        if leaf not in SECTIONS[section]:
+            hint = difflib.get_close_matches(leaf, SECTIONS[section], n=1, cutoff=0.5)
+            maybe = f" Did you mean '{section}.{hint[0]}'?" if hint else ""
+            raise self.fail(
+                f"{where}.{key}",
+                f"names no key of [{section}]; allowed: {', '.join(SECTIONS[section])}.{maybe}",
+            )
+        if len(parts) > 2:
+            ok = (leaf == "walls" and len(parts) == 3) or (
+                leaf == "targets"
+                and len(parts) == 4
+                and parts[2].isdigit()
+                and parts[3] in TARGET_KEYS
+            )
+            if not ok:
+                raise self.fail(
+                    f"{where}.{key}",
+                    "is too deep; only domain.walls.<wall> and "
+                    "domain.targets.<i>.center|radius reach inside a key.",
+                )
+        for other in seen:
+            if (
+                key == other
+                or key.startswith(other + ".")
+                or other.startswith(key + ".")
+            ):
+                raise self.fail(
+                    f"{where}.{key}",
+                    f"is swept twice (also as {other!r}); sweep it once.",
+                )
+        seen.add(key)
+
+    def same_shapes(
+        self,
+        points: list[PointSpec],
+        swept: tuple[str, ...],
+        values: list[tuple[Any, ...]],
+    ) -> None:
+        """Points of one store must share every array shape and wall index."""
+        first = points[0]
+        for index, p in enumerate(points[1:], start=1):
+            if len(p.domain.targets) != len(first.domain.targets):
+                shown = ", ".join(
+                    f"{k} = {_show(v)}" for k, v in zip(swept, values[index])
+                )
+                raise SpecError(
+                    f"{self.source}: point {index} ({shown}) has "
+                    f"{len(p.domain.targets)} targets but point 0 has "
+                    f"{len(first.domain.targets)}; the number of targets fixes wall "
+                    f"indices and cannot change within one store."
+                )
+
+    # ----- one point
+
+    def point(self, raw: dict[str, Any]) -> PointSpec:
+        motion_raw = self.table(raw, "motion", "")
+        self.keys(motion_raw, SECTIONS["motion"], "motion")
+        dimension = self.integer(
+            self.required(motion_raw, "dimension", "motion"),
+            "motion.dimension",
+            minimum=1,
+            maximum=MAX_DIMENSION,
+        )
+        timing = self.timing(self.table(raw, "time", ""))
+        domain = self.domain(self.table(raw, "domain", ""), dimension)
+        motion = self.motion(motion_raw, dimension, domain)
+        record = self.record(self.table(raw, "record", ""), timing, domain)
+        return PointSpec(motion=motion, timing=timing, domain=domain, record=record)
+
+    def timing(self, table: dict[str, Any]) -> Timing:
+        self.keys(table, SECTIONS["time"], "time")
+        dt = self.number(self.required(table, "dt", "time"), "time.dt", positive=True)
+        horizon = self.number(
+            self.required(table, "horizon", "time"), "time.horizon", positive=True
+        )
+        if dt >= horizon:
+            raise self.fail(
+                "time.dt",
+                f"must be smaller than time.horizon = {horizon!r}; got {dt!r}.",
+            )
+        if horizon / dt > 2**62:
+            raise self.fail(
+                "time.horizon", f"needs more than 2^62 steps of dt = {dt!r}."
+            )
+        monitoring = self.choice(
+            table.get("monitoring", "bridge"), "time.monitoring", MONITORING
+        )
+        return Timing(dt=dt, horizon=horizon, monitoring=monitoring)  # type: ignore[arg-type]
+
+    def domain(self, table: dict[str, Any], dimension: int) -> Domain:
+        self.keys(table, SECTIONS["domain"], "domain")
+        shape = self.choice(table.get("shape", "box"), "domain.shape", SHAPES)
+        axes = axis_names(dimension)
+        if shape == "box":
+            for key in ("center", "radius", "wall"):
+                if key in table:
+                    raise self.fail(
+                        f"domain.{key}",
+                        "belongs to a ball domain; a box takes lower, upper and walls.",
+                    )
+            lower = self.vector(
+                self.required(table, "lower", "domain"),
+                "domain.lower",
+                dimension,
+                allow_inf=True,
+            )
+            upper = self.vector(
+                self.required(table, "upper", "domain"),
+                "domain.upper",
+                dimension,
+                allow_inf=True,
+            )
+            for axis, lo, hi in zip(axes, lower, upper):
+                if not lo < hi or lo == math.inf or hi == -math.inf:
+                    raise self.fail(
+                        "domain.lower",
+                        f"must be below domain.upper on every axis; got {lo!r} >= {hi!r} "
+                        f"on axis {axis}.",
+                    )
+            walls = self.table(table, "walls", "domain")
+            names = [f"{a}_{side}" for a in axes for side in ("low", "high")]
+            self.keys(walls, names, "domain.walls")
+            low: list[bool] = []
+            high: list[bool] = []
+            for axis, lo, hi in zip(axes, lower, upper):
+                for side, bound, kinds in (("low", lo, low), ("high", hi, high)):
+                    name = f"{axis}_{side}"
+                    if math.isinf(bound):
+                        if name in walls:
+                            raise self.fail(
+                                f"domain.walls.{name}",
+                                f"is at infinity (domain.{'lower' if side == 'low' else 'upper'} "
+                                f"is {bound!r}); remove it.",
+                            )
+                        kinds.append(False)
+                        continue
+                    if name not in walls:
+                        raise self.fail(
+                            "domain.walls",
+                            f"must give the kind of wall {name!r} "
+                            f'("absorbing" or "reflecting"); got {sorted(walls)!r}.',
+                        )
+                    kind = self.choice(walls[name], f"domain.walls.{name}", WALL_KINDS)
+                    kinds.append(kind == "absorbing")
+            domain = Domain(
+                shape="box",
+                lower=lower,
+                upper=upper,
+                absorbing_low=tuple(low),
+                absorbing_high=tuple(high),
+            )
+        else:
+            for key in ("lower", "upper", "walls"):
+                if key in table:
+                    raise self.fail(
+                        f"domain.{key}",
+                        "belongs to a box domain; a ball takes center, radius and wall.",
+                    )
+            if dimension < 2:
+                raise self.fail(
+                    "domain.shape",
+                    '"ball" needs motion.dimension >= 2; in one dimension use a box '
+                    "(an interval).",
+                )
+            center = self.vector(
+                self.required(table, "center", "domain"), "domain.center", dimension
+            )
+            radius = self.number(
+                self.required(table, "radius", "domain"), "domain.radius", positive=True
+            )
+            kind = self.choice(
+                self.required(table, "wall", "domain"), "domain.wall", WALL_KINDS
+            )
+            domain = Domain(
+                shape="ball",
+                lower=tuple(c - radius for c in center),
+                upper=tuple(c + radius for c in center),
+                absorbing_low=(False,) * dimension,
+                absorbing_high=(False,) * dimension,
+                center=center,
+                radius=radius,
+                surface_absorbing=kind == "absorbing",
+            )
+        targets = table.get("targets", [])
+        if not isinstance(targets, list):
+            raise self.fail(
+                "domain.targets", f"must be a list of tables; got {targets!r}."
+            )
+        parsed: list[Target] = []
+        for i, target in enumerate(targets):
+            key = f"domain.targets.{i}"
+            if not isinstance(target, dict):
+                raise self.fail(
+                    key,
+                    f"must be a table {{ center = [...], radius = ... }}; got {target!r}.",
+                )
+            self.keys(target, TARGET_KEYS, key)
+            center = self.vector(
+                self.required(target, "center", key), f"{key}.center", dimension
+            )
+            radius = self.number(
+                self.required(target, "radius", key), f"{key}.radius", positive=True
+            )
+            if not _inside_box_or_ball(domain, center):
+                raise self.fail(
+                    f"{key}.center",
+                    f"must lie inside the domain; got {list(center)!r}.",
+                )
+            parsed.append(Target(center=center, radius=radius))
+        if parsed:
+            domain = Domain(**{**domain.__dict__, "targets": tuple(parsed)})
+        return domain
+
+    def motion(self, table: dict[str, Any], dimension: int, domain: Domain) -> Motion:
+        diffusivity = self.number(
+            self.required(table, "diffusivity", "motion"),
+            "motion.diffusivity",
+            positive=True,
+        )
+        drift = self.vector(
+            table.get("drift", [0.0] * dimension), "motion.drift", dimension
+        )
+        start_raw = self.required(table, "start", "motion")
+        if start_raw == "uniform":
+            if not domain.bounded:
+                raise self.fail(
+                    "motion.start",
+                    '"uniform" needs a bounded domain (every side finite); give a start '
+                    "point instead.",
+                )
+            return Motion(dimension, diffusivity, drift, None)
+        if isinstance(start_raw, str):
+            raise self.fail(
+                "motion.start",
+                f'must be a point (list of {dimension} numbers) or "uniform"; got {start_raw!r}.',
+            )
+        start = self.vector(start_raw, "motion.start", dimension)
+        if not _inside_box_or_ball(domain, start):
+            raise self.fail(
+                "motion.start",
+                f"must lie strictly inside the domain; got {list(start)!r}.",
+            )
+        for i, target in enumerate(domain.targets):
+            if _distance(start, target.center) <= target.radius:
+                raise self.fail(
+                    "motion.start",
+                    f"lies inside target {i} (center {list(target.center)!r}, radius "
+                    f"{target.radius!r}); got {list(start)!r}. Start outside every target.",
+                )
+        return Motion(dimension, diffusivity, drift, start)
+
+    def record(self, table: dict[str, Any], timing: Timing, domain: Domain) -> Record:
+        self.keys(table, SECTIONS["record"], "record")
+        per_walker = self.boolean(table.get("per_walker", True), "record.per_walker")
+        survival = table.get("survival", {})
+        if not isinstance(survival, dict):
+            raise self.fail(
+                "record.survival",
+                f"must be a table {{ stop, points }}; got {survival!r}.",
+            )
+        self.keys(survival, ("stop", "points"), "record.survival")
+        stop = self.number(
+            survival.get("stop", timing.horizon), "record.survival.stop", positive=True
+        )
+        if stop > timing.horizon * (1 + 1e-12):
+            raise self.fail(
+                "record.survival.stop",
+                f"must not exceed time.horizon = {timing.horizon!r}; got {stop!r}.",
+            )
+        points = self.integer(
+            survival.get("points", DEFAULT_SURVIVAL_POINTS),
+            "record.survival.points",
+            minimum=2,
+            maximum=1_000_000,
+        )
+        occupancy = table.get("occupancy")
+        if occupancy is None:
+            return Record(per_walker, stop, points)
+        if not isinstance(occupancy, dict):
+            raise self.fail(
+                "record.occupancy",
+                f"must be a table {{ times, bins }}; got {occupancy!r}.",
+            )
+        self.keys(occupancy, ("times", "bins", "lower", "upper"), "record.occupancy")
+        times_raw = self.required(occupancy, "times", "record.occupancy")
+        if not isinstance(times_raw, list) or not times_raw:
+            raise self.fail(
+                "record.occupancy.times",
+                f"must be a non-empty list; got {times_raw!r}.",
+            )
+        times = tuple(
+            self.number(t, "record.occupancy.times", nonnegative=True)
+            for t in times_raw
+        )
+        for t in times:
+            if t > timing.horizon:
+                raise self.fail(
+                    "record.occupancy.times",
+                    f"must lie within [0, time.horizon = {timing.horizon!r}]; got {t!r}.",
+                )
+        d = domain.dimension
+        bins = self.integer(
+            self.required(occupancy, "bins", "record.occupancy"),
+            "record.occupancy.bins",
+            minimum=1,
+            maximum=int(round((10**7) ** (1 / d))),
+        )
+        lower = domain.lower
+        upper = domain.upper
+        if "lower" in occupancy:
+            lower = self.vector(occupancy["lower"], "record.occupancy.lower", d)
+        if "upper" in occupancy:
+            upper = self.vector(occupancy["upper"], "record.occupancy.upper", d)
+        if not all(math.isfinite(v) for v in lower + upper):
+            raise self.fail(
+                "record.occupancy",
+                "needs finite bin ranges; the domain is unbounded, so give "
+                "record.occupancy.lower and record.occupancy.upper.",
+            )
+        if not all(lo < hi for lo, hi in zip(lower, upper)):
+            raise self.fail(
+                "record.occupancy.lower",
+                f"must be below record.occupancy.upper on every axis; got {list(lower)!r} "
+                f"and {list(upper)!r}.",
+            )
+        return Record(per_walker, stop, points, times, bins, lower, upper)
+
+
+def auto_chunk(walkers: int, target: int = 100_000) -> int:
+    """Walkers per task when the definition gives none: about ``target``, evenly split."""
+    n_chunks = -(-walkers // target)
+    return -(-walkers // n_chunks)
+
+
+# --------------------------------------------------------------------------- helpers
+
+
+def _distance(a: Sequence[float], b: Sequence[float]) -> float:
+    return math.sqrt(sum((x - y) ** 2 for x, y in zip(a, b)))
+
+
+def _inside_box_or_ball(domain: Domain, point: Sequence[float]) -> bool:
+    if domain.shape == "box":
+        return all(lo < p < hi for p, lo, hi in zip(point, domain.lower, domain.upper))
+    return _distance(point, domain.center) < domain.radius
+
+
+def _assign(raw: dict[str, Any], key: str, value: Any) -> None:
+    """Set ``raw[a][b]...`` for a dotted ``key`` (integer parts index lists)."""
+    parts = key.split(".")
+    node: Any = raw
+    for i, part in enumerate(parts[:-1]):
+        if isinstance(node, list):
+            index = int(part)
+            if index >= len(node):
+                raise SpecError(
+                    f"swept key {key!r}: {'.'.join(parts[:i])} has only {len(node)} entries; "
+                    f"got index {index}."
+                )
+            node = node[index]
+        else:
+            if part not in node:
+                node[part] = [] if parts[i + 1].isdigit() else {}
+            node = node[part]
+    if isinstance(node, list):
+        index = int(parts[-1])
+        if index >= len(node):
+            raise SpecError(
+                f"swept key {key!r}: index {index} beyond the list of {len(node)}."
+            )
+        node[index] = value
+    else:
+        node[parts[-1]] = value
+
+
+def _show(value: Any) -> str:
+    return json.dumps(_jsonable(value))
+
+
+def _jsonable(value: Any) -> Any:
+    """Plain JSON data: tuples become lists, infinities become the strings 'inf'."""
+    if isinstance(value, dict):
+        return {str(k): _jsonable(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_jsonable(v) for v in value]
+    if isinstance(value, float) and math.isinf(value):
+        return "inf" if value > 0 else "-inf"
+    return value

@@ -1,0 +1,259 @@
+"""End-to-end runs on the real stack: definition -> Dask threads -> numba -> zarr -> xarray.
+
+Determinism and resume are checked bit for bit (exact equality of every stored array).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import random
+import signal
+import subprocess
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import sweep
+from sweep import store
+from sweep.errors import StoreError, StoreLockedError, StoreMismatchError
+from sweep.execute import RunOptions, run, run_task
+from sweep.plan import make_plan
+from sweep.spec import load_spec
+from tests.conftest import SMALL_SPEC, assert_stores_identical, sweep_command
+
+#: Seconds to wait for a subprocess sweep to reach a state before giving up.
+PATIENCE = 120.0
+
+
+def _run(spec: Path, out: Path, threads: int = 2) -> None:
+    summary = run(spec, out, RunOptions(threads=threads, progress=False))
+    assert summary.complete
+
+
+def test_run_is_identical_for_any_thread_count(small_spec: Path, tmp_path: Path) -> None:
+    _run(small_spec, tmp_path / "one.zarr", threads=1)
+    _run(small_spec, tmp_path / "two.zarr", threads=2)
+    assert_stores_identical(tmp_path / "one.zarr", tmp_path / "two.zarr")
+
+
+def test_run_is_identical_for_any_task_order(small_spec: Path, tmp_path: Path) -> None:
+    _run(small_spec, tmp_path / "ordered.zarr")
+    plan = make_plan(load_spec(small_spec))
+    path = store.prepare(tmp_path / "shuffled.zarr", plan)
+    tasks = list(plan.tasks)
+    random.Random(3).shuffle(tasks)
+    for task in tasks:
+        assert "error" not in run_task(str(path), task)
+    assert_stores_identical(tmp_path / "ordered.zarr", path)
+
+
+def test_task_stream_does_not_depend_on_other_points(small_spec: Path, tmp_path: Path) -> None:
+    """Dropping a grid value leaves the other point's data unchanged."""
+    _run(small_spec, tmp_path / "both.zarr")
+    single = tmp_path / "single.toml"
+    single.write_text(SMALL_SPEC.replace("[0.5, 1.0]", "[1.0]"))
+    _run(single, tmp_path / "single.zarr")
+    both = sweep.open(tmp_path / "both.zarr")
+    one = sweep.open(tmp_path / "single.zarr")
+    np.testing.assert_array_equal(
+        both.first_passage_time.sel(point=1).values, one.first_passage_time.sel(point=0).values
+    )
+
+
+def test_rerun_of_complete_store_does_nothing(small_spec: Path, tmp_path: Path) -> None:
+    out = tmp_path / "s.zarr"
+    _run(small_spec, out)
+    before = {p: p.stat().st_mtime_ns for p in out.rglob("*") if p.is_file() and "_runs" not in p.name}
+    summary = run(small_spec, out, RunOptions(threads=2, progress=False))
+    assert summary.completed == 0 and summary.already_done == summary.n_tasks
+    after = {p: p.stat().st_mtime_ns for p in out.rglob("*") if p.is_file() and "_runs" not in p.name}
+    assert before == after
+
+
+def test_resume_recomputes_only_missing_tasks(small_spec: Path, tmp_path: Path) -> None:
+    _run(small_spec, tmp_path / "full.zarr")
+    out = tmp_path / "partial.zarr"
+    _run(small_spec, out)
+    # Forget three tasks: remove their markers (their chunks may stay: they are redone).
+    markers = sorted((out / "_tasks").iterdir())
+    for marker in markers[::4]:
+        marker.unlink()
+    summary = run(small_spec, out, RunOptions(threads=2, progress=False))
+    assert summary.completed == len(markers[::4])
+    assert_stores_identical(tmp_path / "full.zarr", out)
+
+
+def test_sigkilled_run_resumes_bit_identical(small_spec: Path, tmp_path: Path, cli_env: dict[str, str]) -> None:
+    reference = tmp_path / "reference.zarr"
+    _run(small_spec, reference)
+    out = tmp_path / "killed.zarr"
+    for attempt in range(3):
+        proc = subprocess.Popen(
+            [*sweep_command(), "run", str(small_spec), "--store", str(out), "--threads", "2", "--quiet"],
+            env=cli_env,
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.DEVNULL,
+        )
+        deadline = time.monotonic() + PATIENCE
+        target = 2 + 3 * attempt
+        while time.monotonic() < deadline and proc.poll() is None:
+            if len(store.done_tasks(out)) >= target:
+                break
+            time.sleep(0.01)
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+    killed_done = len(store.done_tasks(out))
+    assert killed_done < 12, "the run finished before it could be killed; make tasks longer"
+    # The killed runner's lock is stale: the rerun takes it over and completes.
+    result = subprocess.run(
+        [*sweep_command(), "run", str(small_spec), "--store", str(out), "--quiet"],
+        env=cli_env,
+        capture_output=True,
+        text=True,
+        timeout=PATIENCE,
+    )
+    assert result.returncode == 0, result.stderr
+    assert_stores_identical(reference, out)
+
+
+def test_open_selects_points_by_parameter(small_spec: Path, tmp_path: Path) -> None:
+    out = tmp_path / "s.zarr"
+    _run(small_spec, out)
+    ds = sweep.open(out)
+    assert ds.first_passage_time.dims == ("point", "walker")
+    assert ds.exit_position.dims == ("point", "walker", "axis")
+    assert ds.survival.dims == ("point", "time")
+    assert ds.occupancy.dims == ("point", "snapshot", "x_bin")
+    assert ds.done.dims == ("point", "chunk") and bool(ds.done.all())
+    # Lazy: per-walker variables are dask arrays until computed.
+    assert ds.first_passage_time.chunks is not None
+    picked = ds.set_xindex("diffusivity").sel(diffusivity=1.0)
+    assert picked.first_passage_time.dims == ("walker",)
+    where = ds.where(ds.diffusivity == 0.5, drop=True)
+    assert where.sizes["point"] == 1
+    # Snapshot times keep the user's order (0.2, then 0.05) and are snapped to dt.
+    np.testing.assert_array_equal(ds.snapshot_time.isel(point=0).values, [0.2, 0.05])
+    # Free walkers at t = 0.05 outnumber those at t = 0.2 (absorption only removes).
+    occ = ds.occupancy.sum("x_bin").compute()
+    assert (occ.isel(snapshot=1) >= occ.isel(snapshot=0)).all()
+    # Survival at t = 0 is one; counts match per-walker data exactly.
+    np.testing.assert_array_equal(ds.survival.isel(time=0).values, [1.0, 1.0])
+    t = ds.time.values[5]
+    free = (ds.first_passage_time > t) | ds.first_passage_time.isnull()
+    np.testing.assert_array_equal(free.sum("walker").values, ds.survival_count.isel(time=5).values)
+
+
+def test_open_masks_unfinished_tasks(small_spec: Path, tmp_path: Path) -> None:
+    out = tmp_path / "s.zarr"
+    _run(small_spec, out)
+    (out / "_tasks" / "p1-c2.json").unlink()
+    ds = sweep.open(out)
+    assert not bool(ds.done.sel(point=1, chunk=2))
+    assert int(ds.walkers_done.sel(point=1)) == 2500
+    fpt = ds.first_passage_time.sel(point=1).values
+    assert np.isnan(fpt[1000:1500]).all() and not np.isnan(fpt[:1000]).all()
+    assert (ds.absorbing_wall.sel(point=1).values[1000:1500] == -1).all()
+    np.testing.assert_array_equal(ds.survival.isel(time=0).values, [1.0, 1.0])
+
+
+def test_store_of_another_definition_is_refused(small_spec: Path, tmp_path: Path) -> None:
+    out = tmp_path / "s.zarr"
+    _run(small_spec, out)
+    before = {p: p.read_bytes() for p in out.rglob("*") if p.is_file() and "_runs" not in p.name}
+    other = tmp_path / "other.toml"
+    other.write_text(SMALL_SPEC.replace("walkers = 3000", "walkers = 4000"))
+    with pytest.raises(StoreMismatchError, match=r"sweep\.walkers: stored 3000, now 4000"):
+        run(other, out, RunOptions(threads=1, progress=False))
+    after = {p: p.read_bytes() for p in out.rglob("*") if p.is_file() and "_runs" not in p.name}
+    assert before == after
+
+
+def test_path_that_is_not_a_store_is_refused(small_spec: Path, tmp_path: Path) -> None:
+    unrelated = tmp_path / "data"
+    unrelated.mkdir()
+    (unrelated / "notes.txt").write_text("keep me")
+    with pytest.raises(StoreError, match="is not a brownian-sweep store"):
+        run(small_spec, unrelated, RunOptions(threads=1, progress=False))
+    assert (unrelated / "notes.txt").read_text() == "keep me"
+
+
+def test_live_lock_refuses_second_runner(small_spec: Path, tmp_path: Path) -> None:
+    out = tmp_path / "s.zarr"
+    path = store.prepare(out, make_plan(load_spec(small_spec)))
+    with store.runner_lock(path):
+        with pytest.raises(StoreLockedError, match="another `sweep run` is using this store"):
+            run(small_spec, out, RunOptions(threads=1, progress=False))
+    # Released on exit: a run now goes through.
+    _run(small_spec, out)
+
+
+def test_stale_lock_is_taken_over(small_spec: Path, tmp_path: Path, caplog: pytest.LogCaptureFixture) -> None:
+    out = tmp_path / "s.zarr"
+    path = store.prepare(out, make_plan(load_spec(small_spec)))
+    dead = subprocess.Popen(["true"])
+    dead.wait()
+    import socket
+
+    (path / store.LOCK_FILE).write_text(
+        json.dumps({"pid": dead.pid, "host": socket.gethostname(), "started": "earlier", "token": "x"})
+    )
+    with caplog.at_level("WARNING"):
+        _run(small_spec, out)
+    assert "stale lock" in caplog.text
+    assert not (path / store.LOCK_FILE).exists()
+
+
+def test_partial_files_are_cleaned_and_never_read(small_spec: Path, tmp_path: Path) -> None:
+    out = tmp_path / "s.zarr"
+    _run(small_spec, tmp_path / "ref.zarr")
+    path = store.prepare(out, make_plan(load_spec(small_spec)))
+    chunk_dir = path / "first_passage_time" / "c" / "0"
+    chunk_dir.mkdir(parents=True)
+    leftover = chunk_dir / "0.1234abcd.partial"
+    leftover.write_bytes(os.urandom(64))
+    outside = tmp_path / "victim.partial"
+    outside.write_text("not the store's")
+    (path / "link.partial").symlink_to(outside)
+    _run(small_spec, out)
+    assert not leftover.exists()
+    assert outside.read_text() == "not the store's"
+    (path / "link.partial").unlink()
+    assert_stores_identical(tmp_path / "ref.zarr", out)
+
+
+def test_cli_run_and_status(small_spec: Path, tmp_path: Path, cli_env: dict[str, str]) -> None:
+    out = tmp_path / "s.zarr"
+    result = subprocess.run(
+        [*sweep_command(), "run", str(small_spec), "--store", str(out), "--threads", "2"],
+        env=cli_env,
+        capture_output=True,
+        text=True,
+        timeout=PATIENCE,
+    )
+    assert result.returncode == 0, result.stderr
+    assert "12/12 tasks done" in result.stdout
+    assert "all checks passed" in result.stdout
+    status = subprocess.run(
+        [*sweep_command(), "status", str(out)], env=cli_env, capture_output=True, text=True, timeout=PATIENCE
+    )
+    assert status.returncode == 0, status.stderr
+    assert "6/6" in status.stdout and "12/12 tasks done" in status.stdout
+
+
+def test_cli_bad_definition_exits_2(tmp_path: Path, cli_env: dict[str, str]) -> None:
+    bad = tmp_path / "bad.toml"
+    bad.write_text(SMALL_SPEC.replace("diffusivity = 0.5", "difusivity = 0.5"))
+    result = subprocess.run(
+        [*sweep_command(), "run", str(bad), "--store", str(tmp_path / "x.zarr")],
+        env=cli_env,
+        capture_output=True,
+        text=True,
+        timeout=PATIENCE,
+    )
+    assert result.returncode == 2
+    assert "bad.toml" in result.stderr and "Did you mean 'diffusivity'?" in result.stderr
+    assert "Traceback" not in result.stderr
+    assert not (tmp_path / "x.zarr").exists()
