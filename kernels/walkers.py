@@ -157,6 +157,21 @@ def simulate(  # type: ignore[no-untyped-def]
     drift_step = np.empty(d)
     for i in range(d):
         drift_step[i] = drift[i] * dt
+    # Face positions as sentinels: -inf/+inf where a face is absent or of the other kind.
+    refl_lo = np.full(d, -math.inf)
+    refl_hi = np.full(d, math.inf)
+    abs_lo = np.full(d, -math.inf)
+    abs_hi = np.full(d, math.inf)
+    if not is_ball:
+        for i in range(d):
+            if absorbing_low[i]:
+                abs_lo[i] = lower[i]
+            else:
+                refl_lo[i] = lower[i]
+            if absorbing_high[i]:
+                abs_hi[i] = upper[i]
+            else:
+                refl_hi[i] = upper[i]
     steps_done = 0
 
     for w in range(n_walkers):
@@ -193,49 +208,36 @@ def simulate(  # type: ignore[no-untyped-def]
         step = 0
         while step < n_steps:
             step += 1
-            # 2. Free increment, then mirror images at reflecting walls.
+            # 2. Free increment and mirror images at reflecting faces; then absorbing
+            #    faces, crossed at the step end or (bridge) in between. Absent faces
+            #    are +-inf sentinels, so far from walls a step costs two compares.
+            frac = 2.0
             for i in range(d):
-                y[i] = x[i] + drift_step[i] + sigma * rng.standard_normal()
+                xi = x[i]
+                yi = xi + drift_step[i] + sigma * rng.standard_normal()
+                if yi < refl_lo[i] or yi > refl_hi[i]:
+                    yi = _fold(yi, refl_lo[i], refl_hi[i])
+                y[i] = yi
+                d1 = xi - abs_lo[i]
+                d2 = yi - abs_lo[i]
+                if d2 <= 0.0 or (bridge and d1 * d2 < cutoff):
+                    f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
+                    if f < frac:
+                        frac = f
+                        hit_wall = 2 * i
+                d1 = abs_hi[i] - xi
+                d2 = abs_hi[i] - yi
+                if d2 <= 0.0 or (bridge and d1 * d2 < cutoff):
+                    f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
+                    if f < frac:
+                        frac = f
+                        hit_wall = 2 * i + 1
             if is_ball:
                 if not ball_absorbing:
                     _reflect_ball(y, ball_center, ball_radius)
-            else:
-                for i in range(d):
-                    # Repeat: a long increment in a narrow box may overshoot both sides.
-                    while True:
-                        if y[i] < lower[i] and not absorbing_low[i]:
-                            y[i] = 2.0 * lower[i] - y[i]
-                        elif y[i] > upper[i] and not absorbing_high[i]:
-                            y[i] = 2.0 * upper[i] - y[i]
-                        else:
-                            break
-
-            # 3. Absorbing walls: crossed at the step end, or (bridge) in between.
-            #    The earliest crossing time wins.
-            frac = 2.0
-            if not is_ball:
-                for i in range(d):
-                    for side in range(2):
-                        if side == 0:
-                            if not absorbing_low[i]:
-                                continue
-                            d1 = x[i] - lower[i]
-                            d2 = y[i] - lower[i]
-                        else:
-                            if not absorbing_high[i]:
-                                continue
-                            d1 = upper[i] - x[i]
-                            d2 = upper[i] - y[i]
-                        crossed = d2 <= 0.0
-                        if not crossed and bridge and d1 * d2 < cutoff:
-                            crossed = rng.random() < math.exp(-d1 * d2 * kill_scale)
-                        if crossed:
-                            f = _hit_fraction(rng, d1, abs(d2), diffusivity, dt, bridge)
-                            if f < frac:
-                                frac = f
-                                hit_wall = 2 * i + side
-            else:
-                if ball_absorbing:
+                else:
+                    # Curved surface: distances along the radius, i.e. to the
+                    # tangent plane at the nearest point.
                     r1 = 0.0
                     r2 = 0.0
                     for i in range(d):
@@ -243,11 +245,8 @@ def simulate(  # type: ignore[no-untyped-def]
                         r2 += (y[i] - ball_center[i]) ** 2
                     d1 = ball_radius - math.sqrt(r1)
                     d2 = ball_radius - math.sqrt(r2)
-                    crossed = d2 <= 0.0
-                    if not crossed and bridge and d1 * d2 < cutoff:
-                        crossed = rng.random() < math.exp(-d1 * d2 * kill_scale)
-                    if crossed:
-                        f = _hit_fraction(rng, d1, abs(d2), diffusivity, dt, bridge)
+                    if d2 <= 0.0 or (bridge and d1 * d2 < cutoff):
+                        f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
                         if f < frac:
                             frac = f
                             hit_wall = n_targets
@@ -262,11 +261,8 @@ def simulate(  # type: ignore[no-untyped-def]
                     continue
                 d1 = math.sqrt(r1) - target_radius[k]
                 d2 = math.sqrt(r2) - target_radius[k]
-                crossed = d2 <= 0.0
-                if not crossed and bridge and d1 * d2 < cutoff:
-                    crossed = rng.random() < math.exp(-d1 * d2 * kill_scale)
-                if crossed:
-                    f = _hit_fraction(rng, d1, abs(d2), diffusivity, dt, bridge)
+                if d2 <= 0.0 or (bridge and d1 * d2 < cutoff):
+                    f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
                     if f < frac:
                         frac = f
                         hit_wall = n_box_walls + k
@@ -308,6 +304,31 @@ def simulate(  # type: ignore[no-untyped-def]
         above += hist[k + 1]
         out_survival[k] += above
     return steps_done
+
+
+@njit(nogil=True, cache=True)
+def _fold(y, lo, hi):  # type: ignore[no-untyped-def]
+    """Mirror ``y`` into [lo, hi], repeatedly: a long step may overshoot both sides."""
+    while True:
+        if y < lo:
+            y = 2.0 * lo - y
+        elif y > hi:
+            y = 2.0 * hi - y
+        else:
+            return y
+
+
+@njit(nogil=True, cache=True)
+def _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+    """Step fraction at which a face was first touched, or 2.0 when it was not.
+
+    ``d1`` > 0 and ``d2`` are the signed distances of the step's start and end from
+    the face (negative: beyond it). An end inside is killed with the bridge crossing
+    probability exp(-d1 d2 / (D dt)).
+    """
+    if d2 > 0.0 and rng.random() >= math.exp(-d1 * d2 * kill_scale):
+        return 2.0
+    return _hit_fraction(rng, d1, abs(d2), diffusivity, dt, bridge)
 
 
 @njit(nogil=True, cache=True)

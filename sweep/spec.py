@@ -14,6 +14,7 @@ import hashlib
 import itertools
 import json
 import math
+import random
 import tomllib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
@@ -27,6 +28,9 @@ WALL_KINDS: tuple[str, ...] = ("absorbing", "reflecting")
 MONITORING: tuple[str, ...] = ("bridge", "endpoint")
 SHAPES: tuple[str, ...] = ("box", "ball")
 MAX_DIMENSION = 8
+#: At most this many occupancy bins in all (bins ** dimension), so each task's histogram
+#: stays below 80 MB per snapshot.
+MAX_OCCUPANCY_BINS = 10**7
 #: Default number of points of the survival curve's uniform time grid.
 DEFAULT_SURVIVAL_POINTS = 101
 
@@ -325,8 +329,9 @@ class _Parser:
             if key not in allowed:
                 hint = difflib.get_close_matches(key, allowed, n=1, cutoff=0.5)
                 maybe = f" Did you mean {hint[0]!r}?" if hint else ""
+                place = "at the top level" if not where else f"in [{where}]"
                 raise SpecError(
-                    f"{self.source}: unknown key {key!r} in [{where}]."
+                    f"{self.source}: unknown key {key!r} {place}."
                     f" Allowed keys: {', '.join(allowed)}.{maybe}{self.context}"
                 )
 
@@ -335,7 +340,7 @@ class _Parser:
         if not isinstance(value, dict):
             raise self.fail(
                 f"{where}.{key}" if where else key,
-                f"must be a table; got {value!r}.",
+                f"must be a table; got {_toml(value)}.",
             )
         return value
 
@@ -358,28 +363,33 @@ class _Parser:
         if isinstance(value, str) and value.strip() in ("inf", "+inf", "-inf"):
             value = float(value)
         if isinstance(value, bool) or not isinstance(value, int | float):
-            raise self.fail(key, f"must be a number; got {value!r}.")
-        value = float(value)
+            raise self.fail(key, f"must be a number; got {_toml(value)}.")
+        try:
+            value = float(value)
+        except OverflowError:
+            raise self.fail(
+                key, f"must be a number within +-1.8e308; got {_toml(value)}."
+            ) from None
         if math.isnan(value):
-            raise self.fail(key, "must be a number; got nan.")
+            raise self.fail(key, "must be a finite number; got nan.")
         if math.isinf(value) and not allow_inf:
-            raise self.fail(key, f"must be finite; got {value!r}.")
+            raise self.fail(key, f"must be finite; got {_toml(value)}.")
         if positive and not value > 0:
-            raise self.fail(key, f"must be > 0; got {value!r}.")
+            raise self.fail(key, f"must be > 0; got {_toml(value)}.")
         if nonnegative and not value >= 0:
-            raise self.fail(key, f"must be >= 0; got {value!r}.")
+            raise self.fail(key, f"must be >= 0; got {_toml(value)}.")
         return value
 
     def integer(
         self, value: Any, key: str, *, minimum: int, maximum: int | None = None
     ) -> int:
         if isinstance(value, bool) or not isinstance(value, int):
-            raise self.fail(key, f"must be a whole number; got {value!r}.")
+            raise self.fail(key, f"must be a whole number; got {_toml(value)}.")
         if value < minimum or (maximum is not None and value > maximum):
             allowed = (
                 f">= {minimum}" if maximum is None else f"from {minimum} to {maximum}"
             )
-            raise self.fail(key, f"must be {allowed}; got {value!r}.")
+            raise self.fail(key, f"must be {allowed}; got {_toml(value)}.")
         return value
 
     def vector(
@@ -390,26 +400,26 @@ class _Parser:
         if not isinstance(value, list) or len(value) != dimension:
             raise self.fail(
                 key,
-                f"must be a list of {dimension} numbers (one per axis of a "
-                f"{dimension}-dimensional domain); got {value!r}.",
+                f"must be a list of {dimension} number{'s' if dimension > 1 else ''} "
+                f"(one per axis of a {dimension}-dimensional domain); got {_toml(value)}.",
             )
         return tuple(self.number(v, key, allow_inf=allow_inf) for v in value)
 
     def choice(self, value: Any, key: str, allowed: Sequence[str]) -> str:
         if value not in allowed:
             quoted = " or ".join(repr(a) for a in allowed)
-            raise self.fail(key, f"must be {quoted}; got {value!r}.")
+            raise self.fail(key, f"must be {quoted}; got {_toml(value)}.")
         return str(value)
 
     def boolean(self, value: Any, key: str) -> bool:
         if not isinstance(value, bool):
-            raise self.fail(key, f"must be true or false; got {value!r}.")
+            raise self.fail(key, f"must be true or false; got {_toml(value)}.")
         return value
 
     # ----- the sweep as a whole
 
     def sweep(self, raw: dict[str, Any]) -> Sweep:
-        self.keys(raw, tuple(SECTIONS), "top level")
+        self.keys(raw, tuple(SECTIONS), "")
         for name in ("sweep", "motion", "time", "domain"):
             if name not in raw:
                 raise SpecError(
@@ -422,11 +432,13 @@ class _Parser:
         self.keys(head, SECTIONS["sweep"], "sweep")
         name = head.get("name", Path(self.source).stem)
         if not isinstance(name, str) or not name.strip():
-            raise self.fail("sweep.name", f"must be a non-empty string; got {name!r}.")
+            raise self.fail(
+                "sweep.name", f"must be a non-empty string; got {_toml(name)}."
+            )
         description = head.get("description", "")
         if not isinstance(description, str):
             raise self.fail(
-                "sweep.description", f"must be a string; got {description!r}."
+                "sweep.description", f"must be a string; got {_toml(description)}."
             )
         seed = self.integer(
             self.required(head, "seed", "sweep"), "sweep.seed", minimum=0
@@ -456,7 +468,7 @@ class _Parser:
             flat = tuple(v for group in combo for v in group)
             point_raw = copy.deepcopy(base)
             for key, value in zip(swept, flat):
-                _assign(point_raw, key, copy.deepcopy(value))
+                self.assign(point_raw, key, copy.deepcopy(value))
             if swept:
                 shown = ", ".join(f"{k} = {_show(v)}" for k, v in zip(swept, flat))
                 self.context = f" (at point {index}: {shown})"
@@ -464,19 +476,18 @@ class _Parser:
             values.append(flat)
         self.context = ""
         self.same_shapes(points, swept, values)
+        points = self.common_survival_grid(points, raw)
         # Point 0 fully resolved plus every point's swept values determine all points:
         # keys not swept are equal everywhere, swept ones are overridden everywhere.
         canonical = _jsonable(
             {
-                "sweep": {
-                    "name": name,
-                    "seed": seed,
-                    "walkers": walkers,
-                    "chunk": chunk,
-                },
+                # The name is a label, not part of the hash: renaming the file (its
+                # default name) must not block resuming.
+                "sweep": {"seed": seed, "walkers": walkers, "chunk": chunk},
                 "point0": points[0].canonical(),
                 "swept": list(swept),
-                "values": [list(v) for v in values],
+                # Every sweepable number is a float: 1 and 1.0 are the same point.
+                "values": [[_floats(x) for x in v] for v in values],
             }
         )
         return Sweep(
@@ -498,11 +509,18 @@ class _Parser:
         axes: list[tuple[tuple[str, ...], list[tuple[Any, ...]]]] = []
         seen: set[str] = set()
         for key, values in raw.get("grid", {}).items():
+            if isinstance(values, dict):
+                raise self.fail(
+                    f"grid.{key}",
+                    "is a table, not a list: write dotted keys in quotes, e.g. "
+                    '"motion.diffusivity" = [0.5, 1.0] (without quotes TOML reads the '
+                    "dots as nested tables).",
+                )
             self.sweep_key(key, "grid", seen)
             if not isinstance(values, list) or not values:
                 raise self.fail(
                     f"grid.{key}",
-                    f"must be a non-empty list of values; got {values!r}.",
+                    f"must be a non-empty list of values; got {_toml(values)}.",
                 )
             axes.append(((key,), [(v,) for v in values]))
         zips = raw.get("zip", [])
@@ -521,7 +539,7 @@ class _Parser:
                 if not isinstance(values, list) or not values:
                     raise self.fail(
                         f"zip #{number + 1}.{key}",
-                        f"must be a non-empty list of values; got {values!r}.",
+                        f"must be a non-empty list of values; got {_toml(values)}.",
                     )
                 lengths.add(len(values))
             if len(lengths) > 1:
@@ -571,7 +589,7 @@ class _Parser:
             ok = (leaf == "walls" and len(parts) == 3) or (
                 leaf == "targets"
                 and len(parts) == 4
-                and parts[2].isdigit()
+                and _is_index(parts[2])
                 and parts[3] in TARGET_KEYS
             )
             if not ok:
@@ -591,6 +609,57 @@ class _Parser:
                     f"is swept twice (also as {other!r}); sweep it once.",
                 )
         seen.add(key)
+
+    def common_survival_grid(
+        self, points: list[PointSpec], raw: dict[str, Any]
+    ) -> list[PointSpec]:
+        """One survival time grid for the whole store.
+
+        Without an explicit ``record.survival.stop`` the grid ends at the shortest
+        horizon of all points (the horizon may be swept).
+        """
+        survival = raw.get("record", {}).get("survival", {})
+        if "stop" in survival:
+            return points
+        stop = min(p.timing.horizon for p in points)
+        return [
+            dataclasses.replace(
+                p, record=dataclasses.replace(p.record, survival_stop=stop)
+            )
+            for p in points
+        ]
+
+    def assign(self, raw: dict[str, Any], key: str, value: Any) -> None:
+        """Set ``raw[a][b]...`` for a swept dotted ``key``; integer parts index lists."""
+        parts = key.split(".")
+        node: Any = raw
+        for depth, part in enumerate(parts):
+            last = depth == len(parts) - 1
+            where = ".".join(parts[:depth]) or "the definition"
+            if isinstance(node, list):
+                index = int(part)
+                if index >= len(node):
+                    entries = "entry" if len(node) == 1 else "entries"
+                    raise self.fail(
+                        f"grid.{key}",
+                        f"reaches entry {index} of {where}, which has {len(node)} {entries}.",
+                    )
+                if last:
+                    node[index] = value
+                else:
+                    node = node[index]
+            elif isinstance(node, dict):
+                if last:
+                    node[part] = value
+                else:
+                    if part not in node:
+                        node[part] = [] if _is_index(parts[depth + 1]) else {}
+                    node = node[part]
+            else:
+                raise self.fail(
+                    f"grid.{key}",
+                    f"reaches into {where}, which is {_toml(node)} and not a table or list.",
+                )
 
     def same_shapes(
         self,
@@ -638,7 +707,7 @@ class _Parser:
         if dt >= horizon:
             raise self.fail(
                 "time.dt",
-                f"must be smaller than time.horizon = {horizon!r}; got {dt!r}.",
+                f"must be smaller than time.horizon = {horizon!r}; got {_toml(dt)}.",
             )
         if horizon / dt > 2**62:
             raise self.fail(
@@ -676,11 +745,21 @@ class _Parser:
                 if not lo < hi or lo == math.inf or hi == -math.inf:
                     raise self.fail(
                         "domain.lower",
-                        f"must be below domain.upper on every axis; got {lo!r} >= {hi!r} "
+                        f"must be below domain.upper on every axis; got {_toml(lo)} >= {hi!r} "
                         f"on axis {axis}.",
                     )
             walls = self.table(table, "walls", "domain")
             names = [f"{a}_{side}" for a in axes for side in ("low", "high")]
+            for name in walls:
+                axis = name.rsplit("_", 1)[0]
+                if name not in names and name.endswith(("_low", "_high")):
+                    if axis in axis_names(MAX_DIMENSION):
+                        raise self.fail(
+                            f"domain.walls.{name}",
+                            f"names axis {axis!r}, but this {dimension}-dimensional "
+                            f"domain has only the axes {', '.join(axes)}; remove it or "
+                            f"raise motion.dimension.",
+                        )
             self.keys(walls, names, "domain.walls")
             low: list[bool] = []
             high: list[bool] = []
@@ -700,7 +779,7 @@ class _Parser:
                         raise self.fail(
                             "domain.walls",
                             f"must give the kind of wall {name!r} "
-                            f'("absorbing" or "reflecting"); got {sorted(walls)!r}.',
+                            f'("absorbing" or "reflecting"); got {_toml(sorted(walls))}.',
                         )
                     kind = self.choice(walls[name], f"domain.walls.{name}", WALL_KINDS)
                     kinds.append(kind == "absorbing")
@@ -746,7 +825,7 @@ class _Parser:
         targets = table.get("targets", [])
         if not isinstance(targets, list):
             raise self.fail(
-                "domain.targets", f"must be a list of tables; got {targets!r}."
+                "domain.targets", f"must be a list of tables; got {_toml(targets)}."
             )
         parsed: list[Target] = []
         for i, target in enumerate(targets):
@@ -754,7 +833,7 @@ class _Parser:
             if not isinstance(target, dict):
                 raise self.fail(
                     key,
-                    f"must be a table {{ center = [...], radius = ... }}; got {target!r}.",
+                    f"must be a table {{ center = [...], radius = ... }}; got {_toml(target)}.",
                 )
             self.keys(target, TARGET_KEYS, key)
             center = self.vector(
@@ -766,7 +845,7 @@ class _Parser:
             if not _inside_box_or_ball(domain, center):
                 raise self.fail(
                     f"{key}.center",
-                    f"must lie inside the domain; got {list(center)!r}.",
+                    f"must lie inside the domain; got {_toml(list(center))}.",
                 )
             parsed.append(Target(center=center, radius=radius))
         if parsed:
@@ -790,24 +869,30 @@ class _Parser:
                     '"uniform" needs a bounded domain (every side finite); give a start '
                     "point instead.",
                 )
+            if domain.targets and _free_fraction(domain) == 0.0:
+                raise self.fail(
+                    "motion.start",
+                    '"uniform" needs free space, but the targets cover the whole domain; '
+                    "make them smaller or give a start point.",
+                )
             return Motion(dimension, diffusivity, drift, None)
         if isinstance(start_raw, str):
             raise self.fail(
                 "motion.start",
-                f'must be a point (list of {dimension} numbers) or "uniform"; got {start_raw!r}.',
+                f'must be a point (list of {dimension} numbers) or "uniform"; got {_toml(start_raw)}.',
             )
         start = self.vector(start_raw, "motion.start", dimension)
         if not _inside_box_or_ball(domain, start):
             raise self.fail(
                 "motion.start",
-                f"must lie strictly inside the domain; got {list(start)!r}.",
+                f"must lie strictly inside the domain; got {_toml(list(start))}.",
             )
         for i, target in enumerate(domain.targets):
             if _distance(start, target.center) <= target.radius:
                 raise self.fail(
                     "motion.start",
                     f"lies inside target {i} (center {list(target.center)!r}, radius "
-                    f"{target.radius!r}); got {list(start)!r}. Start outside every target.",
+                    f"{target.radius!r}); got {_toml(list(start))}. Start outside every target.",
                 )
         return Motion(dimension, diffusivity, drift, start)
 
@@ -818,7 +903,7 @@ class _Parser:
         if not isinstance(survival, dict):
             raise self.fail(
                 "record.survival",
-                f"must be a table {{ stop, points }}; got {survival!r}.",
+                f"must be a table {{ stop, points }}; got {_toml(survival)}.",
             )
         self.keys(survival, ("stop", "points"), "record.survival")
         stop = self.number(
@@ -827,7 +912,7 @@ class _Parser:
         if stop > timing.horizon * (1 + 1e-12):
             raise self.fail(
                 "record.survival.stop",
-                f"must not exceed time.horizon = {timing.horizon!r}; got {stop!r}.",
+                f"must not exceed time.horizon = {timing.horizon!r}; got {_toml(stop)}.",
             )
         points = self.integer(
             survival.get("points", DEFAULT_SURVIVAL_POINTS),
@@ -841,14 +926,14 @@ class _Parser:
         if not isinstance(occupancy, dict):
             raise self.fail(
                 "record.occupancy",
-                f"must be a table {{ times, bins }}; got {occupancy!r}.",
+                f"must be a table {{ times, bins }}; got {_toml(occupancy)}.",
             )
         self.keys(occupancy, ("times", "bins", "lower", "upper"), "record.occupancy")
         times_raw = self.required(occupancy, "times", "record.occupancy")
         if not isinstance(times_raw, list) or not times_raw:
             raise self.fail(
                 "record.occupancy.times",
-                f"must be a non-empty list; got {times_raw!r}.",
+                f"must be a non-empty list; got {_toml(times_raw)}.",
             )
         times = tuple(
             self.number(t, "record.occupancy.times", nonnegative=True)
@@ -858,14 +943,27 @@ class _Parser:
             if t > timing.horizon:
                 raise self.fail(
                     "record.occupancy.times",
-                    f"must lie within [0, time.horizon = {timing.horizon!r}]; got {t!r}.",
+                    f"must lie within [0, time.horizon = {timing.horizon!r}]; got {_toml(t)}.",
                 )
         d = domain.dimension
+        bins_raw = self.required(occupancy, "bins", "record.occupancy")
+        if (
+            isinstance(bins_raw, int)
+            and not isinstance(bins_raw, bool)
+            and bins_raw > 0
+        ):
+            if bins_raw**d > MAX_OCCUPANCY_BINS:
+                raise self.fail(
+                    "record.occupancy.bins",
+                    f"gives {bins_raw}^{d} = {bins_raw**d:.3g} bins in all; at most "
+                    f"{MAX_OCCUPANCY_BINS:.0e} are allowed (bins per axis, to the power "
+                    f"of the dimension). Got {bins_raw}.",
+                )
         bins = self.integer(
             self.required(occupancy, "bins", "record.occupancy"),
             "record.occupancy.bins",
             minimum=1,
-            maximum=int(round((10**7) ** (1 / d))),
+            maximum=max(1, int((MAX_OCCUPANCY_BINS * (1 + 1e-12)) ** (1 / d))),
         )
         lower = domain.lower
         upper = domain.upper
@@ -882,7 +980,7 @@ class _Parser:
         if not all(lo < hi for lo, hi in zip(lower, upper)):
             raise self.fail(
                 "record.occupancy.lower",
-                f"must be below record.occupancy.upper on every axis; got {list(lower)!r} "
+                f"must be below record.occupancy.upper on every axis; got {_toml(list(lower))} "
                 f"and {list(upper)!r}.",
             )
         return Record(per_walker, stop, points, times, bins, lower, upper)
@@ -898,7 +996,7 @@ def auto_chunk(walkers: int, target: int = 100_000) -> int:
 
 
 def _distance(a: Sequence[float], b: Sequence[float]) -> float:
-    return math.sqrt(sum((x - y) ** 2 for x, y in zip(a, b)))
+    return math.dist(a, b)  # no overflow for huge coordinates, unlike summed squares
 
 
 def _inside_box_or_ball(domain: Domain, point: Sequence[float]) -> bool:
@@ -907,36 +1005,59 @@ def _inside_box_or_ball(domain: Domain, point: Sequence[float]) -> bool:
     return _distance(point, domain.center) < domain.radius
 
 
-def _assign(raw: dict[str, Any], key: str, value: Any) -> None:
-    """Set ``raw[a][b]...`` for a dotted ``key`` (integer parts index lists)."""
-    parts = key.split(".")
-    node: Any = raw
-    for i, part in enumerate(parts[:-1]):
-        if isinstance(node, list):
-            index = int(part)
-            if index >= len(node):
-                raise SpecError(
-                    f"swept key {key!r}: {'.'.join(parts[:i])} has only {len(node)} entries; "
-                    f"got index {index}."
-                )
-            node = node[index]
-        else:
-            if part not in node:
-                node[part] = [] if parts[i + 1].isdigit() else {}
-            node = node[part]
-    if isinstance(node, list):
-        index = int(parts[-1])
-        if index >= len(node):
-            raise SpecError(
-                f"swept key {key!r}: index {index} beyond the list of {len(node)}."
-            )
-        node[index] = value
-    else:
-        node[parts[-1]] = value
+def _free_fraction(domain: Domain, samples: int = 4096) -> float:
+    """Fraction of the bounding box that is inside the domain and outside targets."""
+    rng = random.Random(0)  # deterministic: validation must not depend on chance
+    inside = 0
+    for _ in range(samples):
+        p = [
+            lo + (hi - lo) * rng.random() for lo, hi in zip(domain.lower, domain.upper)
+        ]
+        inside += domain.contains(p)
+    return inside / samples
+
+
+def _floats(value: Any) -> Any:
+    if isinstance(value, bool):
+        return value
+    if isinstance(value, int):
+        return float(value)
+    if isinstance(value, list):
+        return [_floats(v) for v in value]
+    if isinstance(value, dict):
+        return {k: _floats(v) for k, v in value.items()}
+    return value
+
+
+def _is_index(text: str) -> bool:
+    return text.isascii() and text.isdigit()
+
+
+def _toml(value: Any) -> str:
+    """A value as it would be written in TOML, for messages."""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, str):
+        return json.dumps(value)
+    if isinstance(value, float):
+        if math.isnan(value):
+            return "nan"
+        if math.isinf(value):
+            return "inf" if value > 0 else "-inf"
+        return repr(value)
+    if isinstance(value, int):
+        return str(value)
+    if isinstance(value, list | tuple):
+        return "[" + ", ".join(_toml(v) for v in value) + "]"
+    if isinstance(value, dict):
+        if not value:
+            return "{}"
+        return "{ " + ", ".join(f"{k} = {_toml(v)}" for k, v in value.items()) + " }"
+    return str(value)
 
 
 def _show(value: Any) -> str:
-    return json.dumps(_jsonable(value))
+    return _toml(value)
 
 
 def _jsonable(value: Any) -> Any:

@@ -257,3 +257,28 @@ def test_cli_bad_definition_exits_2(tmp_path: Path, cli_env: dict[str, str]) -> 
     assert "bad.toml" in result.stderr and "Did you mean 'diffusivity'?" in result.stderr
     assert "Traceback" not in result.stderr
     assert not (tmp_path / "x.zarr").exists()
+
+
+def test_ctrl_c_stops_cleanly_and_resumes(small_spec: Path, tmp_path: Path, cli_env: dict[str, str]) -> None:
+    reference = tmp_path / "reference.zarr"
+    _run(small_spec, reference)
+    out = tmp_path / "interrupted.zarr"
+    proc = subprocess.Popen(
+        [*sweep_command(), "run", str(small_spec), "--store", str(out), "--threads", "1", "--quiet"],
+        env=cli_env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
+    deadline = time.monotonic() + PATIENCE
+    while time.monotonic() < deadline and len(store.done_tasks(out)) < 2 and proc.poll() is None:
+        time.sleep(0.01)
+    proc.send_signal(signal.SIGINT)
+    stdout, stderr = proc.communicate(timeout=PATIENCE)
+    assert proc.returncode == 130, stderr
+    assert "Traceback" not in stderr
+    assert "rerun" in (stdout + stderr).lower()
+    assert len(store.done_tasks(out)) < 12
+    assert not (out / store.LOCK_FILE).exists()
+    _run(small_spec, out)
+    assert_stores_identical(reference, out)

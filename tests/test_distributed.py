@@ -1,0 +1,167 @@
+"""The same definition on a local process cluster and on real scheduler/worker processes.
+
+Schedulers and workers are real processes on 127.0.0.1; results must be bit-identical to
+the threaded run, also when a worker is killed with SIGKILL in the middle of a task.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+
+from sweep import store
+from sweep.execute import RunOptions, run
+from tests.conftest import SMALL_SPEC, assert_stores_identical
+
+pytestmark = pytest.mark.distributed
+
+#: Seconds to wait for processes to start, connect or finish.
+PATIENCE = 120.0
+BIN = Path(sys.executable).parent
+
+
+def _spawn(args: list[str], log: Path) -> subprocess.Popen[bytes]:
+    with log.open("wb") as out:  # the child keeps its own descriptor
+        return subprocess.Popen(
+            args, stdout=out, stderr=subprocess.STDOUT, start_new_session=True, cwd=log.parent
+        )
+
+
+def _stop(proc: subprocess.Popen[bytes]) -> None:
+    if proc.poll() is None:
+        os.killpg(proc.pid, signal.SIGTERM)
+        try:
+            proc.wait(timeout=30)
+        except subprocess.TimeoutExpired:
+            os.killpg(proc.pid, signal.SIGKILL)
+            proc.wait()
+
+
+@pytest.fixture
+def cluster(tmp_path: Path) -> Iterator[Path]:
+    """A real `dask scheduler` and two single-threaded `dask worker` processes."""
+    workdir = tmp_path / "cluster"
+    workdir.mkdir()
+    scheduler_file = workdir / "scheduler.json"
+    scheduler = _spawn(
+        [
+            str(BIN / "dask"),
+            "scheduler",
+            "--host",
+            "127.0.0.1",
+            "--port",
+            "0",
+            "--dashboard-address",
+            ":0",
+            "--scheduler-file",
+            str(scheduler_file),
+        ],
+        workdir / "scheduler.log",
+    )
+    deadline = time.monotonic() + PATIENCE
+    while not scheduler_file.exists() and time.monotonic() < deadline:
+        time.sleep(0.1)
+    workers = _spawn(
+        [
+            str(BIN / "dask"),
+            "worker",
+            "--scheduler-file",
+            str(scheduler_file),
+            "--nworkers",
+            "2",
+            "--nthreads",
+            "1",
+            "--host",
+            "127.0.0.1",
+            "--no-dashboard",
+        ],
+        workdir / "workers.log",
+    )
+    try:
+        from distributed import Client
+
+        with Client(scheduler_file=str(scheduler_file), timeout="60s") as client:
+            client.wait_for_workers(2, timeout=PATIENCE)
+        yield scheduler_file
+    finally:
+        _stop(workers)
+        _stop(scheduler)
+
+
+@pytest.fixture
+def reference(small_spec: Path, tmp_path: Path) -> Path:
+    out = tmp_path / "threads.zarr"
+    assert run(small_spec, out, RunOptions(threads=2, progress=False)).complete
+    return out
+
+
+def test_processes_match_threads(small_spec: Path, reference: Path, tmp_path: Path) -> None:
+    out = tmp_path / "processes.zarr"
+    summary = run(small_spec, out, RunOptions(processes=2, progress=False))
+    assert summary.complete
+    assert_stores_identical(reference, out)
+    # The markers say which worker process ran each task.
+    pids = {m["pid"] for m in store.read_markers(out)}
+    assert os.getpid() not in pids
+
+
+def test_scheduler_file_and_address_match_threads(
+    small_spec: Path, reference: Path, tmp_path: Path, cluster: Path
+) -> None:
+    by_file = tmp_path / "by-file.zarr"
+    assert run(small_spec, by_file, RunOptions(scheduler_file=str(cluster), progress=False)).complete
+    assert_stores_identical(reference, by_file)
+    address = json.loads(cluster.read_text())["address"]
+    by_address = tmp_path / "by-address.zarr"
+    result = subprocess.run(
+        [sys.executable, "-m", "sweep.cli", "run", str(small_spec), "--store", str(by_address),
+         "--scheduler", address, "--quiet"],
+        capture_output=True,
+        text=True,
+        timeout=PATIENCE,
+    )  # fmt: skip
+    assert result.returncode == 0, result.stderr
+    assert_stores_identical(reference, by_address)
+
+
+def test_worker_killed_mid_task_loses_nothing(
+    small_spec: Path, reference: Path, tmp_path: Path, cluster: Path
+) -> None:
+    from distributed import Client
+
+    # Longer tasks, so the kill lands while a task runs.
+    slow = tmp_path / "slow.toml"
+    slow.write_text(SMALL_SPEC.replace("dt = 1e-3", "dt = 2e-4"))
+    slow_reference = tmp_path / "slow-threads.zarr"
+    assert run(slow, slow_reference, RunOptions(threads=2, progress=False)).complete
+
+    out = tmp_path / "killed-worker.zarr"
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "sweep.cli", "run", str(slow), "--store", str(out),
+         "--scheduler-file", str(cluster), "--quiet"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )  # fmt: skip
+    with Client(scheduler_file=str(cluster), timeout="60s") as client:
+        deadline = time.monotonic() + PATIENCE
+        while time.monotonic() < deadline:
+            processing = client.processing()
+            busy = [w for w, keys in processing.items() if keys]
+            if busy and len(store.done_tasks(out)) >= 1:
+                break
+            time.sleep(0.05)
+        victim = busy[0]
+        pid = client.run(os.getpid, workers=[victim])[victim]
+    os.kill(pid, signal.SIGKILL)
+    stdout, stderr = proc.communicate(timeout=PATIENCE)
+    assert proc.returncode == 0, stderr
+    assert_stores_identical(slow_reference, out)
