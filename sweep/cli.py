@@ -56,6 +56,26 @@ def build_parser() -> argparse.ArgumentParser:
         "plan", help="show the points, tasks and work of a definition"
     )
     plan.add_argument("spec")
+
+    export = sub.add_parser("export", help="copy a store to an HDF5 file")
+    export.add_argument("store")
+    export.add_argument("out", help="HDF5 file to write")
+    export.add_argument(
+        "--points", help="point indices to export, e.g. 0,3,5-9 (default: all)"
+    )
+    export.add_argument(
+        "--variables", help="comma-separated variable names (default: all)"
+    )
+
+    bench = sub.add_parser(
+        "bench", help="kernel throughput as ratios to this machine's limits"
+    )
+    bench.add_argument(
+        "--repeats", type=int, default=5, help="repetitions per case (median)"
+    )
+    bench.add_argument(
+        "--walkers", type=int, default=20_000, help="walkers per kernel call"
+    )
     return parser
 
 
@@ -86,6 +106,10 @@ def _dispatch(args: argparse.Namespace) -> int:
         return _check(args)
     if args.command == "plan":
         return _plan(args)
+    if args.command == "bench":
+        return _bench(args)
+    if args.command == "export":
+        return _export(args)
     raise AssertionError(args.command)  # argparse rejects unknown commands
 
 
@@ -203,6 +227,51 @@ def _plan(args: argparse.Namespace) -> int:
     )
     if sweep.swept:
         print(f"  swept:         {', '.join(sweep.swept)}")
+    return 0
+
+
+def _export(args: argparse.Namespace) -> int:
+    from sweep.export import export_hdf5
+
+    points = _index_list(args.points, "--points") if args.points else None
+    variables = (
+        [v.strip() for v in args.variables.split(",")] if args.variables else None
+    )
+    out = export_hdf5(args.store, args.out, points=points, variables=variables)
+    print(f"wrote {out}")
+    return 0
+
+
+def _index_list(text: str, option: str) -> list[int]:
+    """Parse "0,3,5-9" into [0, 3, 5, 6, 7, 8, 9]."""
+    out: list[int] = []
+    for part in text.split(","):
+        a, dash, b = part.strip().partition("-")
+        if not a.isdigit() or (dash and not b.isdigit()):
+            raise SweepError(f"{option}: expected indices like 0,3,5-9; got {text!r}.")
+        out += list(range(int(a), int(b) + 1)) if dash else [int(a)]
+    return out
+
+
+def _bench(args: argparse.Namespace) -> int:
+    from sweep.bench import HEADER, run_bench, verdicts
+
+    print("walker-steps per second on one core, medians over repetitions; ratios are")
+    print("taken within each repetition (kernel and reference run back to back).")
+    print(HEADER)
+    rows, speedup = run_bench(
+        repeats=args.repeats,
+        walkers=args.walkers,
+        report=lambda line: print(line, flush=True),
+    )
+    print(f"\ntwo threads / one thread (3-D box, bridge): {speedup:.2f}x")
+    print("\ntargets:")
+    for name, measured, wanted, met in verdicts(rows, speedup):
+        shown = f"{measured:.0%}" if wanted < 1 else f"{measured:.2f}x"
+        want = f"{wanted:.0%}" if wanted < 1 else f"{wanted:.1f}x"
+        print(
+            f"  {name:45} {shown:>8}  (target >= {want})  {'met' if met else 'NOT met'}"
+        )
     return 0
 
 

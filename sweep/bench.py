@@ -1,0 +1,333 @@
+"""``sweep bench``: kernel throughput as ratios measured in one run.
+
+For each standard case the kernel's walker-steps per second (one core) is measured back
+to back with (a) this machine's rate of drawing the d standard normals a walker-step
+needs, with the same generator (the ceiling), and (b) a plain vectorised numpy
+implementation of the same case. Ratios are taken within each repetition, then the
+median over repetitions is reported: absolute rates on shared machines swing by tens of
+percent, ratios much less. Two threads are compared with one for the parallel speed-up.
+"""
+
+from __future__ import annotations
+
+import math
+import statistics
+import time
+from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass
+
+import numpy as np
+
+from kernels.ceiling import draw_normals
+from sweep.execute import simulate_task
+from sweep.plan import KernelArgs, Task, make_plan
+from sweep.spec import parse_spec
+
+#: Targets of the kernel issue, as ratios: plain kernels vs the ceiling, every option
+#: combination vs the ceiling, numba vs numpy in 1-D and 3-D, two threads vs one.
+TARGET_PLAIN = 0.70
+TARGET_OPTIONS = 0.55
+TARGET_NUMPY_1D = 2.0
+TARGET_NUMPY_3D = 3.0
+TARGET_THREADS = 1.8
+
+_COMMON = """
+[sweep]
+seed = 1
+walkers = {walkers}
+[time]
+dt = {dt}
+horizon = 50.0
+"""
+
+CASES: dict[str, str] = {
+    "interval 1-D": """
+[motion]
+dimension = 1
+diffusivity = 0.5
+start = [0.5]
+[domain]
+lower = [0.0]
+upper = [1.0]
+walls = { x_low = "absorbing", x_high = "absorbing" }
+""",
+    "box 3-D (2 abs + 4 refl)": """
+[motion]
+dimension = 3
+diffusivity = 0.5
+start = [0.5, 0.5, 0.5]
+[domain]
+lower = [0.0, 0.0, 0.0]
+upper = [1.0, 1.0, 1.0]
+walls = { x_low = "absorbing", x_high = "absorbing", y_low = "reflecting", y_high = "reflecting", z_low = "reflecting", z_high = "reflecting" }
+""",
+    "ball 3-D": """
+[motion]
+dimension = 3
+diffusivity = 0.5
+start = [0.0, 0.0, 0.0]
+[domain]
+shape = "ball"
+center = [0.0, 0.0, 0.0]
+radius = 1.0
+wall = "absorbing"
+""",
+    "refl. box 3-D + target": """
+[motion]
+dimension = 3
+diffusivity = 0.5
+start = [0.1, 0.1, 0.1]
+[domain]
+lower = [0.0, 0.0, 0.0]
+upper = [1.0, 1.0, 1.0]
+walls = { x_low = "reflecting", x_high = "reflecting", y_low = "reflecting", y_high = "reflecting", z_low = "reflecting", z_high = "reflecting" }
+targets = [{ center = [0.5, 0.5, 0.5], radius = 0.2 }]
+""",
+}
+
+OCCUPANCY = """
+[record]
+occupancy = { times = [0.01, 0.02, 0.05, 0.1, 0.2, 0.3, 0.5, 1.0, 2.0, 5.0], bins = 16 }
+"""
+
+
+@dataclass(frozen=True)
+class BenchRow:
+    """Median rates (walker-steps/s) and median within-repetition ratios of one case."""
+
+    case: str
+    options: str
+    kernel_rate: float
+    ceiling_rate: float
+    numpy_rate: float
+    of_ceiling: float
+    over_numpy: float
+
+
+def _task(case: str, occupancy: bool, bridge: bool, walkers: int, dt: float) -> Task:
+    text = _COMMON.format(walkers=walkers, dt=dt) + CASES[case]
+    if not bridge:
+        text = text.replace("horizon = 50.0", 'horizon = 50.0\nmonitoring = "endpoint"')
+    if occupancy:
+        text += OCCUPANCY
+    return make_plan(parse_spec(text, source=f"<bench {case}>")).tasks[0]
+
+
+def _kernel_rate(task: Task) -> tuple[float, int]:
+    start = time.perf_counter()
+    _, steps = simulate_task(task)
+    return steps / (time.perf_counter() - start), steps
+
+
+def _ceiling_rate(steps: int, dimension: int, seed: int) -> float:
+    rng = np.random.Generator(np.random.PCG64(seed))
+    start = time.perf_counter()
+    draw_normals(rng, steps, dimension)
+    return steps / (time.perf_counter() - start)
+
+
+def numpy_walk(args: KernelArgs, n_walkers: int, rng: np.random.Generator) -> int:
+    """Plain vectorised numpy version of the kernel's step loop; returns walker-steps.
+
+    Same physics as the kernel (mirror reflection, bridge test near absorbing walls,
+    targets, ball surface, occupancy snapshots) without its bookkeeping of exit points
+    and hitting times, which would only slow numpy further.
+    """
+    x = np.tile(args.start, (n_walkers, 1))
+    sigma = math.sqrt(2 * args.diffusivity * args.dt)
+    cutoff = 20.0 * args.diffusivity * args.dt
+    drift = args.drift * args.dt
+    lo, hi = args.lower, args.upper
+    refl_lo = np.where(args.absorbing_low, -np.inf, lo)
+    refl_hi = np.where(args.absorbing_high, np.inf, hi)
+    abs_lo = np.where(args.absorbing_low, lo, -np.inf)
+    abs_hi = np.where(args.absorbing_high, hi, np.inf)
+    ball = math.isfinite(args.ball_radius)
+    snapshots = set(args.occupancy_steps.tolist())
+    steps = 0
+    for step in range(1, args.n_steps + 1):
+        if x.shape[0] == 0:
+            break
+        steps += x.shape[0]
+        y = x + drift + sigma * rng.standard_normal(x.shape)
+        while True:  # mirror until inside (narrow boxes)
+            below, above = y < refl_lo, y > refl_hi
+            if not (below.any() or above.any()):
+                break
+            y = np.where(below, 2 * refl_lo - y, y)
+            y = np.where(above, 2 * refl_hi - y, y)
+        dead = ((y <= abs_lo) | (y >= abs_hi)).any(axis=1)
+        if args.bridge:
+            for a, sign in ((abs_lo, 1.0), (abs_hi, -1.0)):
+                d1, d2 = sign * (x - a), sign * (y - a)
+                prod = np.where(d2 > 0, d1 * d2, np.inf)
+                near = prod < cutoff
+                if near.any():
+                    p = np.exp(-np.where(near, prod, 0) / (args.diffusivity * args.dt))
+                    dead |= (near & (rng.random(x.shape) < p)).any(axis=1)
+        if ball:
+            r1 = np.linalg.norm(x - args.ball_center, axis=1)
+            r2 = np.linalg.norm(y - args.ball_center, axis=1)
+            if args.ball_absorbing:
+                dead |= r2 >= args.ball_radius
+                if args.bridge:
+                    prod = (args.ball_radius - r1) * (args.ball_radius - r2)
+                    near = (prod > 0) & (prod < cutoff)
+                    dead |= near & (
+                        rng.random(len(x))
+                        < np.exp(-prod / (args.diffusivity * args.dt))
+                    )
+            else:
+                out = r2 > args.ball_radius
+                y[out] = (
+                    args.ball_center
+                    + (y[out] - args.ball_center)
+                    * ((2 * args.ball_radius - r2[out]) / r2[out])[:, None]
+                )
+        for center, radius in zip(args.target_center, args.target_radius):
+            r1 = np.linalg.norm(x - center, axis=1) - radius
+            r2 = np.linalg.norm(y - center, axis=1) - radius
+            dead |= r2 <= 0
+            if args.bridge:
+                prod = r1 * r2
+                near = (prod > 0) & (prod < cutoff)
+                dead |= near & (
+                    rng.random(len(x)) < np.exp(-prod / (args.diffusivity * args.dt))
+                )
+        x = y[~dead]
+        if step in snapshots:
+            edges = [
+                np.linspace(a, b, args.occupancy_bins + 1)
+                for a, b in zip(args.occupancy_lower, args.occupancy_upper)
+            ]
+            np.histogramdd(x, bins=edges)
+    return steps
+
+
+def _numpy_rate(task: Task, walkers: int, seed: int) -> float:
+    rng = np.random.Generator(np.random.PCG64(seed))
+    start = time.perf_counter()
+    steps = numpy_walk(task.args, walkers, rng)
+    return steps / (time.perf_counter() - start)
+
+
+def _median(values: list[float]) -> float:
+    return statistics.median(values)
+
+
+def run_bench(
+    repeats: int = 5,
+    walkers: int = 20_000,
+    dt: float = 1e-3,
+    numpy_walkers: int = 100_000,
+    report: Callable[[str], None] = print,
+) -> tuple[list[BenchRow], float]:
+    """Measure every case; returns the rows and the two-thread speed-up."""
+    warm = _task("interval 1-D", True, True, 10, dt)
+    simulate_task(warm)
+    draw_normals(np.random.Generator(np.random.PCG64(0)), 10, 1)
+    rows: list[BenchRow] = []
+    for case in CASES:
+        for occupancy in (False, True):
+            for bridge in (True, False):
+                task = _task(case, occupancy, bridge, walkers, dt)
+                np_task = _task(case, occupancy, bridge, numpy_walkers, dt)
+                d = task.args.start.shape[0]
+                k_rates, c_rates, n_rates, ratios_c, ratios_n = [], [], [], [], []
+                for rep in range(repeats):
+                    k, steps = _kernel_rate(task)
+                    c = _ceiling_rate(steps, d, rep)
+                    n = _numpy_rate(np_task, numpy_walkers, rep)
+                    k_rates.append(k)
+                    c_rates.append(c)
+                    n_rates.append(n)
+                    ratios_c.append(k / c)
+                    ratios_n.append(k / n)
+                options = ("bridge" if bridge else "endpoint") + (
+                    " + occupancy" if occupancy else ""
+                )
+                row = BenchRow(
+                    case,
+                    options,
+                    _median(k_rates),
+                    _median(c_rates),
+                    _median(n_rates),
+                    _median(ratios_c),
+                    _median(ratios_n),
+                )
+                rows.append(row)
+                report(_format_row(row))
+    speedup = thread_speedup(
+        _task("box 3-D (2 abs + 4 refl)", False, True, walkers, dt), repeats
+    )
+    return rows, speedup
+
+
+def thread_speedup(task: Task, repeats: int) -> float:
+    """Median over repetitions of (2 threads' combined rate) / (1 thread's rate)."""
+    ratios = []
+    with ThreadPoolExecutor(2) as pool:
+        for _ in range(repeats):
+            one, _ = _kernel_rate(task)
+            start = time.perf_counter()
+            results = list(pool.map(lambda t: simulate_task(t)[1], [task, task]))
+            two = sum(results) / (time.perf_counter() - start)
+            ratios.append(two / one)
+    return _median(ratios)
+
+
+HEADER = (
+    f"{'case':26} {'options':22} {'kernel':>9} {'ceiling':>9} {'numpy':>9} "
+    f"{'kernel/ceiling':>15} {'kernel/numpy':>13}"
+)
+
+
+def _format_row(row: BenchRow) -> str:
+    return (
+        f"{row.case:26} {row.options:22} {row.kernel_rate / 1e6:8.1f}M {row.ceiling_rate / 1e6:8.1f}M "
+        f"{row.numpy_rate / 1e6:8.1f}M {row.of_ceiling:15.0%} {row.over_numpy:12.1f}x"
+    )
+
+
+def verdicts(
+    rows: list[BenchRow], speedup: float
+) -> list[tuple[str, float, float, bool]]:
+    """(target, measured, wanted, met) for each of the issue's throughput targets."""
+    # "Plain" is the kernel without options: endpoint monitoring, no occupancy.
+    plain = [r.of_ceiling for r in rows if r.options == "endpoint"]
+    every = [r.of_ceiling for r in rows]
+    one_d = [r.over_numpy for r in rows if r.case.startswith("interval")]
+    three_d = [r.over_numpy for r in rows if "3-D" in r.case]
+    return [
+        (
+            "plain kernels / ceiling (worst case)",
+            min(plain),
+            TARGET_PLAIN,
+            min(plain) >= TARGET_PLAIN,
+        ),
+        (
+            "every option combination / ceiling (worst)",
+            min(every),
+            TARGET_OPTIONS,
+            min(every) >= TARGET_OPTIONS,
+        ),
+        (
+            "kernel / numpy, 1-D (worst)",
+            min(one_d),
+            TARGET_NUMPY_1D,
+            min(one_d) >= TARGET_NUMPY_1D,
+        ),
+        (
+            "kernel / numpy, 3-D (worst)",
+            min(three_d),
+            TARGET_NUMPY_3D,
+            min(three_d) >= TARGET_NUMPY_3D,
+        ),
+        (
+            "two threads / one thread",
+            speedup,
+            TARGET_THREADS,
+            speedup >= TARGET_THREADS,
+        ),
+    ]
