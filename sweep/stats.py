@@ -112,7 +112,14 @@ def splitting_probability(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
     lower, upper = wilson_interval(counts, n, level)
     se = np.sqrt(p * (1 - p) / n)
     return xr.Dataset(
-        {"estimate": p, "stderr": se, "lower": lower, "upper": upper, "n": n, "count": counts},
+        {
+            "estimate": p,
+            "stderr": se,
+            "lower": lower,
+            "upper": upper,
+            "n": n,
+            "count": counts,
+        },
         attrs={"level": level, "interval": "Wilson score"},
     )
 

@@ -64,7 +64,9 @@ def assert_stores_identical(a: Path, b: Path) -> None:
     left, right = store_arrays(a), store_arrays(b)
     assert sorted(left) == sorted(right)
     for name in left:
-        np.testing.assert_array_equal(left[name], right[name], err_msg=name, strict=True)
+        np.testing.assert_array_equal(
+            left[name], right[name], err_msg=name, strict=True
+        )
 
 
 def sweep_command() -> list[str]:

@@ -31,7 +31,11 @@ BIN = Path(sys.executable).parent
 def _spawn(args: list[str], log: Path) -> subprocess.Popen[bytes]:
     with log.open("wb") as out:  # the child keeps its own descriptor
         return subprocess.Popen(
-            args, stdout=out, stderr=subprocess.STDOUT, start_new_session=True, cwd=log.parent
+            args,
+            stdout=out,
+            stderr=subprocess.STDOUT,
+            start_new_session=True,
+            cwd=log.parent,
         )
 
 
@@ -103,7 +107,9 @@ def reference(small_spec: Path, tmp_path: Path) -> Path:
     return out
 
 
-def test_processes_match_threads(small_spec: Path, reference: Path, tmp_path: Path) -> None:
+def test_processes_match_threads(
+    small_spec: Path, reference: Path, tmp_path: Path
+) -> None:
     out = tmp_path / "processes.zarr"
     summary = run(small_spec, out, RunOptions(processes=2, progress=False))
     assert summary.complete
@@ -117,7 +123,9 @@ def test_scheduler_file_and_address_match_threads(
     small_spec: Path, reference: Path, tmp_path: Path, cluster: Path
 ) -> None:
     by_file = tmp_path / "by-file.zarr"
-    assert run(small_spec, by_file, RunOptions(scheduler_file=str(cluster), progress=False)).complete
+    assert run(
+        small_spec, by_file, RunOptions(scheduler_file=str(cluster), progress=False)
+    ).complete
     assert_stores_identical(reference, by_file)
     address = json.loads(cluster.read_text())["address"]
     by_address = tmp_path / "by-address.zarr"

@@ -26,9 +26,20 @@ def test_export_round_trip_is_exact(small_store: Path, tmp_path: Path) -> None:
     out = export_hdf5(small_store, tmp_path / "s.h5")
     ds = sweep.open(small_store)
     with h5py.File(out, "r") as h5:
-        for name in ("first_passage_time", "absorbing_wall", "exit_position", "survival", "occupancy", "done"):
-            np.testing.assert_array_equal(h5[name][...], ds[name].values, err_msg=name, strict=True)
-            assert [dim[0].name for dim in h5[name].dims] == [f"/{d}" for d in ds[name].dims]
+        for name in (
+            "first_passage_time",
+            "absorbing_wall",
+            "exit_position",
+            "survival",
+            "occupancy",
+            "done",
+        ):
+            np.testing.assert_array_equal(
+                h5[name][...], ds[name].values, err_msg=name, strict=True
+            )
+            assert [dim[0].name for dim in h5[name].dims] == [
+                f"/{d}" for d in ds[name].dims
+            ]
         np.testing.assert_array_equal(h5["diffusivity"][...], ds.diffusivity.values)
         np.testing.assert_array_equal(h5["time"][...], ds.time.values)
         assert h5.attrs["spec_hash"] == ds.attrs["spec_hash"]
@@ -37,16 +48,24 @@ def test_export_round_trip_is_exact(small_store: Path, tmp_path: Path) -> None:
     assert not list(tmp_path.glob(".s.h5.partial*"))
 
 
-def test_export_subset_of_points_and_variables(small_store: Path, tmp_path: Path) -> None:
-    out = export_hdf5(small_store, tmp_path / "sub.h5", points=[1], variables=["first_passage_time"])
+def test_export_subset_of_points_and_variables(
+    small_store: Path, tmp_path: Path
+) -> None:
+    out = export_hdf5(
+        small_store, tmp_path / "sub.h5", points=[1], variables=["first_passage_time"]
+    )
     ds = sweep.open(small_store)
     with h5py.File(out, "r") as h5:
         assert "survival" not in h5
-        np.testing.assert_array_equal(h5["first_passage_time"][...], ds.first_passage_time.isel(point=[1]).values)
+        np.testing.assert_array_equal(
+            h5["first_passage_time"][...], ds.first_passage_time.isel(point=[1]).values
+        )
         np.testing.assert_array_equal(h5["diffusivity"][...], [1.0])
 
 
-def test_export_rejects_unknown_variable_and_point(small_store: Path, tmp_path: Path) -> None:
+def test_export_rejects_unknown_variable_and_point(
+    small_store: Path, tmp_path: Path
+) -> None:
     with pytest.raises(StoreError, match="no variable 'fpt'"):
         export_hdf5(small_store, tmp_path / "x.h5", variables=["fpt"])
     with pytest.raises(StoreError, match="out of range"):

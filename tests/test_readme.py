@@ -36,7 +36,9 @@ def test_readme_states_convergence_checks() -> None:
     assert "need convergence checks" in text
 
 
-@pytest.mark.parametrize("path", sorted((ROOT / "sweeps").glob("*.toml")), ids=lambda p: p.name)
+@pytest.mark.parametrize(
+    "path", sorted((ROOT / "sweeps").glob("*.toml")), ids=lambda p: p.name
+)
 def test_example_sweeps_are_valid(path: Path) -> None:
     sweep = load_spec(path)
     assert make_plan(sweep).n_tasks > 0

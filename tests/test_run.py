@@ -33,7 +33,9 @@ def _run(spec: Path, out: Path, threads: int = 2) -> None:
     assert summary.complete
 
 
-def test_run_is_identical_for_any_thread_count(small_spec: Path, tmp_path: Path) -> None:
+def test_run_is_identical_for_any_thread_count(
+    small_spec: Path, tmp_path: Path
+) -> None:
     _run(small_spec, tmp_path / "one.zarr", threads=1)
     _run(small_spec, tmp_path / "two.zarr", threads=2)
     assert_stores_identical(tmp_path / "one.zarr", tmp_path / "two.zarr")
@@ -50,7 +52,9 @@ def test_run_is_identical_for_any_task_order(small_spec: Path, tmp_path: Path) -
     assert_stores_identical(tmp_path / "ordered.zarr", path)
 
 
-def test_task_stream_does_not_depend_on_other_points(small_spec: Path, tmp_path: Path) -> None:
+def test_task_stream_does_not_depend_on_other_points(
+    small_spec: Path, tmp_path: Path
+) -> None:
     """Dropping a grid value leaves the other point's data unchanged."""
     _run(small_spec, tmp_path / "both.zarr")
     single = tmp_path / "single.toml"
@@ -59,17 +63,26 @@ def test_task_stream_does_not_depend_on_other_points(small_spec: Path, tmp_path:
     both = sweep.open(tmp_path / "both.zarr")
     one = sweep.open(tmp_path / "single.zarr")
     np.testing.assert_array_equal(
-        both.first_passage_time.sel(point=1).values, one.first_passage_time.sel(point=0).values
+        both.first_passage_time.sel(point=1).values,
+        one.first_passage_time.sel(point=0).values,
     )
 
 
 def test_rerun_of_complete_store_does_nothing(small_spec: Path, tmp_path: Path) -> None:
     out = tmp_path / "s.zarr"
     _run(small_spec, out)
-    before = {p: p.stat().st_mtime_ns for p in out.rglob("*") if p.is_file() and "_runs" not in p.name}
+    before = {
+        p: p.stat().st_mtime_ns
+        for p in out.rglob("*")
+        if p.is_file() and "_runs" not in p.name
+    }
     summary = run(small_spec, out, RunOptions(threads=2, progress=False))
     assert summary.completed == 0 and summary.already_done == summary.n_tasks
-    after = {p: p.stat().st_mtime_ns for p in out.rglob("*") if p.is_file() and "_runs" not in p.name}
+    after = {
+        p: p.stat().st_mtime_ns
+        for p in out.rglob("*")
+        if p.is_file() and "_runs" not in p.name
+    }
     assert before == after
 
 
@@ -86,13 +99,24 @@ def test_resume_recomputes_only_missing_tasks(small_spec: Path, tmp_path: Path) 
     assert_stores_identical(tmp_path / "full.zarr", out)
 
 
-def test_sigkilled_run_resumes_bit_identical(small_spec: Path, tmp_path: Path, cli_env: dict[str, str]) -> None:
+def test_sigkilled_run_resumes_bit_identical(
+    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
+) -> None:
     reference = tmp_path / "reference.zarr"
     _run(small_spec, reference)
     out = tmp_path / "killed.zarr"
     for attempt in range(3):
         proc = subprocess.Popen(
-            [*sweep_command(), "run", str(small_spec), "--store", str(out), "--threads", "2", "--quiet"],
+            [
+                *sweep_command(),
+                "run",
+                str(small_spec),
+                "--store",
+                str(out),
+                "--threads",
+                "2",
+                "--quiet",
+            ],
             env=cli_env,
             stdout=subprocess.DEVNULL,
             stderr=subprocess.DEVNULL,
@@ -106,7 +130,9 @@ def test_sigkilled_run_resumes_bit_identical(small_spec: Path, tmp_path: Path, c
         proc.send_signal(signal.SIGKILL)
         proc.wait()
     killed_done = len(store.done_tasks(out))
-    assert killed_done < 12, "the run finished before it could be killed; make tasks longer"
+    assert killed_done < 12, (
+        "the run finished before it could be killed; make tasks longer"
+    )
     # The killed runner's lock is stale: the rerun takes it over and completes.
     result = subprocess.run(
         [*sweep_command(), "run", str(small_spec), "--store", str(out), "--quiet"],
@@ -143,7 +169,9 @@ def test_open_selects_points_by_parameter(small_spec: Path, tmp_path: Path) -> N
     np.testing.assert_array_equal(ds.survival.isel(time=0).values, [1.0, 1.0])
     t = ds.time.values[5]
     free = (ds.first_passage_time > t) | ds.first_passage_time.isnull()
-    np.testing.assert_array_equal(free.sum("walker").values, ds.survival_count.isel(time=5).values)
+    np.testing.assert_array_equal(
+        free.sum("walker").values, ds.survival_count.isel(time=5).values
+    )
 
 
 def test_open_masks_unfinished_tasks(small_spec: Path, tmp_path: Path) -> None:
@@ -159,15 +187,27 @@ def test_open_masks_unfinished_tasks(small_spec: Path, tmp_path: Path) -> None:
     np.testing.assert_array_equal(ds.survival.isel(time=0).values, [1.0, 1.0])
 
 
-def test_store_of_another_definition_is_refused(small_spec: Path, tmp_path: Path) -> None:
+def test_store_of_another_definition_is_refused(
+    small_spec: Path, tmp_path: Path
+) -> None:
     out = tmp_path / "s.zarr"
     _run(small_spec, out)
-    before = {p: p.read_bytes() for p in out.rglob("*") if p.is_file() and "_runs" not in p.name}
+    before = {
+        p: p.read_bytes()
+        for p in out.rglob("*")
+        if p.is_file() and "_runs" not in p.name
+    }
     other = tmp_path / "other.toml"
     other.write_text(SMALL_SPEC.replace("walkers = 3000", "walkers = 4000"))
-    with pytest.raises(StoreMismatchError, match=r"sweep\.walkers: stored 3000, now 4000"):
+    with pytest.raises(
+        StoreMismatchError, match=r"sweep\.walkers: stored 3000, now 4000"
+    ):
         run(other, out, RunOptions(threads=1, progress=False))
-    after = {p: p.read_bytes() for p in out.rglob("*") if p.is_file() and "_runs" not in p.name}
+    after = {
+        p: p.read_bytes()
+        for p in out.rglob("*")
+        if p.is_file() and "_runs" not in p.name
+    }
     assert before == after
 
 
@@ -184,13 +224,17 @@ def test_live_lock_refuses_second_runner(small_spec: Path, tmp_path: Path) -> No
     out = tmp_path / "s.zarr"
     path = store.prepare(out, make_plan(load_spec(small_spec)))
     with store.runner_lock(path):
-        with pytest.raises(StoreLockedError, match="another `sweep run` is using this store"):
+        with pytest.raises(
+            StoreLockedError, match="another `sweep run` is using this store"
+        ):
             run(small_spec, out, RunOptions(threads=1, progress=False))
     # Released on exit: a run now goes through.
     _run(small_spec, out)
 
 
-def test_stale_lock_is_taken_over(small_spec: Path, tmp_path: Path, caplog: pytest.LogCaptureFixture) -> None:
+def test_stale_lock_is_taken_over(
+    small_spec: Path, tmp_path: Path, caplog: pytest.LogCaptureFixture
+) -> None:
     out = tmp_path / "s.zarr"
     path = store.prepare(out, make_plan(load_spec(small_spec)))
     dead = subprocess.Popen(["true"])
@@ -198,7 +242,14 @@ def test_stale_lock_is_taken_over(small_spec: Path, tmp_path: Path, caplog: pyte
     import socket
 
     (path / store.LOCK_FILE).write_text(
-        json.dumps({"pid": dead.pid, "host": socket.gethostname(), "started": "earlier", "token": "x"})
+        json.dumps(
+            {
+                "pid": dead.pid,
+                "host": socket.gethostname(),
+                "started": "earlier",
+                "token": "x",
+            }
+        )
     )
     with caplog.at_level("WARNING"):
         _run(small_spec, out)
@@ -206,7 +257,9 @@ def test_stale_lock_is_taken_over(small_spec: Path, tmp_path: Path, caplog: pyte
     assert not (path / store.LOCK_FILE).exists()
 
 
-def test_partial_files_are_cleaned_and_never_read(small_spec: Path, tmp_path: Path) -> None:
+def test_partial_files_are_cleaned_and_never_read(
+    small_spec: Path, tmp_path: Path
+) -> None:
     out = tmp_path / "s.zarr"
     _run(small_spec, tmp_path / "ref.zarr")
     path = store.prepare(out, make_plan(load_spec(small_spec)))
@@ -224,10 +277,20 @@ def test_partial_files_are_cleaned_and_never_read(small_spec: Path, tmp_path: Pa
     assert_stores_identical(tmp_path / "ref.zarr", out)
 
 
-def test_cli_run_and_status(small_spec: Path, tmp_path: Path, cli_env: dict[str, str]) -> None:
+def test_cli_run_and_status(
+    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
+) -> None:
     out = tmp_path / "s.zarr"
     result = subprocess.run(
-        [*sweep_command(), "run", str(small_spec), "--store", str(out), "--threads", "2"],
+        [
+            *sweep_command(),
+            "run",
+            str(small_spec),
+            "--store",
+            str(out),
+            "--threads",
+            "2",
+        ],
         env=cli_env,
         capture_output=True,
         text=True,
@@ -237,7 +300,11 @@ def test_cli_run_and_status(small_spec: Path, tmp_path: Path, cli_env: dict[str,
     assert "12/12 tasks done" in result.stdout
     assert "all checks passed" in result.stdout
     status = subprocess.run(
-        [*sweep_command(), "status", str(out)], env=cli_env, capture_output=True, text=True, timeout=PATIENCE
+        [*sweep_command(), "status", str(out)],
+        env=cli_env,
+        capture_output=True,
+        text=True,
+        timeout=PATIENCE,
     )
     assert status.returncode == 0, status.stderr
     assert "6/6" in status.stdout and "12/12 tasks done" in status.stdout
@@ -254,24 +321,41 @@ def test_cli_bad_definition_exits_2(tmp_path: Path, cli_env: dict[str, str]) -> 
         timeout=PATIENCE,
     )
     assert result.returncode == 2
-    assert "bad.toml" in result.stderr and "Did you mean 'diffusivity'?" in result.stderr
+    assert (
+        "bad.toml" in result.stderr and "Did you mean 'diffusivity'?" in result.stderr
+    )
     assert "Traceback" not in result.stderr
     assert not (tmp_path / "x.zarr").exists()
 
 
-def test_ctrl_c_stops_cleanly_and_resumes(small_spec: Path, tmp_path: Path, cli_env: dict[str, str]) -> None:
+def test_ctrl_c_stops_cleanly_and_resumes(
+    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
+) -> None:
     reference = tmp_path / "reference.zarr"
     _run(small_spec, reference)
     out = tmp_path / "interrupted.zarr"
     proc = subprocess.Popen(
-        [*sweep_command(), "run", str(small_spec), "--store", str(out), "--threads", "1", "--quiet"],
+        [
+            *sweep_command(),
+            "run",
+            str(small_spec),
+            "--store",
+            str(out),
+            "--threads",
+            "1",
+            "--quiet",
+        ],
         env=cli_env,
         stdout=subprocess.PIPE,
         stderr=subprocess.PIPE,
         text=True,
     )
     deadline = time.monotonic() + PATIENCE
-    while time.monotonic() < deadline and len(store.done_tasks(out)) < 2 and proc.poll() is None:
+    while (
+        time.monotonic() < deadline
+        and len(store.done_tasks(out)) < 2
+        and proc.poll() is None
+    ):
         time.sleep(0.01)
     proc.send_signal(signal.SIGINT)
     stdout, stderr = proc.communicate(timeout=PATIENCE)
