@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import math
 
+import numba
 import numpy as np
 from numba import njit
 
@@ -84,6 +85,8 @@ def simulate(  # type: ignore[no-untyped-def]
     out_survival,
     out_occupancy,
     out_final,
+    fpt_bin_width,
+    out_fpt_hist,
 ):
     """Simulate ``n_walkers`` walkers to absorption or the horizon.
 
@@ -136,12 +139,127 @@ def simulate(  # type: ignore[no-untyped-def]
         Incremented by the binned positions of free walkers at each snapshot.
     out_final : float64 (n_walkers, d)
         Position at the horizon of walkers still free then; NaN for absorbed ones.
+    fpt_bin_width : float
+        Width of the first-passage-time histogram's bins, time units.
+    out_fpt_hist : int64 (n_walls, n_bins)
+        Incremented at [wall, floor(time / fpt_bin_width)] per absorbed walker; pass
+        shape (0, 0) to skip.
 
     Returns
     -------
     int
         Walker-steps simulated.
     """
+    # Boxes without targets (the common case) get their own compiled loop: without
+    # the ball and target code in it the step loop runs markedly faster.
+    if ball_radius < math.inf or target_radius.shape[0] > 0:
+        return _simulate(
+            rng,
+            n_walkers,
+            start,
+            uniform_start,
+            lower,
+            upper,
+            absorbing_low,
+            absorbing_high,
+            ball_center,
+            ball_radius,
+            ball_absorbing,
+            target_center,
+            target_radius,
+            diffusivity,
+            drift,
+            dt,
+            n_steps,
+            bridge,
+            survival_times,
+            occupancy_steps,
+            occupancy_lower,
+            occupancy_upper,
+            occupancy_bins,
+            out_time,
+            out_wall,
+            out_position,
+            out_survival,
+            out_occupancy,
+            out_final,
+            fpt_bin_width,
+            out_fpt_hist,
+            True,
+        )
+    return _simulate(
+        rng,
+        n_walkers,
+        start,
+        uniform_start,
+        lower,
+        upper,
+        absorbing_low,
+        absorbing_high,
+        ball_center,
+        ball_radius,
+        ball_absorbing,
+        target_center,
+        target_radius,
+        diffusivity,
+        drift,
+        dt,
+        n_steps,
+        bridge,
+        survival_times,
+        occupancy_steps,
+        occupancy_lower,
+        occupancy_upper,
+        occupancy_bins,
+        out_time,
+        out_wall,
+        out_position,
+        out_survival,
+        out_occupancy,
+        out_final,
+        fpt_bin_width,
+        out_fpt_hist,
+        False,
+    )
+
+
+@njit(nogil=True, cache=True)
+def _simulate(  # type: ignore[no-untyped-def]
+    rng,
+    n_walkers,
+    start,
+    uniform_start,
+    lower,
+    upper,
+    absorbing_low,
+    absorbing_high,
+    ball_center,
+    ball_radius,
+    ball_absorbing,
+    target_center,
+    target_radius,
+    diffusivity,
+    drift,
+    dt,
+    n_steps,
+    bridge,
+    survival_times,
+    occupancy_steps,
+    occupancy_lower,
+    occupancy_upper,
+    occupancy_bins,
+    out_time,
+    out_wall,
+    out_position,
+    out_survival,
+    out_occupancy,
+    out_final,
+    fpt_bin_width,
+    out_fpt_hist,
+    general,
+):
+    """:func:`simulate`, compiled once per literal value of ``general``."""
+    numba.literally(general)
     d = start.shape[0]
     n_targets = target_radius.shape[0]
     is_ball = ball_radius < math.inf
@@ -151,6 +269,7 @@ def simulate(  # type: ignore[no-untyped-def]
     kill_scale = 1.0 / (diffusivity * dt)
     n_survival = survival_times.shape[0]
     n_occupancy = occupancy_steps.shape[0]
+    n_fpt_bins = out_fpt_hist.shape[1] if out_fpt_hist.shape[0] > 0 else 0
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(d)
     y = np.empty(d)
@@ -232,7 +351,7 @@ def simulate(  # type: ignore[no-untyped-def]
                     if f < frac:
                         frac = f
                         hit_wall = 2 * i + 1
-            if is_ball:
+            if general and is_ball:
                 if not ball_absorbing:
                     _reflect_ball(y, ball_center, ball_radius)
                 else:
@@ -250,7 +369,7 @@ def simulate(  # type: ignore[no-untyped-def]
                         if f < frac:
                             frac = f
                             hit_wall = n_targets
-            for k in range(n_targets):
+            for k in range(n_targets if general else 0):
                 r1 = 0.0
                 r2 = 0.0
                 for i in range(d):
@@ -294,6 +413,9 @@ def simulate(  # type: ignore[no-untyped-def]
             out_position[w, i] = y[i] if hit_wall >= 0 else math.nan
             out_final[w, i] = math.nan if hit_wall >= 0 else x[i]
         # 4. Survival: count this walker at every grid time before its absorption.
+        if hit_wall >= 0 and n_fpt_bins > 0:
+            b = int(hit_time / fpt_bin_width)
+            out_fpt_hist[hit_wall, min(b, n_fpt_bins - 1)] += 1
         if hit_wall >= 0:
             hist[np.searchsorted(survival_times, hit_time, side="left")] += 1
         else:
@@ -308,14 +430,20 @@ def simulate(  # type: ignore[no-untyped-def]
 
 @njit(nogil=True, cache=True)
 def _fold(y, lo, hi):  # type: ignore[no-untyped-def]
-    """Mirror ``y`` into [lo, hi], repeatedly: a long step may overshoot both sides."""
-    while True:
-        if y < lo:
-            y = 2.0 * lo - y
-        elif y > hi:
-            y = 2.0 * hi - y
-        else:
-            return y
+    """Mirror ``y`` into [lo, hi] (either bound may be infinite).
+
+    Between two reflecting walls the mirror images repeat with period 2 (hi - lo), so a
+    step that overshoots by many box widths folds in constant time.
+    """
+    if y < lo and hi == math.inf:
+        return 2.0 * lo - y
+    if y > hi and lo == -math.inf:
+        return 2.0 * hi - y
+    width = hi - lo
+    u = (y - lo) % (2.0 * width)
+    if u > width:
+        u = 2.0 * width - u
+    return lo + u
 
 
 @njit(nogil=True, cache=True)

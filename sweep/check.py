@@ -79,7 +79,7 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
     """Like :func:`check_store` for an opened Dataset and its sweep."""
     rows: list[CheckRow] = []
     unchecked: list[tuple[int, str]] = []
-    per_walker = "first_passage_time" in ds
+    per_walker = "first_passage_time" in ds or "fpt_histogram" in ds
     surv = stats.survival(ds)
     mean = stats.mean_first_passage_time(ds) if per_walker else None
     split = stats.splitting_probability(ds) if per_walker else None

@@ -118,6 +118,9 @@ def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
     out_occupancy = np.zeros(
         (n_snap, a.occupancy_bins**d if n_snap else 0), dtype=np.int64
     )
+    out_fpt = np.zeros(
+        (a.n_walls, a.fpt_bins) if a.fpt_bins else (0, 0), dtype=np.int64
+    )
     steps = simulate(
         task.generator(),
         n,
@@ -148,6 +151,8 @@ def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
         out_survival,
         out_occupancy,
         np.empty((n, d), dtype=np.float64),
+        a.fpt_bin_width,
+        out_fpt,
     )
     occupancy = None
     if n_snap:
@@ -156,9 +161,15 @@ def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
         occupancy = np.empty_like(out_occupancy)
         occupancy[a.occupancy_order] = out_occupancy
         occupancy = occupancy.reshape((n_snap, *(a.occupancy_bins,) * d))
-    return store.TaskOutput(
-        out_time, out_wall, out_position, out_survival, occupancy
-    ), int(steps)
+    output = store.TaskOutput(
+        out_time,
+        out_wall,
+        out_position,
+        out_survival,
+        occupancy,
+        out_fpt if a.fpt_bins else None,
+    )
+    return output, int(steps)
 
 
 def run_task(

@@ -46,6 +46,9 @@ class KernelArgs:
     occupancy_lower: NDArray[np.float64]
     occupancy_upper: NDArray[np.float64]
     occupancy_bins: int
+    n_walls: int
+    fpt_bins: int
+    fpt_bin_width: float
 
 
 @dataclass(frozen=True)
@@ -98,8 +101,13 @@ class Plan:
 
 
 def point_digest(point: PointSpec) -> tuple[int, ...]:
-    """Four 32-bit words digesting a point's resolved parameters (for seeding)."""
-    text = json.dumps(point.canonical(), sort_keys=True, separators=(",", ":"))
+    """Four 32-bit words digesting a point's physical parameters (for seeding).
+
+    What is recorded (``[record]``) does not enter: it draws no random numbers, so a
+    per-walker run and an aggregate-only run of one point simulate the same walkers.
+    """
+    physics = {k: v for k, v in point.canonical().items() if k != "record"}
+    text = json.dumps(physics, sort_keys=True, separators=(",", ":"))
     digest = hashlib.sha256(text.encode()).digest()
     return tuple(int.from_bytes(digest[i : i + 4], "little") for i in range(0, 16, 4))
 
@@ -150,6 +158,9 @@ def kernel_args(point: PointSpec) -> KernelArgs:
         occupancy_lower=np.array(rec.occupancy_lower or dom.lower, dtype=np.float64),
         occupancy_upper=np.array(rec.occupancy_upper or dom.upper, dtype=np.float64),
         occupancy_bins=rec.occupancy_bins,
+        n_walls=len(dom.wall_names()),
+        fpt_bins=rec.fpt_bins,
+        fpt_bin_width=tm.n_steps * tm.dt / max(rec.fpt_bins, 1),
     )
 
 

@@ -31,6 +31,9 @@ MAX_DIMENSION = 8
 #: At most this many occupancy bins in all (bins ** dimension), so each task's histogram
 #: stays below 80 MB per snapshot.
 MAX_OCCUPANCY_BINS = 10**7
+#: First-passage-time histogram bins per wall when per-walker values are not kept.
+DEFAULT_FPT_BINS = 2000
+MAX_FPT_BINS = 1_000_000
 #: Default number of points of the survival curve's uniform time grid.
 DEFAULT_SURVIVAL_POINTS = 101
 
@@ -48,7 +51,7 @@ SECTIONS: dict[str, tuple[str, ...]] = {
         "wall",
         "targets",
     ),
-    "record": ("per_walker", "survival", "occupancy"),
+    "record": ("per_walker", "survival", "occupancy", "fpt_bins"),
     "grid": (),
     "zip": (),
 }
@@ -175,6 +178,8 @@ class Record:
     occupancy_bins: int = 0
     occupancy_lower: tuple[float, ...] | None = None
     occupancy_upper: tuple[float, ...] | None = None
+    #: Bins of the first-passage-time histogram per wall over [0, horizon] (0: none).
+    fpt_bins: int = 0
 
     @property
     def survival_times(self) -> tuple[float, ...]:
@@ -316,6 +321,7 @@ class _Parser:
     def __init__(self, source: str) -> None:
         self.source = source
         self.context = ""  # e.g. " (grid point 3: motion.diffusivity = -1)"
+        self.origin: dict[str, str] = {}  # swept key -> "grid" or "zip #<n>"
 
     def fail(self, key: str, message: str) -> SpecError:
         return SpecError(f"{self.source}: [{key}] {message}{self.context}")
@@ -368,7 +374,7 @@ class _Parser:
             value = float(value)
         except OverflowError:
             raise self.fail(
-                key, f"must be a number within +-1.8e308; got {_toml(value)}."
+                key, f"must be a number within +-1.8e308; got {_short_int(value)}."
             ) from None
         if math.isnan(value):
             raise self.fail(key, "must be a finite number; got nan.")
@@ -466,12 +472,12 @@ class _Parser:
         values: list[tuple[Any, ...]] = []
         for index, combo in enumerate(combos):
             flat = tuple(v for group in combo for v in group)
-            point_raw = copy.deepcopy(base)
-            for key, value in zip(swept, flat):
-                self.assign(point_raw, key, copy.deepcopy(value))
             if swept:
                 shown = ", ".join(f"{k} = {_show(v)}" for k, v in zip(swept, flat))
                 self.context = f" (at point {index}: {shown})"
+            point_raw = copy.deepcopy(base)
+            for key, value in zip(swept, flat):
+                self.assign(point_raw, key, copy.deepcopy(value))
             points.append(self.point(point_raw))
             values.append(flat)
         self.context = ""
@@ -509,7 +515,7 @@ class _Parser:
         axes: list[tuple[tuple[str, ...], list[tuple[Any, ...]]]] = []
         seen: set[str] = set()
         for key, values in raw.get("grid", {}).items():
-            if isinstance(values, dict):
+            if isinstance(values, dict) and "." not in key:
                 raise self.fail(
                     f"grid.{key}",
                     "is a table, not a list: write dotted keys in quotes, e.g. "
@@ -517,6 +523,7 @@ class _Parser:
                     "dots as nested tables).",
                 )
             self.sweep_key(key, "grid", seen)
+            self.origin[key] = "grid"
             if not isinstance(values, list) or not values:
                 raise self.fail(
                     f"grid.{key}",
@@ -535,7 +542,15 @@ class _Parser:
                 )
             lengths = set()
             for key, values in group.items():
+                if isinstance(values, dict) and "." not in key:
+                    raise self.fail(
+                        f"zip #{number + 1}.{key}",
+                        "is a table, not a list: write dotted keys in quotes, e.g. "
+                        '"motion.diffusivity" = [0.5, 1.0] (without quotes TOML reads the '
+                        "dots as nested tables).",
+                    )
                 self.sweep_key(key, f"zip #{number + 1}", seen)
+                self.origin[key] = f"zip #{number + 1}"
                 if not isinstance(values, list) or not values:
                     raise self.fail(
                         f"zip #{number + 1}.{key}",
@@ -637,11 +652,17 @@ class _Parser:
             last = depth == len(parts) - 1
             where = ".".join(parts[:depth]) or "the definition"
             if isinstance(node, list):
+                if not _is_index(part):
+                    raise self.fail(
+                        f"{self.origin[key]}.{key}",
+                        f"reaches into {where}, which is {_toml(node)}: a list takes an "
+                        f"entry number, not {part!r}.",
+                    )
                 index = int(part)
                 if index >= len(node):
                     entries = "entry" if len(node) == 1 else "entries"
                     raise self.fail(
-                        f"grid.{key}",
+                        f"{self.origin[key]}.{key}",
                         f"reaches entry {index} of {where}, which has {len(node)} {entries}.",
                     )
                 if last:
@@ -657,7 +678,7 @@ class _Parser:
                     node = node[part]
             else:
                 raise self.fail(
-                    f"grid.{key}",
+                    f"{self.origin[key]}.{key}",
                     f"reaches into {where}, which is {_toml(node)} and not a table or list.",
                 )
 
@@ -872,8 +893,9 @@ class _Parser:
             if domain.targets and _free_fraction(domain) == 0.0:
                 raise self.fail(
                     "motion.start",
-                    '"uniform" needs free space, but the targets cover the whole domain; '
-                    "make them smaller or give a start point.",
+                    '"uniform" needs free space, but the targets cover (nearly) the whole '
+                    "domain: none of 4096 evenly scattered sample points is free. Make "
+                    "them smaller or give a start point.",
                 )
             return Motion(dimension, diffusivity, drift, None)
         if isinstance(start_raw, str):
@@ -899,6 +921,14 @@ class _Parser:
     def record(self, table: dict[str, Any], timing: Timing, domain: Domain) -> Record:
         self.keys(table, SECTIONS["record"], "record")
         per_walker = self.boolean(table.get("per_walker", True), "record.per_walker")
+        # Without per-walker values the histogram is the only record of absorption
+        # times and walls, so it is on by default then.
+        fpt_bins = self.integer(
+            table.get("fpt_bins", 0 if per_walker else DEFAULT_FPT_BINS),
+            "record.fpt_bins",
+            minimum=0 if per_walker else 1,
+            maximum=MAX_FPT_BINS,
+        )
         survival = table.get("survival", {})
         if not isinstance(survival, dict):
             raise self.fail(
@@ -922,7 +952,7 @@ class _Parser:
         )
         occupancy = table.get("occupancy")
         if occupancy is None:
-            return Record(per_walker, stop, points)
+            return Record(per_walker, stop, points, fpt_bins=fpt_bins)
         if not isinstance(occupancy, dict):
             raise self.fail(
                 "record.occupancy",
@@ -955,9 +985,9 @@ class _Parser:
             if bins_raw**d > MAX_OCCUPANCY_BINS:
                 raise self.fail(
                     "record.occupancy.bins",
-                    f"gives {bins_raw}^{d} = {bins_raw**d:.3g} bins in all; at most "
-                    f"{MAX_OCCUPANCY_BINS:.0e} are allowed (bins per axis, to the power "
-                    f"of the dimension). Got {bins_raw}.",
+                    f"gives more than {MAX_OCCUPANCY_BINS:,} bins in all (bins per axis, "
+                    f"to the power {d} of the dimension); at most {MAX_OCCUPANCY_BINS:,} "
+                    f"are allowed. Got {_short_int(bins_raw)}.",
                 )
         bins = self.integer(
             self.required(occupancy, "bins", "record.occupancy"),
@@ -983,7 +1013,7 @@ class _Parser:
                 f"must be below record.occupancy.upper on every axis; got {_toml(list(lower))} "
                 f"and {list(upper)!r}.",
             )
-        return Record(per_walker, stop, points, times, bins, lower, upper)
+        return Record(per_walker, stop, points, times, bins, lower, upper, fpt_bins)
 
 
 def auto_chunk(walkers: int, target: int = 100_000) -> int:
@@ -1020,6 +1050,8 @@ def _free_fraction(domain: Domain, samples: int = 4096) -> float:
 def _floats(value: Any) -> Any:
     if isinstance(value, bool):
         return value
+    if isinstance(value, str) and value.strip() in ("inf", "+inf", "-inf"):
+        return _jsonable(float(value))
     if isinstance(value, int):
         return float(value)
     if isinstance(value, list):
@@ -1027,6 +1059,11 @@ def _floats(value: Any) -> Any:
     if isinstance(value, dict):
         return {k: _floats(v) for k, v in value.items()}
     return value
+
+
+def _short_int(value: int) -> str:
+    text = str(value)
+    return text if len(text) <= 20 else f"{text[:6]}...({len(text)} digits)"
 
 
 def _is_index(text: str) -> bool:

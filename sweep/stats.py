@@ -44,8 +44,9 @@ def mean_first_passage_time(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
     """Mean first-passage time per point over walkers absorbed before the horizon.
 
     When walkers are censored this is the mean *conditional on absorption by the
-    horizon*, which underestimates the true mean; ``censored`` reports their fraction so
-    callers can tell (see :func:`censored_fraction`).
+    horizon*, which underestimates the true mean; ``censored`` reports their fraction
+    so callers can tell. Stores without per-walker values use the first-passage-time
+    histogram: bin midpoints, with the within-bin variance w^2/12 added.
 
     Returns
     -------
@@ -53,24 +54,34 @@ def mean_first_passage_time(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
         ``estimate``, ``stderr`` (sample standard deviation / sqrt(n)), ``lower``,
         ``upper``, ``n`` (absorbed walkers) and ``censored`` (fraction), dims (point,).
     """
-    t = ds["first_passage_time"]
-    n = t.notnull().sum("walker")
-    mean = t.mean("walker", skipna=True)
-    sd = t.std("walker", skipna=True, ddof=1)
-    out = _interval(mean, sd / np.sqrt(n), n, level)
+    if "first_passage_time" in ds:
+        t = ds["first_passage_time"]
+        n = t.notnull().sum("walker")
+        mean = t.mean("walker", skipna=True)
+        sd = t.std("walker", skipna=True, ddof=1)
+        out = _interval(mean, sd / np.sqrt(n), n, level)
+    else:
+        counts = ds["fpt_histogram"].sum("wall").compute()
+        width = ds["fpt_bin_width"]
+        mid = (
+            xr.DataArray(np.arange(counts.sizes["fpt_bin"]), dims="fpt_bin") + 0.5
+        ) * width
+        n = counts.sum("fpt_bin")
+        mean = (counts * mid).sum("fpt_bin") / n
+        var = (counts * (mid - mean) ** 2).sum("fpt_bin") / (n - 1) + width**2 / 12
+        out = _interval(mean, np.sqrt(var / n), n, level)
     out["censored"] = censored_fraction(ds)
     return out.compute()
 
 
 def censored_fraction(ds: xr.Dataset) -> xr.DataArray:
     """Fraction of finished walkers still free at the horizon, per point."""
+    done = ds["walkers_done"]
     if "first_passage_time" in ds:
-        t = ds["first_passage_time"]
-        done_walkers = ds["walkers_done"]
-        return (done_walkers - t.notnull().sum("walker")) / done_walkers.where(
-            done_walkers > 0
-        )
-    raise KeyError("censored_fraction needs per-walker first_passage_time")
+        absorbed = ds["first_passage_time"].notnull().sum("walker")
+    else:
+        absorbed = ds["fpt_histogram"].sum(["wall", "fpt_bin"])
+    return (done - absorbed) / done.where(done > 0)
 
 
 def wilson_interval(successes: Any, n: Any, level: float = LEVEL) -> tuple[Any, Any]:
@@ -102,10 +113,13 @@ def splitting_probability(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
         walkers count in ``n`` but at no wall.
     """
     names = list(ds.attrs["wall_names"])
-    wall = ds["absorbing_wall"]
-    counts = xr.concat(
-        [(wall == i).sum("walker") for i in range(len(names))], dim="wall"
-    )
+    if "absorbing_wall" in ds:
+        wall = ds["absorbing_wall"]
+        counts = xr.concat(
+            [(wall == i).sum("walker") for i in range(len(names))], dim="wall"
+        )
+    else:
+        counts = ds["fpt_histogram"].sum("fpt_bin")
     counts = counts.assign_coords(wall=names).transpose("point", "wall").compute()
     n = ds["walkers_done"]
     p = counts / n

@@ -85,6 +85,8 @@ class TaskOutput:
     survival : int64 (n_times,)
         Walkers of this task still free at each survival time.
     occupancy : int64 (n_snapshots, bins, ..., bins) or None
+    fpt_histogram : int64 (n_walls, n_bins) or None
+        First-passage times binned per absorbing wall.
     """
 
     time: NDArray[np.float64]
@@ -92,6 +94,7 @@ class TaskOutput:
     position: NDArray[np.float64]
     survival: NDArray[np.int64]
     occupancy: NDArray[np.int64] | None
+    fpt_histogram: NDArray[np.int64] | None = None
 
 
 # --------------------------------------------------------------------------- create
@@ -175,6 +178,7 @@ def _create(path: Path, plan: Plan) -> None:
                 "swept": list(sweep.swept),
                 "per_walker": rec.per_walker,
                 "occupancy": bool(rec.occupancy_times),
+                "fpt_bins": rec.fpt_bins,
             },
             "title": f"brownian-sweep results: {sweep.name}",
             "Conventions": "CF-1.10",
@@ -271,6 +275,28 @@ def _create(path: Path, plan: Plan) -> None:
         dimension_names=("point", "chunk", "time"),
         attributes={**walker_attrs, "long_name": "walkers of the chunk still free"},
     )
+    if rec.fpt_bins:
+        root.create_array(
+            "first_passage_count",
+            shape=(n_p, n_c, len(wall_names), rec.fpt_bins),
+            chunks=(1, 1, len(wall_names), rec.fpt_bins),
+            dtype="i8",
+            fill_value=0,
+            dimension_names=("point", "chunk", "wall", "fpt_bin"),
+            attributes={
+                **walker_attrs,
+                "long_name": "walkers of the chunk absorbed per wall and time bin",
+            },
+        )
+        small(
+            "fpt_bin_width",
+            ("point",),
+            np.array(
+                [p.timing.n_steps * p.timing.dt / rec.fpt_bins for p in sweep.points],
+                dtype=np.float64,
+            ),
+            long_name="width of the first-passage-time bins",
+        )
     if rec.occupancy_times:
         n_s, bins = len(rec.occupancy_times), rec.occupancy_bins
         bin_dims = tuple(f"{a}_bin" for a in axis_names(d))
@@ -571,6 +597,9 @@ def write_task(
         ]
     root["survival_count"][p, c, :] = output.survival
     written.append(f"survival_count/c/{p}/{c}/0")
+    if output.fpt_histogram is not None:
+        root["first_passage_count"][p, c] = output.fpt_histogram
+        written.append(f"first_passage_count/c/{p}/{c}/0/0")
     if output.occupancy is not None:
         root["occupancy_count"][p, c] = output.occupancy
         written.append(
@@ -677,6 +706,14 @@ def open_dataset(path: str | Path) -> xr.Dataset:
         long_name="fraction of walkers still free"
     )
     ds["survival_count"] = counts.assign_attrs(long_name="walkers still free")
+    if attrs.get("fpt_bins"):
+        hist = raw["first_passage_count"].where(done_da, 0).sum("chunk")
+        ds["fpt_histogram"] = hist.assign_attrs(
+            long_name="walkers absorbed per wall and time bin "
+            "[fpt_bin * fpt_bin_width, (fpt_bin + 1) * fpt_bin_width)"
+        )
+        ds["fpt_bin_width"] = raw["fpt_bin_width"].compute()
+        ds = ds.assign_coords(wall=list(attrs["wall_names"]))
     if attrs["occupancy"]:
         occ = raw["occupancy_count"].where(done_da, 0).sum("chunk")
         ds["occupancy"] = occ.assign_attrs(long_name="free walkers per bin")

@@ -366,3 +366,48 @@ def test_ctrl_c_stops_cleanly_and_resumes(
     assert not (out / store.LOCK_FILE).exists()
     _run(small_spec, out)
     assert_stores_identical(reference, out)
+
+
+def test_aggregate_only_store_keeps_no_walkers(tmp_path: Path) -> None:
+    spec = tmp_path / "agg.toml"
+    spec.write_text(
+        SMALL_SPEC.replace("[record]", "[record]\nper_walker = false\nfpt_bins = 3000")
+    )
+    out = tmp_path / "agg.zarr"
+    _run(spec, out)
+    full = tmp_path / "full.zarr"
+    _run(spec_with_walkers(tmp_path), full)
+    ds = sweep.open(out)
+    assert "first_passage_time" not in ds and "exit_position" not in ds
+    assert ds.fpt_histogram.dims == ("point", "wall", "fpt_bin")
+    assert not any(p.name.startswith("first_passage_time") for p in out.iterdir())
+    # What is recorded does not change the random streams: the histogram equals the
+    # per-walker values of the same walkers, binned.
+    ref = sweep.open(full)
+    width = float(ds.fpt_bin_width[0])
+    for p in range(2):
+        t = ref.first_passage_time.isel(point=p).values
+        w = ref.absorbing_wall.isel(point=p).values
+        expected = np.zeros((2, 3000), dtype=np.int64)
+        np.add.at(
+            expected, (w[w >= 0], np.minimum((t[w >= 0] / width).astype(int), 2999)), 1
+        )
+        np.testing.assert_array_equal(ds.fpt_histogram.isel(point=p).values, expected)
+    from sweep import stats
+
+    mean = stats.mean_first_passage_time(ds)
+    ref_mean = stats.mean_first_passage_time(ref)
+    # Binned mean vs exact mean: within a bin width.
+    assert (abs(mean.estimate - ref_mean.estimate) <= width).all()
+    split = stats.splitting_probability(ds)
+    np.testing.assert_array_equal(
+        split["count"].values, stats.splitting_probability(ref)["count"].values
+    )
+
+
+def spec_with_walkers(tmp_path: Path) -> Path:
+    path = tmp_path / "walkers.toml"
+    path.write_text(
+        SMALL_SPEC.replace("[record]", "[record]\nper_walker = true\nfpt_bins = 3000")
+    )
+    return path

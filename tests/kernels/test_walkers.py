@@ -118,6 +118,8 @@ def run_kernel(
         survival,
         np.zeros((0, 1), dtype=np.int64),  # out_occupancy
         final,
+        1.0,  # fpt_bin_width
+        np.zeros((0, 0), dtype=np.int64),  # out_fpt_hist: not recorded
     )
     return Result(time, wall, position, survival, final, int(steps))
 
