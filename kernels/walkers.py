@@ -266,17 +266,20 @@ def _simulate(  # type: ignore[no-untyped-def]
     n_box_walls = 0 if is_ball else 2 * d
     sigma = math.sqrt(2.0 * diffusivity * dt)
     cutoff = BRIDGE_CUTOFF * diffusivity * dt
+    # One test per face and step: (x1 - a)(x2 - a) <= cut holds when the step ends on
+    # or beyond the face at a, or (bridge) ends near it. Absent faces sit at -+inf,
+    # where the product is +inf.
+    cut = cutoff if bridge else 0.0
     kill_scale = 1.0 / (diffusivity * dt)
     n_survival = survival_times.shape[0]
     n_occupancy = occupancy_steps.shape[0]
     n_fpt_bins = out_fpt_hist.shape[1] if out_fpt_hist.shape[0] > 0 else 0
     hist = np.zeros(n_survival + 1, np.int64)
-    x = np.empty(d)
-    y = np.empty(d)
+    x = np.empty(d)  # position, updated in place each step
+    xo = np.empty(d)  # position at the start of the step
     drift_step = np.empty(d)
     for i in range(d):
         drift_step[i] = drift[i] * dt
-    # Face positions as sentinels: -inf/+inf where a face is absent or of the other kind.
     refl_lo = np.full(d, -math.inf)
     refl_hi = np.full(d, math.inf)
     abs_lo = np.full(d, -math.inf)
@@ -299,19 +302,9 @@ def _simulate(  # type: ignore[no-untyped-def]
             while True:
                 for i in range(d):
                     x[i] = lower[i] + (upper[i] - lower[i]) * rng.random()
-                ok = True
-                if is_ball:
-                    r2 = 0.0
-                    for i in range(d):
-                        r2 += (x[i] - ball_center[i]) ** 2
-                    ok = r2 < ball_radius * ball_radius
-                for k in range(n_targets):
-                    r2 = 0.0
-                    for i in range(d):
-                        r2 += (x[i] - target_center[k, i]) ** 2
-                    if r2 <= target_radius[k] * target_radius[k]:
-                        ok = False
-                if ok:
+                if _free(
+                    x, is_ball, ball_center, ball_radius, target_center, target_radius
+                ):
                     break
         else:
             for i in range(d):
@@ -321,104 +314,97 @@ def _simulate(  # type: ignore[no-untyped-def]
         while o < n_occupancy and occupancy_steps[o] == 0:
             _bin(x, occupancy_lower, occupancy_upper, occupancy_bins, out_occupancy, o)
             o += 1
+        next_snapshot = occupancy_steps[o] if o < n_occupancy else -1
 
         hit_wall = -1
-        hit_time = math.nan
+        frac = 2.0
         step = 0
         while step < n_steps:
             step += 1
-            # 2. Free increment and mirror images at reflecting faces; then absorbing
-            #    faces, crossed at the step end or (bridge) in between. Absent faces
-            #    are +-inf sentinels, so far from walls a step costs two compares.
-            frac = 2.0
+            # 2. Free increment and mirror images at reflecting faces, in place.
+            near = False
             for i in range(d):
                 xi = x[i]
                 yi = xi + drift_step[i] + sigma * rng.standard_normal()
                 if yi < refl_lo[i] or yi > refl_hi[i]:
                     yi = _fold(yi, refl_lo[i], refl_hi[i])
-                y[i] = yi
-                d1 = xi - abs_lo[i]
-                d2 = yi - abs_lo[i]
-                if d2 <= 0.0 or (bridge and d1 * d2 < cutoff):
-                    f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
-                    if f < frac:
-                        frac = f
-                        hit_wall = 2 * i
-                d1 = abs_hi[i] - xi
-                d2 = abs_hi[i] - yi
-                if d2 <= 0.0 or (bridge and d1 * d2 < cutoff):
-                    f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
-                    if f < frac:
-                        frac = f
-                        hit_wall = 2 * i + 1
-            if general and is_ball:
-                if not ball_absorbing:
-                    _reflect_ball(y, ball_center, ball_radius)
-                else:
-                    # Curved surface: distances along the radius, i.e. to the
-                    # tangent plane at the nearest point.
+                xo[i] = xi
+                x[i] = yi
+                if (xi - abs_lo[i]) * (yi - abs_lo[i]) <= cut or (xi - abs_hi[i]) * (
+                    yi - abs_hi[i]
+                ) <= cut:
+                    near = True
+            # 3. Absorbing faces near the step: crossed at the end or (bridge) in
+            #    between; the earliest crossing wins.
+            if near:
+                frac, hit_wall = _face_crossing(
+                    rng, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity, dt, bridge
+                )
+            if general:
+                if is_ball:
+                    if not ball_absorbing:
+                        _reflect_ball(x, ball_center, ball_radius)
+                    else:
+                        # Curved surface: distances along the radius, i.e. to the
+                        # tangent plane at the nearest point.
+                        d1 = ball_radius - _norm(xo, ball_center)
+                        d2 = ball_radius - _norm(x, ball_center)
+                        if d1 * d2 <= cut:
+                            f = _crossing(
+                                rng, d1, d2, kill_scale, diffusivity, dt, bridge
+                            )
+                            if f < frac:
+                                frac = f
+                                hit_wall = n_targets
+                for k in range(n_targets):
                     r1 = 0.0
                     r2 = 0.0
                     for i in range(d):
-                        r1 += (x[i] - ball_center[i]) ** 2
-                        r2 += (y[i] - ball_center[i]) ** 2
-                    d1 = ball_radius - math.sqrt(r1)
-                    d2 = ball_radius - math.sqrt(r2)
-                    if d2 <= 0.0 or (bridge and d1 * d2 < cutoff):
+                        r1 += (xo[i] - target_center[k, i]) ** 2
+                        r2 += (x[i] - target_center[k, i]) ** 2
+                    reach = target_radius[k] + 5.0 * sigma
+                    if r2 > reach * reach and r1 > reach * reach:
+                        continue
+                    d1 = math.sqrt(r1) - target_radius[k]
+                    d2 = math.sqrt(r2) - target_radius[k]
+                    if d1 * d2 <= cut:
                         f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
                         if f < frac:
                             frac = f
-                            hit_wall = n_targets
-            for k in range(n_targets if general else 0):
-                r1 = 0.0
-                r2 = 0.0
-                for i in range(d):
-                    r1 += (x[i] - target_center[k, i]) ** 2
-                    r2 += (y[i] - target_center[k, i]) ** 2
-                reach = target_radius[k] + 5.0 * sigma
-                if r2 > reach * reach and r1 > reach * reach:
-                    continue
-                d1 = math.sqrt(r1) - target_radius[k]
-                d2 = math.sqrt(r2) - target_radius[k]
-                if d2 <= 0.0 or (bridge and d1 * d2 < cutoff):
-                    f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
-                    if f < frac:
-                        frac = f
-                        hit_wall = n_box_walls + k
-
+                            hit_wall = n_box_walls + k
             if hit_wall >= 0:
-                hit_time = (step - 1 + frac) * dt
                 _exit_point(
-                    rng, x, y, frac, sigma, hit_wall, n_box_walls, lower, upper,
+                    rng, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
                     is_ball, ball_center, ball_radius, target_center, target_radius,
                 )  # fmt: skip
                 break
-            for i in range(d):
-                x[i] = y[i]
-            while o < n_occupancy and occupancy_steps[o] == step:
-                _bin(
-                    x,
-                    occupancy_lower,
-                    occupancy_upper,
-                    occupancy_bins,
-                    out_occupancy,
-                    o,
-                )
-                o += 1
+            if step == next_snapshot:
+                while o < n_occupancy and occupancy_steps[o] == step:
+                    _bin(
+                        x, occupancy_lower, occupancy_upper, occupancy_bins,
+                        out_occupancy, o,
+                    )  # fmt: skip
+                    o += 1
+                next_snapshot = occupancy_steps[o] if o < n_occupancy else -1
 
         steps_done += step
         out_wall[w] = hit_wall
-        out_time[w] = hit_time
-        for i in range(d):
-            out_position[w, i] = y[i] if hit_wall >= 0 else math.nan
-            out_final[w, i] = math.nan if hit_wall >= 0 else x[i]
-        # 4. Survival: count this walker at every grid time before its absorption.
-        if hit_wall >= 0 and n_fpt_bins > 0:
-            b = int(hit_time / fpt_bin_width)
-            out_fpt_hist[hit_wall, min(b, n_fpt_bins - 1)] += 1
         if hit_wall >= 0:
+            hit_time = (step - 1 + frac) * dt
+            out_time[w] = hit_time
+            for i in range(d):
+                out_position[w, i] = x[i]
+                out_final[w, i] = math.nan
+            if n_fpt_bins > 0:
+                b = int(hit_time / fpt_bin_width)
+                out_fpt_hist[hit_wall, min(b, n_fpt_bins - 1)] += 1
+            # 4. Survival: counted at every grid time before the absorption.
             hist[np.searchsorted(survival_times, hit_time, side="left")] += 1
         else:
+            out_time[w] = math.nan
+            for i in range(d):
+                out_position[w, i] = math.nan
+                out_final[w, i] = x[i]
             hist[n_survival] += 1
 
     above = 0
@@ -426,6 +412,51 @@ def _simulate(  # type: ignore[no-untyped-def]
         above += hist[k + 1]
         out_survival[k] += above
     return steps_done
+
+
+@njit(nogil=True, cache=True)
+def _face_crossing(  # type: ignore[no-untyped-def]
+    rng, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity, dt, bridge
+):
+    """(fraction of the step, wall index) of the earliest face crossing, or (2.0, -1).
+
+    Called only for steps that end on, beyond or (bridge) near an absorbing face.
+    """
+    frac = 2.0
+    wall = -1
+    for i in range(xo.shape[0]):
+        for side in range(2):
+            a = abs_lo[i] if side == 0 else abs_hi[i]
+            if not math.isfinite(a):
+                continue
+            # Signed distances, positive inside the domain.
+            d1 = xo[i] - a if side == 0 else a - xo[i]
+            d2 = x[i] - a if side == 0 else a - x[i]
+            if d1 * d2 <= cut:
+                f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
+                if f < frac:
+                    frac = f
+                    wall = 2 * i + side
+    return frac, wall
+
+
+@njit(nogil=True, cache=True)
+def _norm(x, center):  # type: ignore[no-untyped-def]
+    r2 = 0.0
+    for i in range(x.shape[0]):
+        r2 += (x[i] - center[i]) ** 2
+    return math.sqrt(r2)
+
+
+@njit(nogil=True, cache=True)
+def _free(x, is_ball, ball_center, ball_radius, target_center, target_radius):  # type: ignore[no-untyped-def]
+    """Whether ``x`` lies inside the ball (if any) and outside every target."""
+    if is_ball and _norm(x, ball_center) >= ball_radius:
+        return False
+    for k in range(target_radius.shape[0]):
+        if _norm(x, target_center[k]) <= target_radius[k]:
+            return False
+    return True
 
 
 @njit(nogil=True, cache=True)
