@@ -87,7 +87,7 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
         if int(ds["walkers_done"][p]) == 0:
             unchecked.append((p, "no finished tasks yet"))
             continue
-        reason = _unsupported(point)
+        reason = unsupported(point)
         if reason:
             unchecked.append((p, reason))
             continue
@@ -103,7 +103,7 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
 # --------------------------------------------------------------------------- which
 
 
-def _unsupported(point: PointSpec) -> str:
+def unsupported(point: PointSpec) -> str:
     """Why a point has no analytic counterpart ("" when it has one)."""
     m, dom = point.motion, point.domain
     if m.start is None:
@@ -138,7 +138,9 @@ def _walls(point: PointSpec) -> list[tuple[str, str]]:
     ]
 
 
-def _exact_survival(point: PointSpec, t: np.ndarray) -> np.ndarray:
+def exact_survival(point: PointSpec, t: np.ndarray) -> np.ndarray:
+    """Closed-form S(t) of a point that :func:`unsupported` accepts; raises
+    NotImplementedError where the analytic library has no form."""
     m, dom = point.motion, point.domain
     assert m.start is not None
     if dom.shape == "ball":
@@ -174,7 +176,7 @@ def _exact_mean(point: PointSpec) -> float:
 def _survival_rows(p: int, point: PointSpec, surv: xr.Dataset) -> list[CheckRow]:
     times = surv["time"].values
     try:
-        exact = _exact_survival(point, times)
+        exact = exact_survival(point, times)
     except NotImplementedError:
         return []
     inside = np.flatnonzero((exact > SURVIVAL_RANGE[0]) & (exact < SURVIVAL_RANGE[1]))

@@ -67,6 +67,10 @@ def build_parser() -> argparse.ArgumentParser:
         "--variables", help="comma-separated variable names (default: all)"
     )
 
+    report = sub.add_parser("report", help="figures and an HTML page for a store")
+    report.add_argument("store")
+    report.add_argument("--out", required=True, help="directory for the report")
+
     bench = sub.add_parser(
         "bench", help="kernel throughput as ratios to this machine's limits"
     )
@@ -110,6 +114,12 @@ def _dispatch(args: argparse.Namespace) -> int:
         return _bench(args)
     if args.command == "export":
         return _export(args)
+    if args.command == "report":
+        from sweep.report import write_report
+
+        page = write_report(args.store, args.out)
+        print(f"wrote {page}")
+        return 0
     raise AssertionError(args.command)  # argparse rejects unknown commands
 
 
