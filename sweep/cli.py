@@ -56,6 +56,11 @@ def build_parser() -> argparse.ArgumentParser:
         "plan", help="show the points, tasks and work of a definition"
     )
     plan.add_argument("spec")
+    plan.add_argument(
+        "--cores",
+        type=int,
+        help="cores for the run-time estimate (default: this machine)",
+    )
 
     export = sub.add_parser("export", help="copy a store to an HDF5 file")
     export.add_argument("store")
@@ -220,23 +225,38 @@ def _check(args: argparse.Namespace) -> int:
 
 
 def _plan(args: argparse.Namespace) -> int:
+    import os
+
     from sweep.plan import make_plan
+    from sweep.sizing import human_bytes, human_seconds, size
     from sweep.spec import load_spec
 
     sweep = load_spec(args.spec)
     plan = make_plan(sweep)
-    bound = plan.walker_steps_bound()
+    sizing = size(plan)
+    cores = args.cores or os.cpu_count() or 1
     print(f"sweep {sweep.name!r} ({sweep.source})")
-    print(f"  points:        {sweep.n_points}")
+    print(f"  points:          {sweep.n_points}")
     print(
-        f"  walkers/point: {sweep.walkers}  (tasks of {sweep.chunk} walkers, {sweep.n_chunks} per point)"
+        f"  walkers/point:   {sweep.walkers:,}  (tasks of {sweep.chunk:,} walkers, "
+        f"{sweep.n_chunks} per point)"
     )
-    print(f"  tasks:         {plan.n_tasks}")
-    print(
-        f"  walker-steps:  at most {bound:.3g} (if no walker were absorbed before the horizon)"
-    )
+    print(f"  tasks:           {plan.n_tasks:,}")
     if sweep.swept:
-        print(f"  swept:         {', '.join(sweep.swept)}")
+        print(f"  swept:           {', '.join(sweep.swept)}")
+    print(
+        f"  walker-steps:    about {sizing.walker_steps_expected:.3g} expected, at most "
+        f"{sizing.walker_steps_bound:.3g} (no walker absorbed before the horizon)"
+    )
+    print(f"  disk:            at most {human_bytes(sizing.disk_bytes)} (uncompressed)")
+    print(f"  memory per task: about {human_bytes(sizing.task_memory_bytes)}")
+    print(
+        f"  run time:        about {human_seconds(sizing.run_seconds(cores))} on {cores} "
+        f"cores at {sizing.rate_per_core / 1e6:.0f} M walker-steps/s per core "
+        f"(measured on this machine)"
+    )
+    for warning in sizing.warnings:
+        print(f"  warning: {warning}")
     return 0
 
 

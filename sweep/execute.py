@@ -28,6 +28,7 @@ from kernels.walkers import simulate
 from sweep import store
 from sweep.errors import StoreError, SweepError, TaskError
 from sweep.plan import Task, make_plan
+from sweep.sizing import check_memory
 from sweep.spec import Sweep, load_spec
 
 log = logging.getLogger(__name__)
@@ -338,6 +339,10 @@ def run(
     if store_path is None:
         store_path = Path.cwd() / f"{Path(sweep.source).stem}.zarr"
     plan = make_plan(sweep)
+    if options.kind != "cluster":
+        # Workers of an existing cluster have their own memory; locally we know it.
+        local = options.threads or options.processes or os.cpu_count() or 1
+        check_memory(sweep, local)
     path = store.prepare(store_path, plan)
     with store.runner_lock(path):
         removed = store.clean_partials(path)

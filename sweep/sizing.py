@@ -1,0 +1,332 @@
+"""Sizing a sweep before it runs: work, disk, memory, run time, and warnings.
+
+Used by ``sweep plan`` (printed) and ``sweep run`` (a task that cannot fit in memory is
+refused before anything is written). Run-time estimates use this machine's measured
+kernel speed, cached by ``sweep bench`` or measured here in about a second.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from sweep.errors import PlanError
+from sweep.plan import Plan, Task, make_plan
+from sweep.spec import PointSpec, Sweep, parse_spec
+
+#: Where measured kernel speeds are kept between runs.
+CACHE = Path(
+    os.environ.get("SWEEP_CACHE_DIR", Path.home() / ".cache" / "brownian-sweep")
+)
+#: Tasks shorter than this spend a noticeable share on scheduling (about 1-3 ms per
+#: task on Dask, more on a busy scheduler).
+MIN_TASK_SECONDS = 1.0
+#: Tasks longer than this lose much work when a node dies (a task is redone whole).
+MAX_TASK_SECONDS = 3600.0
+#: sqrt(2 D dt) above this fraction of the smallest length (target radius, domain
+#: width) resolves that length poorly.
+STEP_FRACTION = 0.1
+#: Fraction of the machine's memory that the tasks running at once may take.
+MEMORY_SHARE = 0.8
+
+
+@dataclass(frozen=True)
+class Sizing:
+    """What a sweep will cost, and what looks wrong with it."""
+
+    n_points: int
+    n_tasks: int
+    walker_steps_bound: float
+    walker_steps_expected: float
+    disk_bytes: float
+    task_memory_bytes: float
+    rate_per_core: float
+    warnings: tuple[str, ...] = field(default=())
+
+    def run_seconds(self, cores: int) -> float:
+        return self.walker_steps_expected / (self.rate_per_core * max(cores, 1))
+
+
+def task_memory(sweep: Sweep) -> float:
+    """Peak bytes a task allocates for its outputs (per-walker arrays, histograms)."""
+    d = sweep.dimension
+    rec = sweep.points[0].record
+    n_walls = len(sweep.points[0].domain.wall_names())
+    per_walker = 8 + 2 + 8 * d + 8 * d  # time, wall, exit position, final position
+    occupancy = 8 * len(rec.occupancy_times) * rec.occupancy_bins**d
+    histogram = 8 * n_walls * rec.fpt_bins
+    return float(
+        sweep.chunk * per_walker + occupancy + histogram + 8 * rec.survival_points
+    )
+
+
+def disk_bytes(sweep: Sweep) -> float:
+    """Uncompressed bytes of the store's arrays (compression usually shrinks them)."""
+    d = sweep.dimension
+    rec = sweep.points[0].record
+    n_walls = len(sweep.points[0].domain.wall_names())
+    per_point = 8 * sweep.n_chunks * rec.survival_points
+    if rec.per_walker:
+        per_point += sweep.walkers * (8 + 2 + 8 * d)
+    per_point += 8 * sweep.n_chunks * len(rec.occupancy_times) * rec.occupancy_bins**d
+    per_point += 8 * sweep.n_chunks * n_walls * rec.fpt_bins
+    return float(sweep.n_points * per_point)
+
+
+def expected_steps(point: PointSpec) -> float:
+    """Expected steps per walker: mean first-passage time capped by the horizon."""
+    from sweep import analytic, check
+
+    horizon_steps = point.timing.n_steps
+    narrow = _narrow_escape_time(point)
+    if narrow is not None:
+        return float(min(narrow / point.timing.dt, horizon_steps))
+    if check.unsupported(point):
+        return float(horizon_steps)
+    m, dom = point.motion, point.domain
+    try:
+        if dom.shape == "ball":
+            assert m.start is not None
+            mean = analytic.ball_mean_exit_time(
+                math.dist(m.start, dom.center), dom.radius, m.diffusivity, m.dimension
+            )
+        else:
+            walls = [
+                (
+                    "absorbing" if lo else "reflecting",
+                    "absorbing" if hi else "reflecting",
+                )
+                for lo, hi in zip(dom.absorbing_low, dom.absorbing_high)
+            ]
+            mean = analytic.box_mean_exit_time(
+                m.start, dom.lower, dom.upper, walls, m.diffusivity, m.drift
+            )
+    except (NotImplementedError, ValueError):
+        return float(horizon_steps)
+    return float(min(mean / point.timing.dt, horizon_steps))
+
+
+def _narrow_escape_time(point: PointSpec) -> float | None:
+    """Mean time to find small absorbing targets in a reflecting 3-D domain.
+
+    Rule of thumb (common practice, the leading term of the narrow-escape asymptotics):
+    T ~ V / (4 pi D sum_k a_k) for targets of radii a_k much smaller than the domain.
+    """
+    dom, m = point.domain, point.motion
+    if m.dimension != 3 or not dom.targets or not dom.bounded:
+        return None
+    if dom.shape == "ball":
+        if dom.surface_absorbing:
+            return None
+        volume = 4.0 / 3.0 * math.pi * dom.radius**3
+    else:
+        if any(dom.absorbing_low) or any(dom.absorbing_high):
+            return None
+        volume = math.prod(hi - lo for lo, hi in zip(dom.lower, dom.upper))
+    return volume / (4.0 * math.pi * m.diffusivity * sum(t.radius for t in dom.targets))
+
+
+def slowest_decay_time(point: PointSpec) -> float:
+    """1 / (slowest decay rate) of the survival, for bounded driftless cases; else inf."""
+    dom, m = point.domain, point.motion
+    if any(v != 0.0 for v in m.drift):
+        return math.inf
+    narrow = _narrow_escape_time(point)
+    if narrow is not None:
+        return narrow  # the survival decays nearly exponentially at that mean time
+    if dom.targets:
+        return math.inf
+    if dom.shape == "ball":
+        if not dom.surface_absorbing:
+            return math.inf
+        # First zero of the Bessel function J_{d/2-1}: 2.405 (d = 2), pi (d = 3).
+        zero = {2: 2.404825557695773, 3: math.pi}.get(m.dimension, math.pi)
+        return dom.radius**2 / (m.diffusivity * zero**2)
+    rate = 0.0
+    for lo, hi, a_lo, a_hi in zip(
+        dom.lower, dom.upper, dom.absorbing_low, dom.absorbing_high
+    ):
+        width = hi - lo
+        if not math.isfinite(width):
+            continue
+        if a_lo and a_hi:
+            rate += m.diffusivity * (math.pi / width) ** 2
+        elif a_lo or a_hi:
+            rate += m.diffusivity * (math.pi / (2 * width)) ** 2
+    return 1.0 / rate if rate > 0 else math.inf
+
+
+def point_warnings(index: int, point: PointSpec) -> list[str]:
+    """Choices that waste work or mislead, for one point."""
+    out = []
+    m, tm, dom = point.motion, point.timing, point.domain
+    step = math.sqrt(2 * m.diffusivity * tm.dt)
+    lengths = [("target radius", t.radius) for t in dom.targets]
+    if dom.shape == "ball":
+        lengths.append(("ball radius", dom.radius))
+    else:
+        lengths += [
+            ("domain width", hi - lo)
+            for lo, hi in zip(dom.lower, dom.upper)
+            if math.isfinite(hi - lo)
+        ]
+    if lengths:
+        name, smallest = min(lengths, key=lambda item: item[1])
+        if step > STEP_FRACTION * smallest:
+            out.append(
+                f"point {index}: dt = {tm.dt:g} is coarse: the step sqrt(2 D dt) = "
+                f"{step:.3g} exceeds {STEP_FRACTION:g} x the smallest {name} "
+                f"({smallest:.3g}); halve dt until results stop moving."
+            )
+    tau = slowest_decay_time(point)
+    if math.isfinite(tau) and tm.horizon < 3 * tau:
+        censored = math.exp(-tm.horizon / tau)
+        out.append(
+            f"point {index}: horizon {tm.horizon:g} is short: the slowest decay time is "
+            f"{tau:.3g}, so roughly {censored:.0%} of walkers may still be free (censored) "
+            f"at the horizon."
+        )
+    return out
+
+
+def measured_rate(dimension: int) -> float:
+    """Kernel walker-steps per second per core for ``dimension``, cached on disk."""
+    cache = CACHE / "rates.json"
+    try:
+        rates = json.loads(cache.read_text())
+    except (OSError, ValueError):
+        rates = {}
+    key = str(dimension)
+    if key in rates:
+        return float(rates[key])
+    rate = _calibrate(dimension)
+    rates[key] = rate
+    try:
+        CACHE.mkdir(parents=True, exist_ok=True)
+        cache.write_text(json.dumps(rates))
+    except OSError:
+        pass  # an unwritable cache only costs a recalibration next time
+    return rate
+
+
+def record_rates(rates: dict[int, float]) -> None:
+    """Store rates measured by ``sweep bench`` for later estimates."""
+    cache = CACHE / "rates.json"
+    try:
+        CACHE.mkdir(parents=True, exist_ok=True)
+        cache.write_text(json.dumps({str(k): v for k, v in rates.items()}))
+    except OSError:
+        pass
+
+
+def _calibrate(dimension: int) -> float:
+    from sweep.execute import simulate_task
+
+    axes = range(dimension)
+    text = f"""
+[sweep]
+seed = 1
+walkers = 2000
+[motion]
+dimension = {dimension}
+diffusivity = 0.5
+start = {[0.5 for _ in axes]}
+[time]
+dt = 1e-3
+horizon = 2.0
+[domain]
+lower = {[0.0 for _ in axes]}
+upper = {[1.0 for _ in axes]}
+walls = {{ {", ".join(f'{a}_low = "absorbing", {a}_high = "absorbing"' for a in _axes(dimension))} }}
+"""
+    task: Task = make_plan(parse_spec(text, source="<calibration>")).tasks[0]
+    simulate_task(task)  # compile
+    start = time.perf_counter()
+    _, steps = simulate_task(task)
+    return steps / (time.perf_counter() - start)
+
+
+def _axes(dimension: int) -> list[str]:
+    from sweep.spec import axis_names
+
+    return list(axis_names(dimension))
+
+
+def size(plan: Plan) -> Sizing:
+    """Everything ``sweep plan`` prints about ``plan``."""
+    sweep = plan.sweep
+    expected = sum(expected_steps(p) for p in sweep.points) * sweep.walkers
+    warnings: list[str] = []
+    for i, point in enumerate(sweep.points):
+        warnings += point_warnings(i, point)
+    rate = measured_rate(sweep.dimension)
+    per_task = expected / max(plan.n_tasks, 1) / rate
+    if per_task < MIN_TASK_SECONDS and plan.n_tasks > 1:
+        warnings.append(
+            f"tasks are short (about {per_task:.2g} s each): per-task scheduling overhead "
+            f"will show; raise sweep.chunk (now {sweep.chunk})."
+        )
+    if per_task > MAX_TASK_SECONDS:
+        warnings.append(
+            f"tasks are long (about {per_task / 3600:.1f} h each): a killed node loses up "
+            f"to that much work per task; lower sweep.chunk (now {sweep.chunk})."
+        )
+    return Sizing(
+        n_points=sweep.n_points,
+        n_tasks=plan.n_tasks,
+        walker_steps_bound=float(plan.walker_steps_bound()),
+        walker_steps_expected=expected,
+        disk_bytes=disk_bytes(sweep),
+        task_memory_bytes=task_memory(sweep),
+        rate_per_core=rate,
+        warnings=tuple(warnings),
+    )
+
+
+def check_memory(sweep: Sweep, concurrent_tasks: int) -> None:
+    """Refuse a sweep whose running tasks would not fit in this machine's memory.
+
+    Raises
+    ------
+    PlanError
+        With the per-task estimate and how to shrink it.
+    """
+    total = _machine_memory()
+    need = task_memory(sweep) * concurrent_tasks
+    if total and need > MEMORY_SHARE * total:
+        raise PlanError(
+            f"{sweep.source}: [sweep.chunk] = {sweep.chunk} walkers per task needs about "
+            f"{task_memory(sweep) / 2**30:.1f} GiB per task, {need / 2**30:.1f} GiB for "
+            f"{concurrent_tasks} tasks at once, more than {MEMORY_SHARE:.0%} of this "
+            f"machine's {total / 2**30:.1f} GiB. Lower sweep.chunk (or record.occupancy "
+            f"bins, record.fpt_bins), or run fewer tasks at once."
+        )
+
+
+def _machine_memory() -> float:
+    try:
+        return float(os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES"))
+    except (ValueError, OSError, AttributeError):
+        return 0.0
+
+
+def human_bytes(n: float) -> str:
+    for unit in ("B", "KiB", "MiB", "GiB", "TiB"):
+        if n < 1024 or unit == "TiB":
+            return f"{n:.3g} {unit}"
+        n /= 1024
+    return f"{n:.3g} PiB"
+
+
+def human_seconds(s: float) -> str:
+    if s < 120:
+        return f"{s:.0f} s"
+    if s < 7200:
+        return f"{s / 60:.0f} min"
+    if s < 172800:
+        return f"{s / 3600:.1f} h"
+    return f"{s / 86400:.1f} days"
