@@ -295,6 +295,23 @@ def _bench(args: argparse.Namespace) -> int:
         report=lambda line: print(line, flush=True),
     )
     print(f"\ntwo threads / one thread (3-D box, bridge): {speedup:.2f}x")
+    from sweep.sizing import record_rates
+
+    # Bridge monitoring is the default, so its rates size runs in `sweep plan`.
+    record_rates(
+        {
+            1: next(
+                r.kernel_rate
+                for r in rows
+                if r.case.startswith("interval") and r.options == "bridge"
+            ),
+            3: next(
+                r.kernel_rate
+                for r in rows
+                if r.case.startswith("box") and r.options == "bridge"
+            ),
+        }
+    )
     print("\ntargets:")
     for name, measured, wanted, met in verdicts(rows, speedup):
         shown = f"{measured:.0%}" if wanted < 1 else f"{measured:.2f}x"

@@ -217,8 +217,13 @@ def record_rates(rates: dict[int, float]) -> None:
     """Store rates measured by ``sweep bench`` for later estimates."""
     cache = CACHE / "rates.json"
     try:
+        known = json.loads(cache.read_text())
+    except (OSError, ValueError):
+        known = {}
+    known.update({str(k): v for k, v in rates.items()})
+    try:
         CACHE.mkdir(parents=True, exist_ok=True)
-        cache.write_text(json.dumps({str(k): v for k, v in rates.items()}))
+        cache.write_text(json.dumps(known))
     except OSError:
         pass
 
