@@ -6,6 +6,7 @@ the threaded run, also when a worker is killed with SIGKILL in the middle of a t
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import signal
@@ -173,3 +174,48 @@ def test_worker_killed_mid_task_loses_nothing(
     stdout, stderr = proc.communicate(timeout=PATIENCE)
     assert proc.returncode == 0, stderr
     assert_stores_identical(slow_reference, out)
+
+
+def test_slurm_job_script_runs_the_sweep(
+    small_spec: Path, reference: Path, tmp_path: Path
+) -> None:
+    """The HPC recipe end to end on this machine: `srun` is a stand-in that runs its
+    command once (one node); scheduler and workers are real processes on 127.0.0.1."""
+    script = Path(__file__).resolve().parent.parent / "sweeps" / "hpc" / "slurm-job.sh"
+    fake_bin = tmp_path / "bin"
+    fake_bin.mkdir()
+    srun = fake_bin / "srun"
+    srun.write_text(
+        '#!/bin/sh\nwhile [ "${1#--}" != "$1" ]; do shift; done\nexec "$@"\n'
+    )
+    srun.chmod(0o755)
+    out = tmp_path / "slurm.zarr"
+    env = {
+        **os.environ,
+        "PATH": f"{fake_bin}:{os.environ['PATH']}",
+        "SLURM_JOB_ID": "4242",
+        "SLURM_NNODES": "1",
+        "SLURM_CPUS_PER_TASK": "2",
+        "VENV": str(BIN.parent),
+        "SWEEP_WORKDIR": str(tmp_path / "dask"),
+        "SWEEP_SCHEDULER_ARGS": "--host 127.0.0.1",
+        "SWEEP_WORKER_ARGS": "--host 127.0.0.1",
+    }
+    job = subprocess.Popen(
+        ["bash", str(script), str(small_spec), str(out)],
+        env=env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.STDOUT,
+        text=True,
+        cwd=tmp_path,
+        start_new_session=True,
+    )
+    try:
+        output, _ = job.communicate(timeout=PATIENCE)
+    finally:
+        # Like a batch system ending the allocation: nothing of the job survives.
+        with contextlib.suppress(ProcessLookupError):
+            os.killpg(job.pid, signal.SIGKILL)
+        job.wait()
+    assert job.returncode == 0, output
+    assert_stores_identical(reference, out)
