@@ -8,9 +8,10 @@ when |z| <= Z_PASS. Points without an analytic counterpart are listed as such.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import asdict, dataclass
 from pathlib import Path
 
@@ -41,6 +42,10 @@ class CheckRow:
     z: float
     passed: bool
     source: str
+    #: Expected discretisation bias of the simulated value (shifted-wall prediction for
+    #: endpoint monitoring; 0 where the scheme is exact). Reported beside the verdict,
+    #: never folded into the tolerance.
+    allowance: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -110,8 +115,6 @@ def unsupported(point: PointSpec) -> str:
         return "uniform start: no closed form implemented"
     if dom.targets:
         return "absorbing targets: no closed form"
-    if point.timing.monitoring != "bridge":
-        return "endpoint monitoring: first-passage bias O(sqrt(dt)); closed forms not comparable"
     if dom.shape == "ball":
         if not dom.surface_absorbing:
             return "reflecting ball: nothing absorbs"
@@ -136,6 +139,43 @@ def _walls(point: PointSpec) -> list[tuple[str, str]]:
     return [
         (kind[lo], kind[hi]) for lo, hi in zip(dom.absorbing_low, dom.absorbing_high)
     ]
+
+
+def shifted(point: PointSpec) -> PointSpec | None:
+    """The point with absorbing walls moved outward by beta sqrt(2 D dt), or None.
+
+    Checking walls only at step ends behaves like a continuously monitored domain
+    enlarged by that shift (Broadie, Glasserman & Kou 1997, Math. Finance 7(4)); the
+    difference of the closed forms at the two domains is the expected bias.
+    """
+    if point.timing.monitoring != "endpoint":
+        return None
+    delta = analytic.discrete_monitoring_shift(
+        point.motion.diffusivity, point.timing.dt
+    )
+    dom = point.domain
+    if dom.shape == "ball":
+        moved = dataclasses.replace(dom, radius=dom.radius + delta)
+    else:
+        moved = dataclasses.replace(
+            dom,
+            lower=tuple(
+                lo - delta if a else lo for lo, a in zip(dom.lower, dom.absorbing_low)
+            ),
+            upper=tuple(
+                hi + delta if a else hi for hi, a in zip(dom.upper, dom.absorbing_high)
+            ),
+        )
+    return dataclasses.replace(point, domain=moved)
+
+
+def _allowance(
+    point: PointSpec, statistic: Callable[[PointSpec], float], exact: float
+) -> float:
+    moved = shifted(point)
+    if moved is None:
+        return 0.0
+    return statistic(moved) - exact
 
 
 def exact_survival(point: PointSpec, t: np.ndarray) -> np.ndarray:
@@ -199,20 +239,21 @@ def _survival_rows(p: int, point: PointSpec, surv: xr.Dataset) -> list[CheckRow]
         # survive, and what the z-score's null hypothesis implies.
         se = math.sqrt(s_exact * (1 - s_exact) / n)
         s_sim = float(surv["estimate"][k])
-        z = stats.zscore(s_sim, s_exact, se)
+        t_k = times[k : k + 1]
+        bias = _allowance(
+            point, lambda q, t_k=t_k: float(exact_survival(q, t_k)[0]), s_exact
+        )
         rows.append(
-            CheckRow(
-                p,
-                f"survival S(t={times[k]:.4g})",
-                s_sim,
-                se,
-                s_exact,
-                z,
-                abs(z) <= Z_PASS,
-                source,
-            )
+            _row(p, f"survival S(t={times[k]:.4g})", s_sim, se, s_exact, source, bias)
         )
     return rows
+
+
+def _row(
+    p: int, name: str, sim: float, se: float, exact: float, source: str, bias: float
+) -> CheckRow:
+    z = stats.zscore(sim, exact, se)
+    return CheckRow(p, name, sim, se, exact, z, abs(z) <= Z_PASS, source, bias)
 
 
 def _mean_rows(p: int, point: PointSpec, mean: xr.Dataset) -> list[CheckRow]:
@@ -223,18 +264,14 @@ def _mean_rows(p: int, point: PointSpec, mean: xr.Dataset) -> list[CheckRow]:
     if not math.isfinite(exact):
         return []
     est, se = float(mean["estimate"]), float(mean["stderr"])
-    z = stats.zscore(est, exact, se)
+    bias = _allowance(point, _exact_mean, exact)
     if point.domain.shape == "ball":
         source = "(R^2 - r0^2) / (2 d D) (Oksendal, Example 7.4.2) [from memory]"
     elif point.motion.dimension == 1:
         source = "interval mean exit time (Redner 2001 ch. 2; Karlin & Taylor 1981 ch. 15) [from memory]"
     else:
         source = "integral of the product of 1-D survivals (quadrature)"
-    return [
-        CheckRow(
-            p, "mean first-passage time", est, se, exact, z, abs(z) <= Z_PASS, source
-        )
-    ]
+    return [_row(p, "mean first-passage time", est, se, exact, source, bias)]
 
 
 def _splitting_rows(p: int, point: PointSpec, split: xr.Dataset) -> list[CheckRow]:
@@ -246,20 +283,24 @@ def _splitting_rows(p: int, point: PointSpec, split: xr.Dataset) -> list[CheckRo
     ):
         return []
     assert m.start is not None
+    exact = _exact_splitting(point)
+    est = float(split["estimate"].sel(wall="x_high"))
+    n = float(split["n"])
+    se = math.sqrt(exact * (1 - exact) / n)
+    bias = _allowance(point, _exact_splitting, exact)
+    source = "splitting probability (Redner 2001 ch. 2) [from memory]"
+    return [_row(p, "P(exit at x_high)", est, se, exact, source, bias)]
+
+
+def _exact_splitting(point: PointSpec) -> float:
+    m, dom = point.motion, point.domain
+    assert m.start is not None
     length = dom.upper[0] - dom.lower[0]
-    exact = float(
+    return float(
         analytic.interval_splitting(
             m.start[0] - dom.lower[0], length, m.diffusivity, m.drift[0]
         )
     )
-    est = float(split["estimate"].sel(wall="x_high"))
-    n = float(split["n"])
-    se = math.sqrt(exact * (1 - exact) / n)
-    z = stats.zscore(est, exact, se)
-    source = "splitting probability (Redner 2001 ch. 2) [from memory]"
-    return [
-        CheckRow(p, "P(exit at x_high)", est, se, exact, z, abs(z) <= Z_PASS, source)
-    ]
 
 
 # --------------------------------------------------------------------------- text
@@ -271,20 +312,22 @@ def format_table(
     values: Sequence[Sequence[object]] = (),
 ) -> str:
     """The report as an aligned text table, one row per comparison."""
-    header = ("point", "statistic", "simulated ± 95% CI", "exact", "z", "verdict")
+    biased = any(r.allowance for r in report.rows)
+    header: tuple[str, ...] = ("point", "statistic", "simulated ± 95% CI", "exact", "z")
+    header += ("expected dt bias", "verdict") if biased else ("verdict",)
     lines = [header]
     z95 = stats.z_value()
     for r in report.rows:
-        lines.append(
-            (
-                str(r.point),
-                r.statistic,
-                f"{r.simulated:.5g} ± {z95 * r.stderr:.2g}",
-                f"{r.exact:.5g}",
-                f"{r.z:+.2f}",
-                "ok" if r.passed else "FAIL",
-            )
+        row: tuple[str, ...] = (
+            str(r.point),
+            r.statistic,
+            f"{r.simulated:.5g} ± {z95 * r.stderr:.2g}",
+            f"{r.exact:.5g}",
+            f"{r.z:+.2f}",
         )
+        if biased:
+            row += (f"{r.allowance:+.3g}" if r.allowance else "0",)
+        lines.append((*row, "ok" if r.passed else "FAIL"))
     widths = [max(len(row[i]) for row in lines) for i in range(len(header))]
     text = "\n".join(
         "  ".join(c.ljust(w) for c, w in zip(row, widths)).rstrip() for row in lines
@@ -303,7 +346,13 @@ def format_table(
         if report.passed
         else f"{failed} of {len(report.rows)} checks FAILED"
     )
-    return f"{text}\n\n{verdict} (|z| <= {Z_PASS:g}; z = (simulated - exact) / standard error)"
+    note = (
+        "\nendpoint monitoring lets walkers slip out and back between steps; the expected "
+        "bias column is the shifted-wall prediction (not added to the tolerance)."
+        if biased
+        else ""
+    )
+    return f"{text}\n\n{verdict} (|z| <= {Z_PASS:g}; z = (simulated - exact) / standard error){note}"
 
 
 def _finite(row: dict[str, object]) -> dict[str, object]:

@@ -1,0 +1,83 @@
+"""`sweep check`: passes on correct sweeps, fails loudly on mis-specified ones."""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+from sweep import store
+from sweep.check import check_store
+from sweep.execute import RunOptions, run, run_task
+from sweep.plan import make_plan
+from sweep.spec import load_spec
+from tests.conftest import SMALL_SPEC
+from tests.tolerances import Z_STAT
+
+#: The D-versus-2D slip must be caught by a wide margin, not barely.
+MIN_FAILING_Z = 10 * Z_STAT
+
+
+def _cli(*args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run(
+        [sys.executable, "-m", "sweep.cli", *args],
+        capture_output=True,
+        text=True,
+        timeout=300,
+    )
+
+
+def test_check_passes_and_writes_json(small_spec: Path, tmp_path: Path) -> None:
+    out = tmp_path / "s.zarr"
+    assert run(small_spec, out, RunOptions(threads=2, progress=False)).complete
+    result = _cli("check", str(out), "--json")
+    assert result.returncode == 0, result.stderr
+    report = json.loads(result.stdout)
+    assert report["passed"] is True
+    names = {row["statistic"] for row in report["rows"]}
+    assert {"mean first-passage time", "P(exit at x_high)"} <= names
+    assert all(row["source"] for row in report["rows"])
+
+
+def test_check_fails_on_mis_scaled_diffusivity(
+    small_spec: Path, tmp_path: Path
+) -> None:
+    """A kernel fed 2D instead of D (the classic variance slip) is caught."""
+    plan = make_plan(load_spec(small_spec))
+    path = store.prepare(tmp_path / "wrong.zarr", plan)
+    for task in plan.tasks:
+        wrong = dataclasses.replace(
+            task,
+            args=dataclasses.replace(task.args, diffusivity=2 * task.args.diffusivity),
+        )
+        assert "error" not in run_task(str(path), wrong)
+    report = check_store(path)
+    assert not report.passed
+    worst = max(abs(r.z) for r in report.rows)
+    assert worst > MIN_FAILING_Z
+    result = _cli("check", str(path))
+    assert result.returncode == 1
+    assert "FAIL" in result.stdout
+
+
+def test_check_reports_endpoint_bias_separately(tmp_path: Path) -> None:
+    spec = tmp_path / "endpoint.toml"
+    spec.write_text(
+        SMALL_SPEC.replace("horizon = 3.0", 'horizon = 3.0\nmonitoring = "endpoint"')
+        .replace("walkers = 3000", "walkers = 20000")
+        .replace("chunk = 500", "chunk = 5000")
+        .replace("dt = 1e-3", "dt = 4e-3")
+    )
+    out = tmp_path / "e.zarr"
+    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
+    report = check_store(out)
+    mean_rows = [r for r in report.rows if r.statistic == "mean first-passage time"]
+    assert mean_rows and all(r.allowance > 0 for r in mean_rows)
+    # The shifted-wall prediction (Broadie, Glasserman & Kou 1997) explains the bias:
+    # simulated minus (exact + allowance) is within Z_STAT standard errors.
+    for r in mean_rows:
+        assert abs(r.simulated - r.exact - r.allowance) <= Z_STAT * r.stderr
+    text = _cli("check", str(out)).stdout
+    assert "expected dt bias" in text
