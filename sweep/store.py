@@ -222,6 +222,20 @@ def _create(path: Path, plan: Plan) -> None:
         long_name="walkers per chunk",
     )
     small(
+        "censoring_time",
+        ("point",),
+        np.array(
+            [p.timing.n_steps * p.timing.dt for p in sweep.points], dtype=np.float64
+        ),
+        long_name="horizon: walkers still free then are censored (snapped to the step grid)",
+    )
+    small(
+        "time_step",
+        ("point",),
+        np.array([p.timing.dt for p in sweep.points], dtype=np.float64),
+        long_name="time step dt",
+    )
+    small(
         "time",
         ("time",),
         np.array(rec.survival_times, dtype=np.float64),
@@ -671,7 +685,7 @@ def open_dataset(path: str | Path) -> xr.Dataset:
     swept_coords = [
         name
         for name in raw.variables
-        if raw[name].dims == ("point",) and name not in ("point",)
+        if raw[name].dims == ("point",) and name not in ("point", "fpt_bin_width")
     ]
     coords: dict[str, Any] = {name: raw[name].compute() for name in swept_coords}
     coords["chunk_walkers"] = raw["chunk_walkers"].compute()
