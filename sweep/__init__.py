@@ -43,6 +43,8 @@ __all__ = [
     "open",
     "parse_spec",
     "run",
+    "select",
+    "grid_view",
     "stats",
 ]
 
@@ -63,9 +65,24 @@ def open(path: Any) -> xr.Dataset:  # noqa: A001 - the public name the design fi
     return open_dataset(path)
 
 
+def select(ds: xr.Dataset, **values: Any) -> xr.Dataset:
+    """Points matching parameter values within a float tolerance; see
+    :func:`sweep.views.select`."""
+    from sweep.views import select as _select
+
+    return _select(ds, **values)
+
+
+def grid_view(ds: xr.Dataset) -> xr.Dataset:
+    """One dimension per swept parameter; see :func:`sweep.views.grid_view`."""
+    from sweep.views import grid_view as _grid_view
+
+    return _grid_view(ds)
+
+
 def __getattr__(name: str) -> Any:
     # Heavy stages load on first use, so `import sweep` stays fast for the CLI.
-    if name in ("stats", "analytic", "check", "store", "plan", "execute"):
+    if name in ("stats", "analytic", "check", "store", "plan", "execute", "views"):
         import importlib
 
         return importlib.import_module(f"sweep.{name}")

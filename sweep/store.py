@@ -176,6 +176,7 @@ def _create(path: Path, plan: Plan) -> None:
                 "axis_names": list(axis_names(d)),
                 "wall_names": list(domain.wall_names()),
                 "swept": list(sweep.swept),
+                "parameter_coordinates": list(coordinate_columns(sweep)),
                 "per_walker": rec.per_walker,
                 "occupancy": bool(rec.occupancy_times),
                 "fpt_bins": rec.fpt_bins,
@@ -739,6 +740,7 @@ def open_dataset(path: str | Path) -> xr.Dataset:
         "tool_version": attrs["tool_version"],
         "created": attrs["created"],
         "wall_names": list(attrs["wall_names"]),
+        "parameter_coordinates": list(attrs.get("parameter_coordinates", [])),
         "store": str(path.absolute()),
         "complete": int(complete),
     }
