@@ -411,3 +411,47 @@ def spec_with_walkers(tmp_path: Path) -> Path:
         SMALL_SPEC.replace("[record]", "[record]\nper_walker = true\nfpt_bins = 3000")
     )
     return path
+
+
+def test_status_while_another_process_runs(
+    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    slow = tmp_path / "slow.toml"
+    slow.write_text(
+        SMALL_SPEC.replace("dt = 1e-3", "dt = 2e-5")
+        .replace("walkers = 3000", "walkers = 60000")
+        .replace("chunk = 500", "chunk = 5000")
+    )
+    out = tmp_path / "s.zarr"
+    proc = subprocess.Popen(
+        [
+            *sweep_command(),
+            "run",
+            str(slow),
+            "--store",
+            str(out),
+            "--threads",
+            "1",
+            "--quiet",
+        ],
+        env=cli_env,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
+    try:
+        deadline = time.monotonic() + PATIENCE
+        while time.monotonic() < deadline and len(store.done_tasks(out)) < 1:
+            time.sleep(0.02)
+        status = subprocess.run(
+            [*sweep_command(), "status", str(out)],
+            env=cli_env,
+            capture_output=True,
+            text=True,
+            timeout=PATIENCE,
+        )
+        assert status.returncode == 0, status.stderr
+        assert f"running now: pid {proc.pid}" in status.stdout
+        assert "/24 tasks done" in status.stdout and "24/24" not in status.stdout
+    finally:
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
