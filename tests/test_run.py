@@ -455,3 +455,30 @@ def test_status_while_another_process_runs(
     finally:
         proc.send_signal(signal.SIGKILL)
         proc.wait()
+
+
+def test_failing_task_is_named_and_others_are_kept(
+    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    """A task that raises (here: a file squats where its chunk directory must go)."""
+    reference = tmp_path / "reference.zarr"
+    _run(small_spec, reference)
+    out = tmp_path / "s.zarr"
+    path = store.prepare(out, make_plan(load_spec(small_spec)))
+    blocker = path / "first_passage_time" / "c" / "1"
+    blocker.parent.mkdir(parents=True)
+    blocker.write_text("not a directory")
+    result = subprocess.run(
+        [*sweep_command(), "run", str(small_spec), "--store", str(out), "--quiet"],
+        env=cli_env,
+        capture_output=True,
+        text=True,
+        timeout=PATIENCE,
+    )
+    assert result.returncode == 1
+    assert "6 of 12 tasks failed" in result.stderr
+    assert "point 1, chunk 0:" in result.stderr and "Traceback" not in result.stderr
+    assert store.done_tasks(out) == {(0, c) for c in range(6)}
+    blocker.unlink()
+    _run(small_spec, out)
+    assert_stores_identical(reference, out)
