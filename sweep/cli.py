@@ -129,12 +129,14 @@ def _dispatch(args: argparse.Namespace) -> int:
 
 
 def _run(args: argparse.Namespace) -> int:
+    from sweep.spec import load_spec
+
+    # Validate before importing dask, numba and xarray: bad input answers in a blink.
+    sweep = load_spec(args.spec)
     from sweep.check import check_dataset, format_table
     from sweep.execute import RunOptions, run
-    from sweep.spec import load_spec
     from sweep.store import open_dataset
 
-    sweep = load_spec(args.spec)
     options = RunOptions(
         threads=args.threads,
         processes=args.processes,
@@ -279,6 +281,11 @@ def _index_list(text: str, option: str) -> list[int]:
         a, dash, b = part.strip().partition("-")
         if not a.isdigit() or (dash and not b.isdigit()):
             raise SweepError(f"{option}: expected indices like 0,3,5-9; got {text!r}.")
+        if dash and int(b) < int(a):
+            raise SweepError(
+                f"{option}: the range {part.strip()!r} runs backwards; write it as "
+                f"{b}-{a}. Got {text!r}."
+            )
         out += list(range(int(a), int(b) + 1)) if dash else [int(a)]
     return out
 

@@ -76,6 +76,23 @@ class RunOptions:
             value = getattr(self, name)
             if value is not None and value < 1:
                 raise SweepError(f"--{name} must be >= 1; got {value}.")
+        if self.scheduler is not None:
+            from distributed.comm.addressing import parse_address, parse_host_port
+
+            try:
+                _, location = parse_address(self.scheduler)
+                parse_host_port(location)
+            except (ValueError, TypeError) as err:
+                raise SweepError(
+                    f"--scheduler: {err}; expected an address like "
+                    f"tcp://10.0.0.5:8786; got {self.scheduler!r}."
+                ) from None
+        if self.scheduler_file is not None and not Path(self.scheduler_file).is_file():
+            raise SweepError(
+                f"--scheduler-file {self.scheduler_file}: no such file; start the "
+                f"scheduler first (dask scheduler --scheduler-file "
+                f"{self.scheduler_file})."
+            )
 
     @property
     def kind(self) -> str:
@@ -447,10 +464,18 @@ def _run_distributed(
                 host="127.0.0.1",
             )
         client = Client(cluster)
-    elif options.scheduler_file is not None:
-        client = Client(scheduler_file=options.scheduler_file, timeout="60s")
     else:
-        client = Client(options.scheduler, timeout="60s")
+        where = options.scheduler_file or options.scheduler
+        try:
+            if options.scheduler_file is not None:
+                client = Client(scheduler_file=options.scheduler_file, timeout="60s")
+            else:
+                client = Client(options.scheduler, timeout="60s")
+        except (OSError, TimeoutError, ValueError) as err:
+            raise SweepError(
+                f"cannot connect to the Dask scheduler {where}: {err}. Check that it "
+                f"runs and that this machine can reach it; the store is unchanged."
+            ) from None
     try:
         n_threads = max(1, sum(client.nthreads().values()))
         progress = Progress(

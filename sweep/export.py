@@ -8,6 +8,7 @@ Memory stays bounded: data moves one store chunk at a time.
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 from collections.abc import Sequence
@@ -90,6 +91,16 @@ def export_hdf5(
             )
         names = list(variables)
     out = Path(out)
+    parent = out.absolute().parent
+    if not parent.is_dir():
+        raise StoreError(
+            f"{out}: cannot write the HDF5 export: the directory {parent} does not exist."
+        )
+    if not os.access(parent, os.W_OK):
+        raise StoreError(
+            f"{out}: cannot write the HDF5 export: the directory {parent} is not writable "
+            f"(read-only file system or permissions). Choose another output path."
+        )
     tmp = out.with_name(f".{out.name}.partial-{os.getpid()}")
     try:
         with h5py.File(tmp, "w") as h5:
@@ -99,10 +110,15 @@ def export_hdf5(
             _write_scales(h5, ds, names)
         os.replace(tmp, out)
     except OSError as err:
-        tmp.unlink(missing_ok=True)
-        raise store.os_error(out, "write the HDF5 export", err) from err
+        with contextlib.suppress(OSError):
+            tmp.unlink(missing_ok=True)
+        raise StoreError(
+            f"{out}: cannot write the HDF5 export: {err.strerror or err}. Choose a "
+            f"writable output path; the store is unchanged."
+        ) from err
     except BaseException:
-        tmp.unlink(missing_ok=True)
+        with contextlib.suppress(OSError):
+            tmp.unlink(missing_ok=True)
         raise
     return out
 

@@ -51,17 +51,35 @@ class Sizing:
         return self.walker_steps_expected / (self.rate_per_core * max(cores, 1))
 
 
-def task_memory(sweep: Sweep) -> float:
-    """Peak bytes a task allocates for its outputs (per-walker arrays, histograms)."""
+def task_memory_parts(sweep: Sweep) -> dict[str, tuple[float, str]]:
+    """Bytes a task allocates, by the definition key that sets them (with a label)."""
     d = sweep.dimension
     rec = sweep.points[0].record
     n_walls = len(sweep.points[0].domain.wall_names())
     per_walker = 8 + 2 + 8 * d + 8 * d  # time, wall, exit position, final position
-    occupancy = 8 * len(rec.occupancy_times) * rec.occupancy_bins**d
-    histogram = 8 * n_walls * rec.fpt_bins
-    return float(
-        sweep.chunk * per_walker + occupancy + histogram + 8 * rec.survival_points
-    )
+    return {
+        "sweep.chunk": (
+            float(sweep.chunk * per_walker),
+            f"{sweep.chunk} walkers per task",
+        ),
+        "record.occupancy": (
+            float(8 * len(rec.occupancy_times) * rec.occupancy_bins**d),
+            f"{len(rec.occupancy_times)} snapshots x {rec.occupancy_bins}^{d} bins",
+        ),
+        "record.fpt_bins": (
+            float(8 * n_walls * rec.fpt_bins),
+            f"{n_walls} walls x {rec.fpt_bins} bins",
+        ),
+        "record.survival": (
+            float(8 * rec.survival_points),
+            f"{rec.survival_points} times",
+        ),
+    }
+
+
+def task_memory(sweep: Sweep) -> float:
+    """Peak bytes a task allocates for its outputs (per-walker arrays, histograms)."""
+    return sum(size for size, _ in task_memory_parts(sweep).values())
 
 
 def disk_bytes(sweep: Sweep) -> float:
@@ -301,14 +319,19 @@ def check_memory(sweep: Sweep, concurrent_tasks: int) -> None:
         With the per-task estimate and how to shrink it.
     """
     total = _machine_memory()
-    need = task_memory(sweep) * concurrent_tasks
+    per_task = task_memory(sweep)
+    need = per_task * concurrent_tasks
     if total and need > MEMORY_SHARE * total:
+        parts = task_memory_parts(sweep)
+        key = max(parts, key=lambda k: parts[k][0])
+        size, label = parts[key]
+        tasks = "task" if concurrent_tasks == 1 else "tasks"
         raise PlanError(
-            f"{sweep.source}: [sweep.chunk] = {sweep.chunk} walkers per task needs about "
-            f"{task_memory(sweep) / 2**30:.1f} GiB per task, {need / 2**30:.1f} GiB for "
-            f"{concurrent_tasks} tasks at once, more than {MEMORY_SHARE:.0%} of this "
-            f"machine's {total / 2**30:.1f} GiB. Lower sweep.chunk (or record.occupancy "
-            f"bins, record.fpt_bins), or run fewer tasks at once."
+            f"{sweep.source}: [{key}] = {label} needs about {size / 2**30:.1f} GiB per "
+            f"task ({per_task / 2**30:.1f} GiB in all, {need / 2**30:.1f} GiB for "
+            f"{concurrent_tasks} {tasks} at once), more than {MEMORY_SHARE:.0%} of this "
+            f"machine's {total / 2**30:.1f} GiB. Lower {key}, or run fewer tasks at once "
+            f"(--threads / --processes)."
         )
 
 

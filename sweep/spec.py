@@ -15,6 +15,7 @@ import itertools
 import json
 import math
 import random
+import re
 import tomllib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
@@ -28,6 +29,8 @@ WALL_KINDS: tuple[str, ...] = ("absorbing", "reflecting")
 MONITORING: tuple[str, ...] = ("bridge", "endpoint")
 SHAPES: tuple[str, ...] = ("box", "ball")
 MAX_DIMENSION = 8
+#: At most this many points in one store (grid product x zip lengths).
+MAX_POINTS = 1_000_000
 #: At most this many occupancy bins in all (bins ** dimension), so each task's histogram
 #: stays below 80 MB per snapshot.
 MAX_OCCUPANCY_BINS = 10**7
@@ -310,7 +313,14 @@ def parse_spec(text: str, source: str = "<string>") -> Sweep:
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
-        raise SpecError(f"{source}: not valid TOML: {err}.") from None
+        where = ""
+        found = re.search(r"line (\d+)", str(err))
+        if found:
+            lines = text.splitlines()
+            number = int(found.group(1))
+            if 0 < number <= len(lines):
+                where = f"\n  line {number}: {lines[number - 1].strip()}"
+        raise SpecError(f"{source}: not valid TOML: {err}.{where}") from None
     sweep = _Parser(source).sweep(raw)
     return dataclasses.replace(sweep, text=text)
 
@@ -460,6 +470,14 @@ class _Parser:
             chunk = auto_chunk(walkers)
 
         axes = self.axes(raw)
+        n_points = math.prod(len(values) for _, values in axes)
+        if n_points > MAX_POINTS:
+            lengths = " x ".join(f"{len(v)} ({', '.join(k)})" for k, v in axes)
+            raise self.fail(
+                "grid",
+                f"gives {n_points:,} points ({lengths}); at most {MAX_POINTS:,} fit in "
+                f"one store. Split the sweep into several definitions.",
+            )
         base = {
             k: copy.deepcopy(raw[k])
             for k in ("motion", "time", "domain", "record")

@@ -360,6 +360,11 @@ def read_attrs(path: str | Path) -> dict[str, Any]:
     """The store's provenance attributes; StoreError if ``path`` is not a store."""
     path = Path(path)
     meta = path / "zarr.json"
+    if path.exists() and not path.is_dir():
+        raise StoreError(
+            f"{path}: exists and is not a directory (a store is a directory made by "
+            f"`sweep run`); nothing was changed. Choose another --store path."
+        )
     if not path.is_dir():
         raise StoreError(
             f"{path}: no such store (expected a directory made by `sweep run`)."
