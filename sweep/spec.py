@@ -533,20 +533,7 @@ class _Parser:
         axes: list[tuple[tuple[str, ...], list[tuple[Any, ...]]]] = []
         seen: set[str] = set()
         for key, values in raw.get("grid", {}).items():
-            if isinstance(values, dict) and "." not in key:
-                raise self.fail(
-                    f"grid.{key}",
-                    "is a table, not a list: write dotted keys in quotes, e.g. "
-                    '"motion.diffusivity" = [0.5, 1.0] (without quotes TOML reads the '
-                    "dots as nested tables).",
-                )
-            self.sweep_key(key, "grid", seen)
-            self.origin[key] = "grid"
-            if not isinstance(values, list) or not values:
-                raise self.fail(
-                    f"grid.{key}",
-                    f"must be a non-empty list of values; got {_toml(values)}.",
-                )
+            self.swept_values(key, values, "grid", seen)
             axes.append(((key,), [(v,) for v in values]))
         zips = raw.get("zip", [])
         if not isinstance(zips, list) or not all(isinstance(z, dict) for z in zips):
@@ -560,20 +547,7 @@ class _Parser:
                 )
             lengths = set()
             for key, values in group.items():
-                if isinstance(values, dict) and "." not in key:
-                    raise self.fail(
-                        f"zip #{number + 1}.{key}",
-                        "is a table, not a list: write dotted keys in quotes, e.g. "
-                        '"motion.diffusivity" = [0.5, 1.0] (without quotes TOML reads the '
-                        "dots as nested tables).",
-                    )
-                self.sweep_key(key, f"zip #{number + 1}", seen)
-                self.origin[key] = f"zip #{number + 1}"
-                if not isinstance(values, list) or not values:
-                    raise self.fail(
-                        f"zip #{number + 1}.{key}",
-                        f"must be a non-empty list of values; got {_toml(values)}.",
-                    )
+                self.swept_values(key, values, f"zip #{number + 1}", seen)
                 lengths.add(len(values))
             if len(lengths) > 1:
                 shown = ", ".join(f"{k}: {len(v)}" for k, v in group.items())
@@ -586,6 +560,23 @@ class _Parser:
                 (keys, [tuple(group[k][i] for k in keys) for i in range(lengths.pop())])
             )
         return axes
+
+    def swept_values(self, key: str, values: Any, where: str, seen: set[str]) -> None:
+        """Check one swept key of [grid] or a [[zip]] table and its list of values."""
+        if isinstance(values, dict) and "." not in key:
+            raise self.fail(
+                f"{where}.{key}",
+                "is a table, not a list: write dotted keys in quotes, e.g. "
+                '"motion.diffusivity" = [0.5, 1.0] (without quotes TOML reads the '
+                "dots as nested tables).",
+            )
+        self.sweep_key(key, where, seen)
+        self.origin[key] = where
+        if not isinstance(values, list) or not values:
+            raise self.fail(
+                f"{where}.{key}",
+                f"must be a non-empty list of values; got {_toml(values)}.",
+            )
 
     def sweep_key(self, key: str, where: str, seen: set[str]) -> None:
         parts = key.split(".")
