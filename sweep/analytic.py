@@ -1671,6 +1671,41 @@ def ball_mean_exit_time(
     return (R**2 - r0**2) / (2.0 * dim * d)
 
 
+def ball_harmonic_measure(
+    x: ArrayLike, x0: ArrayLike, center: ArrayLike, radius: float
+) -> NDArray[np.float64]:
+    """Density of the exit point on the sphere (harmonic measure, Poisson kernel).
+
+    ``P(x0, x) = (R^2 - |x0 - c|^2) / (omega_d R |x0 - x|^d)`` with respect to the
+    surface measure, omega_d = 2 pi^(d/2) / Gamma(d/2) (omega_2 = 2 pi, omega_3 = 4 pi).
+    Source: P. Morters & Y. Peres, *Brownian Motion* (CUP 2010), Ch. 3, Theorem 3.44
+    [memory for the number]; shared reference sheet E4.
+
+    Parameters
+    ----------
+    x : array of float, shape (..., d)
+        Points on the sphere |x - center| = radius.
+    x0 : array of float, shape (d,)
+        Start point inside the ball.
+    center : array of float, shape (d,)
+    radius : float
+        R, length units.
+
+    Returns
+    -------
+    ndarray of float64, shape (...)
+        Density per unit surface (length^(1-d)).
+    """
+    x = np.asarray(x, dtype=np.float64)
+    x0 = np.asarray(x0, dtype=np.float64)
+    c = np.asarray(center, dtype=np.float64)
+    d = x.shape[-1]
+    omega = 2.0 * math.pi ** (d / 2) / math.gamma(d / 2)
+    r0_sq = float(np.sum((x0 - c) ** 2))
+    dist = np.sqrt(np.sum((x - x0) ** 2, axis=-1))
+    return (radius**2 - r0_sq) / (omega * radius * dist**d)
+
+
 def ball_exit_cos_mean(r0: float, radius: float) -> float:
     """Mean cosine of the exit angle from the ball, measured from the start direction.
 

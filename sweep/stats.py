@@ -1305,6 +1305,71 @@ def exit_position_histogram(
 
 
 @_accepts_selection
+def mean_square_displacement(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
+    """Mean-square displacement of the walkers still free at each snapshot time.
+
+    From the occupancy histograms: sum over bins of count x |center - x0|^2 divided by
+    the free walkers counted, plus the within-bin variance sum_i w_i^2 / 12 (uniform
+    within a bin; W. F. Sheppard, Proc. London Math. Soc. 29, 353 (1898)). Needs a
+    point start (``start_position``); walkers outside the histogram's range are not
+    counted, so choose the range to cover the free walkers (for free motion the exact
+    value is 2 d D t: see :func:`sweep.analytic.free_variance`).
+
+    Returns
+    -------
+    xarray.Dataset
+        dims (point, snapshot): ``estimate`` (length units^2), ``stderr`` (standard
+        deviation of the squared displacement / sqrt(n)), ``lower``, ``upper``, ``n``
+        (free walkers counted).
+    """
+    _check_level(level)
+    if "start_position" not in ds:
+        raise ValueError(
+            "mean_square_displacement needs the start point (start_position); this "
+            "Dataset does not record it."
+        )
+    occ = ds["occupancy"]
+    bin_dims = [d for d in occ.dims if d not in ("point", "snapshot")]
+    occ = occ.transpose("point", "snapshot", *bin_dims).compute()
+    count = np.asarray(occ.values, dtype=np.float64)
+    lo = np.asarray(ds["occupancy_lower"].transpose("point", ...).values, np.float64)
+    hi = np.asarray(ds["occupancy_upper"].transpose("point", ...).values, np.float64)
+    start = np.asarray(ds["start_position"].transpose("point", ...).values, np.float64)
+    n_points, n_snap = count.shape[:2]
+    sizes = [occ.sizes[d] for d in bin_dims]
+    estimate = np.full((n_points, n_snap), np.nan)
+    stderr = np.full((n_points, n_snap), np.nan)
+    n_free = count.reshape(n_points, n_snap, -1).sum(axis=2)
+    for p in range(n_points):
+        widths = (hi[p] - lo[p]) / np.asarray(sizes)
+        grids = np.meshgrid(
+            *[
+                lo[p, i] + widths[i] * (np.arange(sizes[i]) + 0.5) - start[p, i]
+                for i in range(len(sizes))
+            ],
+            indexing="ij",
+        )
+        r2 = sum(g**2 for g in grids) + float(np.sum(widths**2)) / 12.0
+        for s in range(n_snap):
+            c = count[p, s]
+            total = c.sum()
+            if total < 2:
+                continue
+            mean = float((c * r2).sum() / total)
+            var = float((c * (r2 - mean) ** 2).sum() / (total - 1))
+            estimate[p, s] = mean
+            stderr[p, s] = math.sqrt(var / total)
+    est = xr.DataArray(estimate, dims=("point", "snapshot"))
+    se = xr.DataArray(stderr, dims=("point", "snapshot"))
+    n = xr.DataArray(n_free, dims=("point", "snapshot"))
+    out = _interval(est, se, n, level)
+    if "snapshot_time" in ds:
+        out = out.assign_coords(
+            snapshot_time=ds["snapshot_time"].transpose("point", "snapshot")
+        )
+    return out
+
+
 def occupancy_density(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
     """Density of free walkers at each snapshot time: counts / (n x bin volume).
 

@@ -231,6 +231,18 @@ def _create(path: Path, plan: Plan) -> None:
         long_name="horizon: walkers still free then are censored (snapped to the step grid)",
     )
     small(
+        "start_position",
+        ("point", "axis"),
+        np.array(
+            [
+                p.motion.start if p.motion.start is not None else [np.nan] * d
+                for p in sweep.points
+            ],
+            dtype=np.float64,
+        ),
+        long_name="start point of every walker (NaN: uniform over the domain)",
+    )
+    small(
         "time_step",
         ("point",),
         np.array([p.timing.dt for p in sweep.points], dtype=np.float64),
@@ -734,6 +746,8 @@ def open_dataset(path: str | Path) -> xr.Dataset:
         )
         ds["fpt_bin_width"] = raw["fpt_bin_width"].compute()
         ds = ds.assign_coords(wall=list(attrs["wall_names"]))
+    if "start_position" in raw:
+        ds["start_position"] = raw["start_position"].compute()
     if attrs["occupancy"]:
         occ = raw["occupancy_count"].where(done_da, 0).sum("chunk")
         ds["occupancy"] = occ.assign_attrs(long_name="free walkers per bin")

@@ -1024,3 +1024,22 @@ def test_public_names_document_their_source(name: str) -> None:
     doc = inspect.getdoc(obj) or ""
     assert "Source" in doc
     assert any(mark in doc for mark in ("[memory", "[seen", "[derived"))
+
+
+def test_ball_harmonic_measure_matches_wrapcauchy_and_normalises() -> None:
+    """Poisson kernel of the ball (Morters & Peres 2010, Thm 3.44 [memory]); in the
+    disk, the exit angle is scipy.stats.wrapcauchy(c = r0/R) (shared sheet E4)."""
+    radius, r0 = 1.5, 0.9
+    theta = np.linspace(0.0, 2 * np.pi, 7)
+    on_circle = np.stack([radius * np.cos(theta), radius * np.sin(theta)], axis=-1)
+    density = an.ball_harmonic_measure(on_circle, [r0, 0.0], [0.0, 0.0], radius)
+    # Density per unit arc length times R is the density per unit angle.
+    expected = stats.wrapcauchy(r0 / radius).pdf(theta % (2 * np.pi))
+    np.testing.assert_allclose(density * radius, expected, rtol=RTOL_NUMERIC)
+
+    def ring(u: float) -> float:  # d = 3: integrate over u = cos(theta), azimuth 2 pi
+        x = [radius * u, radius * np.sqrt(1 - u * u), 0.0]
+        return float(an.ball_harmonic_measure(x, [r0, 0.0, 0.0], [0.0] * 3, radius))
+
+    total, _ = integrate.quad(ring, -1.0, 1.0, epsabs=0, epsrel=1e-12)
+    assert total * 2 * np.pi * radius**2 == pytest.approx(1.0, rel=RTOL_NUMERIC)

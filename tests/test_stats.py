@@ -547,3 +547,41 @@ def test_stats_on_a_real_store_know_the_horizon(tmp_path: pathlib.Path) -> None:
     # weighted by the absorbed fraction.
     assert (restricted["estimate"] <= 1.0).all()
     assert np.isfinite(stats.summary(ds)["mean_fpt"].values).all()
+
+
+def test_mean_square_displacement_of_free_motion(tmp_path: pathlib.Path) -> None:
+    """Free motion in the plane: MSD = 2 d D t (Karlin & Taylor 1975, ch. 7 [from
+    memory]; sweep.analytic.free_variance per axis)."""
+    import sweep
+    from sweep import analytic
+    from sweep.execute import RunOptions, run
+
+    spec = tmp_path / "free.toml"
+    spec.write_text(
+        """
+[sweep]
+seed = 5
+walkers = 20000
+chunk = 5000
+[motion]
+dimension = 2
+diffusivity = 0.5
+start = [0.0, 0.0]
+[time]
+dt = 1e-2
+horizon = 1.0
+[domain]
+lower = ["-inf", "-inf"]
+upper = ["inf", "inf"]
+[record]
+occupancy = { times = [0.25, 1.0], bins = 400, lower = [-8.0, -8.0], upper = [8.0, 8.0] }
+"""
+    )
+    out = tmp_path / "free.zarr"
+    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
+    msd = stats.mean_square_displacement(sweep.open(out))
+    for s, t in enumerate((0.25, 1.0)):
+        exact = 2 * float(analytic.free_variance(t, 0.5))
+        est = float(msd["estimate"].isel(point=0, snapshot=s))
+        se = float(msd["stderr"].isel(point=0, snapshot=s))
+        assert abs(est - exact) <= Z_STAT * se, (t, est, exact, se)
