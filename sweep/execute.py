@@ -112,6 +112,8 @@ class RunSummary:
     already_done: int
     completed: int = 0
     failed: list[str] = field(default_factory=list)
+    #: A task could not write because the disk is full, over quota or read-only.
+    storage_full: bool = False
     walker_steps: int = 0
     seconds: float = 0.0
     interrupted: bool = False
@@ -408,6 +410,7 @@ def _handle(
             f"point {result['point']}, chunk {result['chunk']}: {result['error']}"
         )
         if result.get("errno") in (errno.ENOSPC, errno.EDQUOT, errno.EROFS):
+            summary.storage_full = True
             stop.set()  # nothing more can be written; stop starting tasks
     else:
         summary.completed += 1
@@ -535,17 +538,23 @@ def _take(queue: Iterable[Task], n: int) -> list[Task]:
 def _raise_failures(summary: RunSummary) -> None:
     if not summary.failed:
         return
-    disk = [f for f in summary.failed if "No space left" in f or "Disk quota" in f]
     shown = "\n  ".join(summary.failed[:10])
     more = (
         f"\n  ... and {len(summary.failed) - 10} more"
         if len(summary.failed) > 10
         else ""
     )
-    if disk:
+    if summary.storage_full:
+        unstarted = (
+            summary.n_tasks
+            - summary.already_done
+            - summary.completed
+            - len(summary.failed)
+        )
         raise StoreError(
-            f"{summary.store}: the disk is full; {len(summary.failed)} tasks could not be "
-            f"written. Results already stored are intact; free space and rerun the same "
+            f"{summary.store}: the disk is full (or over quota, or read-only); "
+            f"{len(summary.failed)} task(s) could not be written and {unstarted} were not "
+            f"started. Results already stored are intact; free space and rerun the same "
             f"command to resume.\n  {shown}{more}"
         )
     raise TaskError(
