@@ -300,34 +300,16 @@ def verdicts(
     one_d = [r.over_numpy for r in rows if r.case.startswith("interval")]
     three_d = [r.over_numpy for r in rows if "3-D" in r.case]
     return [
-        (
-            "plain kernels / ceiling (worst case)",
-            min(plain),
-            TARGET_PLAIN,
-            min(plain) >= TARGET_PLAIN,
-        ),
-        (
-            "every option combination / ceiling (worst)",
-            min(every),
-            TARGET_OPTIONS,
-            min(every) >= TARGET_OPTIONS,
-        ),
-        (
-            "kernel / numpy, 1-D (worst)",
-            min(one_d),
-            TARGET_NUMPY_1D,
-            min(one_d) >= TARGET_NUMPY_1D,
-        ),
-        (
-            "kernel / numpy, 3-D (worst)",
-            min(three_d),
-            TARGET_NUMPY_3D,
-            min(three_d) >= TARGET_NUMPY_3D,
-        ),
-        (
-            "two threads / one thread",
-            speedup,
-            TARGET_THREADS,
-            speedup >= TARGET_THREADS,
-        ),
+        _verdict("plain kernels / ceiling (worst case)", plain, TARGET_PLAIN),
+        _verdict("every option combination / ceiling (worst)", every, TARGET_OPTIONS),
+        _verdict("kernel / numpy, 1-D (worst)", one_d, TARGET_NUMPY_1D),
+        _verdict("kernel / numpy, 3-D (worst)", three_d, TARGET_NUMPY_3D),
+        _verdict("two threads / one thread", [speedup], TARGET_THREADS),
     ]
+
+
+def _verdict(
+    name: str, measured: list[float], wanted: float
+) -> tuple[str, float, float, bool]:
+    worst = min(measured)
+    return name, worst, wanted, worst >= wanted
