@@ -272,7 +272,6 @@ def _simulate(  # type: ignore[no-untyped-def]
     cut = cutoff if bridge else 0.0
     kill_scale = 1.0 / (diffusivity * dt)
     n_survival = survival_times.shape[0]
-    n_occupancy = occupancy_steps.shape[0]
     n_fpt_bins = out_fpt_hist.shape[1] if out_fpt_hist.shape[0] > 0 else 0
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(d)  # position, updated in place each step
@@ -310,11 +309,10 @@ def _simulate(  # type: ignore[no-untyped-def]
             for i in range(d):
                 x[i] = start[i]
 
-        o = 0
-        while o < n_occupancy and occupancy_steps[o] == 0:
-            _bin(x, occupancy_lower, occupancy_upper, occupancy_bins, out_occupancy, o)
-            o += 1
-        next_snapshot = occupancy_steps[o] if o < n_occupancy else -1
+        o, next_snapshot = _snapshots(
+            x, 0, 0, occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins,
+            out_occupancy,
+        )  # fmt: skip
 
         hit_wall = -1
         frac = 2.0
@@ -354,13 +352,10 @@ def _simulate(  # type: ignore[no-untyped-def]
                         break
                 if step == next_snapshot:
                     x[0] = xs
-                    while o < n_occupancy and occupancy_steps[o] == step:
-                        _bin(
-                            x, occupancy_lower, occupancy_upper, occupancy_bins,
-                            out_occupancy, o,
-                        )  # fmt: skip
-                        o += 1
-                    next_snapshot = occupancy_steps[o] if o < n_occupancy else -1
+                    o, next_snapshot = _snapshots(
+                        x, step, o, occupancy_steps, occupancy_lower, occupancy_upper,
+                        occupancy_bins, out_occupancy,
+                    )  # fmt: skip
             x[0] = xs
             if hit_wall >= 0:
                 _exit_point(
@@ -439,13 +434,10 @@ def _simulate(  # type: ignore[no-untyped-def]
                     )  # fmt: skip
                     break
                 if step == next_snapshot:
-                    while o < n_occupancy and occupancy_steps[o] == step:
-                        _bin(
-                            x, occupancy_lower, occupancy_upper, occupancy_bins,
-                            out_occupancy, o,
-                        )  # fmt: skip
-                        o += 1
-                    next_snapshot = occupancy_steps[o] if o < n_occupancy else -1
+                    o, next_snapshot = _snapshots(
+                        x, step, o, occupancy_steps, occupancy_lower, occupancy_upper,
+                        occupancy_bins, out_occupancy,
+                    )  # fmt: skip
 
         steps_done += step
         out_wall[w] = hit_wall
@@ -612,6 +604,17 @@ def _project(y, center, radius):  # type: ignore[no-untyped-def]
         return
     for i in range(d):
         y[i] = center[i] + (y[i] - center[i]) * (radius / r)
+
+
+@njit(nogil=True, cache=True)
+def _snapshots(x, step, o, steps, lower, upper, bins, out):  # type: ignore[no-untyped-def]
+    """Bin ``x`` into every snapshot due at ``step`` (several times may snap to one
+    step); returns the next snapshot's index and its step (-1 when none is left)."""
+    n = steps.shape[0]
+    while o < n and steps[o] == step:
+        _bin(x, lower, upper, bins, out, o)
+        o += 1
+    return o, (steps[o] if o < n else -1)
 
 
 @njit(nogil=True, cache=True)
