@@ -195,7 +195,8 @@ def exact_survival(point: PointSpec, t: np.ndarray) -> np.ndarray:
     )
 
 
-def _exact_mean(point: PointSpec) -> float:
+def exact_mean(point: PointSpec) -> float:
+    """Closed-form mean first-passage time of a point :func:`unsupported` accepts."""
     m, dom = point.motion, point.domain
     assert m.start is not None
     if dom.shape == "ball":
@@ -258,13 +259,13 @@ def _row(
 
 def _mean_rows(p: int, point: PointSpec, mean: xr.Dataset) -> list[CheckRow]:
     try:
-        exact = _exact_mean(point)
+        exact = exact_mean(point)
     except NotImplementedError:
         return []
     if not math.isfinite(exact):
         return []
     est, se = float(mean["estimate"]), float(mean["stderr"])
-    bias = _allowance(point, _exact_mean, exact)
+    bias = _allowance(point, exact_mean, exact)
     if point.domain.shape == "ball":
         source = "(R^2 - r0^2) / (2 d D) (Oksendal, Example 7.4.2) [from memory]"
     elif point.motion.dimension == 1:

@@ -97,7 +97,7 @@ def disk_bytes(sweep: Sweep) -> float:
 
 def expected_steps(point: PointSpec) -> float:
     """Expected steps per walker: mean first-passage time capped by the horizon."""
-    from sweep import analytic, check
+    from sweep import check
 
     horizon_steps = point.timing.n_steps
     narrow = _narrow_escape_time(point)
@@ -105,24 +105,8 @@ def expected_steps(point: PointSpec) -> float:
         return float(min(narrow / point.timing.dt, horizon_steps))
     if check.unsupported(point):
         return float(horizon_steps)
-    m, dom = point.motion, point.domain
     try:
-        if dom.shape == "ball":
-            assert m.start is not None
-            mean = analytic.ball_mean_exit_time(
-                math.dist(m.start, dom.center), dom.radius, m.diffusivity, m.dimension
-            )
-        else:
-            walls = [
-                (
-                    "absorbing" if lo else "reflecting",
-                    "absorbing" if hi else "reflecting",
-                )
-                for lo, hi in zip(dom.absorbing_low, dom.absorbing_high)
-            ]
-            mean = analytic.box_mean_exit_time(
-                m.start, dom.lower, dom.upper, walls, m.diffusivity, m.drift
-            )
+        mean = check.exact_mean(point)
     except (NotImplementedError, ValueError):
         return float(horizon_steps)
     return float(min(mean / point.timing.dt, horizon_steps))

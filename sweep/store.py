@@ -140,7 +140,7 @@ def prepare(path: str | Path, plan: Plan) -> Path:
         if path.exists():  # another runner created it first: check it like any store
             check_matches(path, plan)
             return path.resolve()
-        raise _os_error(path, "create the store", err) from err
+        raise os_error(path, "create the store", err) from err
     except BaseException:
         _remove_tree(tmp)
         raise
@@ -490,7 +490,7 @@ def runner_lock(path: Path) -> Iterator[None]:
                 os.unlink(stale)
             continue
         except OSError as err:
-            raise _os_error(path, "take the runner lock", err) from err
+            raise os_error(path, "take the runner lock", err) from err
         with os.fdopen(fd, "w") as f:
             json.dump(mine, f)
         break
@@ -783,7 +783,8 @@ def _mask_unfinished(data: Any, done: NDArray[np.bool_], fill: Any) -> Any:
 # --------------------------------------------------------------------------- errors
 
 
-def _os_error(path: Path, action: str, err: OSError) -> StoreError:
+def os_error(path: Path, action: str, err: OSError) -> StoreError:
+    """A clear StoreError for an OSError met while using a store."""
     if err.errno == errno.ENOSPC:
         return StoreError(
             f"{path}: cannot {action}: the disk is full. Free space or choose another "
@@ -801,8 +802,3 @@ def _remove_tree(path: Path) -> None:
     import shutil
 
     shutil.rmtree(path, ignore_errors=True)
-
-
-def os_error(path: Path, action: str, err: OSError) -> StoreError:
-    """Public wrapper: a clear StoreError for an OSError met while using a store."""
-    return _os_error(path, action, err)
