@@ -54,7 +54,6 @@ def _hit_fraction(rng, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[n
     return u / (dt + u)
 
 
-@njit(nogil=True, cache=True)
 def simulate(  # type: ignore[no-untyped-def]
     rng,
     n_walkers,
@@ -150,116 +149,37 @@ def simulate(  # type: ignore[no-untyped-def]
     int
         Walker-steps simulated.
     """
-    # Boxes without targets (the common case) get their own compiled loop: without
-    # the ball and target code in it the step loop runs markedly faster.
-    if ball_radius < math.inf or target_radius.shape[0] > 0:
-        return _simulate(
-            rng,
-            n_walkers,
-            start,
-            uniform_start,
-            lower,
-            upper,
-            absorbing_low,
-            absorbing_high,
-            ball_center,
-            ball_radius,
-            ball_absorbing,
-            target_center,
-            target_radius,
-            diffusivity,
-            drift,
-            dt,
-            n_steps,
-            bridge,
-            survival_times,
-            occupancy_steps,
-            occupancy_lower,
-            occupancy_upper,
-            occupancy_bins,
-            out_time,
-            out_wall,
-            out_position,
-            out_survival,
-            out_occupancy,
-            out_final,
-            fpt_bin_width,
-            out_fpt_hist,
-            True,
-        )
-    return _simulate(
-        rng,
-        n_walkers,
-        start,
-        uniform_start,
-        lower,
-        upper,
-        absorbing_low,
-        absorbing_high,
-        ball_center,
-        ball_radius,
-        ball_absorbing,
-        target_center,
-        target_radius,
-        diffusivity,
-        drift,
-        dt,
-        n_steps,
-        bridge,
-        survival_times,
-        occupancy_steps,
-        occupancy_lower,
-        occupancy_upper,
-        occupancy_bins,
-        out_time,
-        out_wall,
-        out_position,
-        out_survival,
-        out_occupancy,
-        out_final,
-        fpt_bin_width,
+    # One compiled loop per case (literal arguments of _simulate), each compiled on
+    # first use: boxes without targets leave the ball and target code out (it slows the loop
+    # even when unused), and one to three axes keep the position in registers.
+    a = (
+        rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
+        absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
+        target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
+        occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins, out_time,
+        out_wall, out_position, out_survival, out_occupancy, out_final, fpt_bin_width,
         out_fpt_hist,
-        False,
-    )
+    )  # fmt: skip
+    general = bool(ball_radius < math.inf or target_radius.shape[0] > 0)
+    d = start.shape[0]
+    return _LOOPS[general, d if d <= 3 else 0](a)
 
 
 @njit(nogil=True, cache=True)
-def _simulate(  # type: ignore[no-untyped-def]
-    rng,
-    n_walkers,
-    start,
-    uniform_start,
-    lower,
-    upper,
-    absorbing_low,
-    absorbing_high,
-    ball_center,
-    ball_radius,
-    ball_absorbing,
-    target_center,
-    target_radius,
-    diffusivity,
-    drift,
-    dt,
-    n_steps,
-    bridge,
-    survival_times,
-    occupancy_steps,
-    occupancy_lower,
-    occupancy_upper,
-    occupancy_bins,
-    out_time,
-    out_wall,
-    out_position,
-    out_survival,
-    out_occupancy,
-    out_final,
-    fpt_bin_width,
-    out_fpt_hist,
-    general,
-):
-    """:func:`simulate`, compiled once per literal value of ``general``."""
+def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
+    """:func:`simulate` with its arguments packed in ``a``, compiled once per literal
+    ``general`` (ball and target code present) and ``dim`` (1-3: the step loop keeps
+    the position in scalar registers; 0: any dimension, positions in arrays)."""
     numba.literally(general)
+    numba.literally(dim)
+    (
+        rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
+        absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
+        target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
+        occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins, out_time,
+        out_wall, out_position, out_survival, out_occupancy, out_final, fpt_bin_width,
+        out_fpt_hist,
+    ) = a  # fmt: skip
     d = start.shape[0]
     n_targets = target_radius.shape[0]
     is_ball = ball_radius < math.inf
@@ -293,6 +213,26 @@ def _simulate(  # type: ignore[no-untyped-def]
                 abs_hi[i] = upper[i]
             else:
                 refl_hi[i] = upper[i]
+    # The same, one scalar per axis for the register loop (unused axes: no walls).
+    s0, s1, s2 = _axes(drift_step, 0.0)
+    rl0, rl1, rl2 = _axes(refl_lo, -math.inf)
+    rh0, rh1, rh2 = _axes(refl_hi, math.inf)
+    al0, al1, al2 = _axes(abs_lo, -math.inf)
+    ah0, ah1, ah2 = _axes(abs_hi, math.inf)
+    bc0, bc1, bc2 = _axes(ball_center, 0.0)
+    absorbing_faces = False
+    for i in range(d):
+        if abs_lo[i] > -math.inf or abs_hi[i] < math.inf:
+            absorbing_faces = True
+    # A target is only examined for steps that start or end within 5 sigma of it
+    # (farther, d1 d2 > 25 sigma^2 exceeds any cut).
+    reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        reach = target_radius[k] + 5.0 * sigma
+        reach2[k] = reach * reach
+    ball_r2 = ball_radius * ball_radius
+    inner = ball_radius - 5.0 * sigma
+    inner2 = inner * inner if inner > 0.0 else -1.0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -317,51 +257,119 @@ def _simulate(  # type: ignore[no-untyped-def]
         hit_wall = -1
         frac = 2.0
         step = 0
-        if not general and d == 1:
-            # One axis, no targets: the position stays in a register (the array loop
-            # below runs about 0.6 of the RNG ceiling, this one about 0.85; see
-            # DEVELOPERS.md). Same draws in the same order as the array loop.
-            xs = x[0]
-            shift = drift_step[0]
-            rl = refl_lo[0]
-            rh = refl_hi[0]
-            al = abs_lo[0]
-            ah = abs_hi[0]
+        if dim > 0:
+            # One to three axes: the position lives in scalars (registers). The array
+            # loop below reloads its arrays after every draw, since the generator is
+            # called through a pointer; this loop runs markedly faster (DEVELOPERS.md,
+            # "Kernels"). Same draws in the same order, same arithmetic: bit-identical.
+            x0, x1, x2 = _axes(x, 0.0)
+            rb1 = (x0 - bc0) ** 2 + (x1 - bc1) ** 2 + (x2 - bc2) ** 2
             while step < n_steps:
                 step += 1
-                xi = xs
-                xs = xi + shift + sigma * rng.standard_normal()
-                if xs < rl or xs > rh:
-                    xs = _fold(xs, rl, rh)
-                if (xi - al) * (xs - al) <= cut or (xi - ah) * (xs - ah) <= cut:
-                    xo[0] = xi
-                    x[0] = xs
-                    frac, hit_wall = _face_crossing(
-                        rng,
-                        xo,
-                        x,
-                        abs_lo,
-                        abs_hi,
-                        cut,
-                        kill_scale,
-                        diffusivity,
-                        dt,
-                        bridge,
-                    )
-                    if hit_wall >= 0:
-                        break
+                # 2. Free increment, mirrored at reflecting faces.
+                y0 = x0 + s0 + sigma * rng.standard_normal()
+                y1 = x1
+                y2 = x2
+                if dim >= 2:
+                    y1 = x1 + s1 + sigma * rng.standard_normal()
+                if dim >= 3:
+                    y2 = x2 + s2 + sigma * rng.standard_normal()
+                if n_box_walls > 0:
+                    if y0 < rl0 or y0 > rh0:
+                        y0 = _fold(y0, rl0, rh0)
+                    if dim >= 2:
+                        if y1 < rl1 or y1 > rh1:
+                            y1 = _fold(y1, rl1, rh1)
+                    if dim >= 3:
+                        if y2 < rl2 or y2 > rh2:
+                            y2 = _fold(y2, rl2, rh2)
+                if absorbing_faces:
+                    # 3. Absorbing faces near the step (see the array loop).
+                    near = (x0 - al0) * (y0 - al0) <= cut or (x0 - ah0) * (
+                        y0 - ah0
+                    ) <= cut
+                    if dim >= 2:
+                        near = (
+                            near
+                            or (x1 - al1) * (y1 - al1) <= cut
+                            or (x1 - ah1) * (y1 - ah1) <= cut
+                        )
+                    if dim >= 3:
+                        near = (
+                            near
+                            or (x2 - al2) * (y2 - al2) <= cut
+                            or (x2 - ah2) * (y2 - ah2) <= cut
+                        )
+                    if near:
+                        _put(xo, x0, x1, x2)
+                        _put(x, y0, y1, y2)
+                        frac, hit_wall = _face_crossing(
+                            rng, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity,
+                            dt, bridge,
+                        )  # fmt: skip
+                if general:
+                    if is_ball:
+                        rb2 = (y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2
+                        if not ball_absorbing:
+                            if rb2 > ball_r2:
+                                y0, y1, y2, rb2 = _mirror(
+                                    y0, y1, y2, bc0, bc1, bc2, ball_radius
+                                )
+                        elif rb1 >= inner2 or rb2 >= inner2:
+                            # Within 5 sigma of the surface (else d1 d2 > 25 sigma^2
+                            # exceeds any cut): distances along the radius.
+                            d1 = ball_radius - math.sqrt(rb1)
+                            d2 = ball_radius - math.sqrt(rb2)
+                            if d1 * d2 <= cut:
+                                f = _crossing(
+                                    rng, d1, d2, kill_scale, diffusivity, dt, bridge
+                                )
+                                if f < frac:
+                                    frac = f
+                                    hit_wall = n_targets
+                        rb1 = rb2
+                    for k in range(n_targets):
+                        c = target_center[k, 0]
+                        r1 = (x0 - c) ** 2
+                        r2 = (y0 - c) ** 2
+                        if dim >= 2:
+                            c = target_center[k, 1]
+                            r1 += (x1 - c) ** 2
+                            r2 += (y1 - c) ** 2
+                        if dim >= 3:
+                            c = target_center[k, 2]
+                            r1 += (x2 - c) ** 2
+                            r2 += (y2 - c) ** 2
+                        if r2 > reach2[k] and r1 > reach2[k]:
+                            continue
+                        d1 = math.sqrt(r1) - target_radius[k]
+                        d2 = math.sqrt(r2) - target_radius[k]
+                        if d1 * d2 <= cut:
+                            f = _crossing(
+                                rng, d1, d2, kill_scale, diffusivity, dt, bridge
+                            )
+                            if f < frac:
+                                frac = f
+                                hit_wall = n_box_walls + k
+                if hit_wall >= 0:
+                    _put(xo, x0, x1, x2)
+                    _put(x, y0, y1, y2)
+                    _exit_point(
+                        rng, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
+                        is_ball, ball_center, ball_radius, target_center, target_radius,
+                    )  # fmt: skip
+                    break
+                x0 = y0
+                x1 = y1
+                x2 = y2
                 if step == next_snapshot:
-                    x[0] = xs
+                    _put(x, x0, x1, x2)
                     o, next_snapshot = _snapshots(
                         x, step, o, occupancy_steps, occupancy_lower, occupancy_upper,
                         occupancy_bins, out_occupancy,
                     )  # fmt: skip
-            x[0] = xs
-            if hit_wall >= 0:
-                _exit_point(
-                    rng, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
-                    is_ball, ball_center, ball_radius, target_center, target_radius,
-                )  # fmt: skip
+            if hit_wall < 0:
+                _put(x, x0, x1, x2)
         else:
             while step < n_steps:
                 step += 1
@@ -415,8 +423,7 @@ def _simulate(  # type: ignore[no-untyped-def]
                         for i in range(d):
                             r1 += (xo[i] - target_center[k, i]) ** 2
                             r2 += (x[i] - target_center[k, i]) ** 2
-                        reach = target_radius[k] + 5.0 * sigma
-                        if r2 > reach * reach and r1 > reach * reach:
+                        if r2 > reach2[k] and r1 > reach2[k]:
                             continue
                         d1 = math.sqrt(r1) - target_radius[k]
                         d2 = math.sqrt(r2) - target_radius[k]
@@ -464,6 +471,59 @@ def _simulate(  # type: ignore[no-untyped-def]
         above += hist[k + 1]
         out_survival[k] += above
     return steps_done
+
+
+@njit(nogil=True, cache=True)
+def _box1(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, False, 1)
+
+
+@njit(nogil=True, cache=True)
+def _box2(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, False, 2)
+
+
+@njit(nogil=True, cache=True)
+def _box3(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, False, 3)
+
+
+@njit(nogil=True, cache=True)
+def _boxn(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, False, 0)
+
+
+@njit(nogil=True, cache=True)
+def _full1(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, True, 1)
+
+
+@njit(nogil=True, cache=True)
+def _full2(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, True, 2)
+
+
+@njit(nogil=True, cache=True)
+def _full3(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, True, 3)
+
+
+@njit(nogil=True, cache=True)
+def _fulln(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, True, 0)
+
+
+#: (general, dim) -> its compiled loop; dim 0 is any dimension.
+_LOOPS = {
+    (False, 1): _box1,
+    (False, 2): _box2,
+    (False, 3): _box3,
+    (False, 0): _boxn,
+    (True, 1): _full1,
+    (True, 2): _full2,
+    (True, 3): _full3,
+    (True, 0): _fulln,
+}
 
 
 @njit(nogil=True, cache=True)
@@ -556,6 +616,39 @@ def _reflect_ball(y, center, radius):  # type: ignore[no-untyped-def]
         scale = (2.0 * radius - r) / r
         for i in range(d):
             y[i] = center[i] + (y[i] - center[i]) * scale
+
+
+@njit(nogil=True, cache=True)
+def _axes(v, fill):  # type: ignore[no-untyped-def]
+    """The first three entries of ``v``, ``fill`` for those it lacks."""
+    n = v.shape[0]
+    return v[0], (v[1] if n > 1 else fill), (v[2] if n > 2 else fill)
+
+
+@njit(nogil=True, cache=True)
+def _put(v, a0, a1, a2):  # type: ignore[no-untyped-def]
+    """Write up to three scalars into ``v`` (as many as it holds)."""
+    n = v.shape[0]
+    v[0] = a0
+    if n > 1:
+        v[1] = a1
+    if n > 2:
+        v[2] = a2
+
+
+@njit(nogil=True, cache=True)
+def _mirror(y0, y1, y2, c0, c1, c2, radius):  # type: ignore[no-untyped-def]
+    """:func:`_reflect_ball` on scalars (unused axes 0); returns the point and its
+    squared distance from the center."""
+    while True:
+        r2 = (y0 - c0) ** 2 + (y1 - c1) ** 2 + (y2 - c2) ** 2
+        if r2 <= radius * radius:
+            return y0, y1, y2, r2
+        r = math.sqrt(r2)
+        scale = (2.0 * radius - r) / r
+        y0 = c0 + (y0 - c0) * scale
+        y1 = c1 + (y1 - c1) * scale
+        y2 = c2 + (y2 - c2) * scale
 
 
 @njit(nogil=True, cache=True)

@@ -21,9 +21,15 @@ import pytest
 from numpy.typing import NDArray
 from scipy import integrate, stats
 
-from kernels.walkers import _simulate, simulate
+from kernels.walkers import simulate
 from sweep import analytic
-from tests.kernels.test_walkers import check_p, check_proportion, check_z, mean_and_se
+from tests.kernels.test_walkers import (
+    check_p,
+    check_proportion,
+    check_z,
+    mean_and_se,
+    uncompiled_loop,
+)
 from tests.tolerances import ORDER_TOL, RTOL_F64, RTOL_NUMERIC
 
 # --------------------------------------------------------------------------- helpers
@@ -883,11 +889,11 @@ def test_occupancy_repeated_snapshot_rows_identical(
 
 # ------------------------------------------------------------------ determinism
 
-
-def python_general_loop(*args: Any) -> Any:
-    """The uncompiled step loop (``general`` = True: ball and target code), calling the
-    compiled helpers. ``simulate.py_func`` alone would still run the compiled loop."""
-    return _simulate.py_func(*args, True)
+#: A reflecting disc with drift and a coarse step (radial mirror images repeat).
+REFLECTING_DISC = ball(
+    2, 0.5, 0.3, diffusivity=1.0, dt=0.02, n_steps=40, absorbing=False,
+    center=BALL_CENTER[:2], drift=(0.5, -0.5), survival_times=(0.1,),
+)  # fmt: skip
 
 
 @pytest.mark.parametrize(
@@ -903,14 +909,18 @@ def python_general_loop(*args: Any) -> Any:
         ),
         replace(TARGET_CASES["ball-one-target"], n_steps=40),
         replace(TARGET_CASES["square-uniform-start"], n_steps=40),
+        replace(REFLECTING_DISC, n_steps=40),
     ],
     ids=["absorbing-ball-targets", "box-targets-no-bridge", "reflecting-ball-target",
-         "uniform-start-targets"],
+         "uniform-start-targets", "reflecting-disc"],
 )  # fmt: skip
-def test_general_loop_python_identical_to_compiled(domain: Domain) -> None:
+@pytest.mark.parametrize("loop", ["registers", "arrays"])
+def test_general_loop_python_identical_to_compiled(domain: Domain, loop: str) -> None:
     # numba's Generator methods reproduce NumPy's streams from the same bit generator,
-    # so the Python loop must give the compiled kernel's outputs to the last bit.
+    # so the uncompiled loop (ball and target code in) must give the compiled kernel's
+    # outputs to the last bit, in both the register loop (d <= 3) and the array loop.
+    dim = domain.dimension if loop == "registers" else 0
     compiled = run(domain, 30, seed=1000)
-    python = run(domain, 30, seed=1000, kernel=python_general_loop)
+    python = run(domain, 30, seed=1000, kernel=uncompiled_loop(True, dim))
     for name, a, b in zip(Run._fields, compiled, python):
         np.testing.assert_array_equal(a, b, err_msg=name)

@@ -5,8 +5,8 @@ Three kinds of check:
 * against the plain-NumPy reference ``tests/kernels/reference.py``, in distribution
   (two-sample KS, chi-square, z on proportions), since the two draw random numbers in
   different orders;
-* determinism: same seed, same bits; the uncompiled ``simulate.py_func`` gives exactly
-  the compiled kernel's output (numba's Generator methods reproduce NumPy's streams);
+* determinism: same seed, same bits; the uncompiled step loop (``_simulate.py_func``) gives
+  exactly the compiled kernel's output (numba's Generator methods reproduce NumPy's streams);
 * closed forms from ``/work/shared/reference/analytic.md`` (section named beside each
   check), as z-scores ``|estimate - exact| <= Z_STAT * SE`` with fixed seeds.
 
@@ -409,6 +409,38 @@ def test_simulate_first_walker_independent_of_walker_count() -> None:
         )
 
 
+#: A 3-D box with every kind of face, and a 4-D box (any dimension: the array loop).
+CUBE_MIXED = Box(
+    start=(0.3, 0.9, 0.2),
+    lower=(0.0, 0.0, -0.5),
+    upper=(1.0, 1.5, 0.5),
+    absorbing_low=(True, False, False),
+    absorbing_high=(False, True, False),
+    diffusivity=0.5,
+    drift=(0.4, -0.3, 0.2),
+    dt=0.01,
+    n_steps=40,
+    bridge=True,
+    survival_times=(0.1, 0.2),
+)
+HYPERCUBE = replace(
+    CUBE_MIXED,
+    start=(0.3, 0.9, 0.2, 0.5),
+    lower=(0.0, 0.0, -0.5, 0.0),
+    upper=(1.0, 1.5, 0.5, 1.0),
+    absorbing_low=(True, False, False, True),
+    absorbing_high=(False, True, False, True),
+    drift=(0.4, -0.3, 0.2, 0.0),
+)
+
+
+def uncompiled_loop(general: bool, dim: int) -> Callable[..., Any]:
+    """The uncompiled step loop ``_simulate`` with the given literal arguments (``dim``
+    1-3: scalar registers; 0: arrays, any dimension), calling the compiled helpers.
+    ``simulate`` itself only dispatches to a compiled loop."""
+    return lambda *args: _simulate.py_func(args, general, dim)
+
+
 @pytest.mark.parametrize(
     "box",
     [
@@ -416,21 +448,24 @@ def test_simulate_first_walker_independent_of_walker_count() -> None:
         replace(RECTANGLE_MIXED_DRIFT, n_steps=40, bridge=False),
         replace(RECTANGLE_ABSORBING_COARSE, dt=0.02),
         replace(INTERVAL_AR_DRIFT, n_steps=40),
+        CUBE_MIXED,
+        HYPERCUBE,
     ],
-    ids=["rectangle-bridge", "rectangle-no-bridge", "rectangle-coarse", "interval-AR"],
-)
-def test_simulate_py_func_identical_to_compiled(box: Box) -> None:
+    ids=["rectangle-bridge", "rectangle-no-bridge", "rectangle-coarse", "interval-AR",
+         "cube-mixed", "hypercube"],
+)  # fmt: skip
+@pytest.mark.parametrize("loop", ["registers", "arrays"])
+def test_simulate_py_func_identical_to_compiled(box: Box, loop: str) -> None:
     # numba's Generator methods (random, standard_normal, wald) reproduce NumPy's
     # streams from the same bit generator, so the uncompiled function must agree to
-    # the last bit, and leave the generator in the same state.
+    # the last bit, and leave the generator in the same state. Both step loops (scalar
+    # registers for d <= 3, arrays for any d) must give the same bits.
+    d = len(box.start)
+    dim = d if loop == "registers" and d <= 3 else 0
     compiled_rng = np.random.default_rng(99)
     python_rng = np.random.default_rng(99)
     compiled = run_kernel(box, 30, compiled_rng)
-    # The public wrapper only dispatches; the loop itself is the uncompiled
-    # _simulate with general=False (boxes without targets).
-    python = run_kernel(
-        box, 30, python_rng, kernel=lambda *args: _simulate.py_func(*args, False)
-    )
+    python = run_kernel(box, 30, python_rng, kernel=uncompiled_loop(False, dim))
     assert_results_identical(compiled, python)
     assert compiled_rng.bit_generator.state == python_rng.bit_generator.state
 
