@@ -274,7 +274,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                     y1 = x1 + s1 + sigma * rng.standard_normal()
                 if dim >= 3:
                     y2 = x2 + s2 + sigma * rng.standard_normal()
-                if n_box_walls > 0:
+                if not general or n_box_walls > 0:
                     if y0 < rl0 or y0 > rh0:
                         y0 = _fold(y0, rl0, rh0)
                     if dim >= 2:
@@ -283,30 +283,41 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                     if dim >= 3:
                         if y2 < rl2 or y2 > rh2:
                             y2 = _fold(y2, rl2, rh2)
-                if absorbing_faces:
-                    # 3. Absorbing faces near the step (see the array loop).
-                    near = (x0 - al0) * (y0 - al0) <= cut or (x0 - ah0) * (
-                        y0 - ah0
-                    ) <= cut
-                    if dim >= 2:
-                        near = (
-                            near
-                            or (x1 - al1) * (y1 - al1) <= cut
-                            or (x1 - ah1) * (y1 - ah1) <= cut
-                        )
-                    if dim >= 3:
-                        near = (
-                            near
-                            or (x2 - al2) * (y2 - al2) <= cut
-                            or (x2 - ah2) * (y2 - ah2) <= cut
-                        )
-                    if near:
-                        _put(xo, x0, x1, x2)
-                        _put(x, y0, y1, y2)
-                        frac, hit_wall = _face_crossing(
-                            rng, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity,
-                            dt, bridge,
+                if not general or absorbing_faces:
+                    # 3. Absorbing faces near the step, in the array loop's order
+                    #    (axis by axis, low face first); the earliest crossing wins.
+                    if (x0 - al0) * (y0 - al0) <= cut:
+                        frac, hit_wall = _face(
+                            rng, x0 - al0, y0 - al0, 0, frac, hit_wall, kill_scale,
+                            diffusivity, dt, bridge,
                         )  # fmt: skip
+                    if (x0 - ah0) * (y0 - ah0) <= cut:
+                        frac, hit_wall = _face(
+                            rng, ah0 - x0, ah0 - y0, 1, frac, hit_wall, kill_scale,
+                            diffusivity, dt, bridge,
+                        )  # fmt: skip
+                    if dim >= 2:
+                        if (x1 - al1) * (y1 - al1) <= cut:
+                            frac, hit_wall = _face(
+                                rng, x1 - al1, y1 - al1, 2, frac, hit_wall,
+                                kill_scale, diffusivity, dt, bridge,
+                            )  # fmt: skip
+                        if (x1 - ah1) * (y1 - ah1) <= cut:
+                            frac, hit_wall = _face(
+                                rng, ah1 - x1, ah1 - y1, 3, frac, hit_wall,
+                                kill_scale, diffusivity, dt, bridge,
+                            )  # fmt: skip
+                    if dim >= 3:
+                        if (x2 - al2) * (y2 - al2) <= cut:
+                            frac, hit_wall = _face(
+                                rng, x2 - al2, y2 - al2, 4, frac, hit_wall,
+                                kill_scale, diffusivity, dt, bridge,
+                            )  # fmt: skip
+                        if (x2 - ah2) * (y2 - ah2) <= cut:
+                            frac, hit_wall = _face(
+                                rng, ah2 - x2, ah2 - y2, 5, frac, hit_wall,
+                                kill_scale, diffusivity, dt, bridge,
+                            )  # fmt: skip
                 if general:
                     if is_ball:
                         rb2 = (y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2
@@ -550,6 +561,16 @@ def _face_crossing(  # type: ignore[no-untyped-def]
                     frac = f
                     wall = 2 * i + side
     return frac, wall
+
+
+@njit(nogil=True, cache=True)
+def _face(rng, d1, d2, wall, frac, hit_wall, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+    """(frac, wall) after resolving one face near the step: its crossing fraction and
+    index if earlier than ``frac``, else ``frac`` and ``hit_wall`` unchanged."""
+    f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
+    if f < frac:
+        return f, wall
+    return frac, hit_wall
 
 
 @njit(nogil=True, cache=True)
