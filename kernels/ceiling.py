@@ -1,23 +1,13 @@
 """The speed limit of a walker kernel: drawing d standard normals per walker-step.
 
-Used by ``sweep bench`` as the denominator of throughput ratios. Same rules as every
-kernel: numba ``njit(nogil=True)``, a Generator passed in, no I/O.
+Used by ``sweep bench`` as the denominator of throughput ratios. The function lives in
+``kernels/walkers.py`` beside the normal sampler the kernel uses (numba's on-disk cache
+does not notice edits to helpers in other files); the d draws of one step are
+independent, like a kernel's axis loop, so they can overlap in the pipeline.
 """
 
 from __future__ import annotations
 
-from numba import njit
+from kernels.walkers import draw_normals
 
-
-@njit(nogil=True, cache=True)
-def draw_normals(rng, n_steps, dimension):  # type: ignore[no-untyped-def]
-    """Draw ``n_steps * dimension`` standard normals as a d-dimensional walk would.
-
-    Returns the sum so the compiler cannot drop the draws. The d draws of one step are
-    independent (like a kernel's axis loop), so they can overlap in the pipeline.
-    """
-    total = 0.0
-    for _ in range(n_steps):
-        for _ in range(dimension):
-            total += rng.standard_normal()
-    return total
+__all__ = ["draw_normals"]

@@ -26,6 +26,79 @@ import numba
 import numpy as np
 from numba import njit
 
+# numpy's ziggurat tables and the raw bit-generator calls, as numba ships them for its
+# own Generator support (tests/kernels/test_walkers.py checks that _normal reproduces
+# numpy's standard_normal stream bit for bit, so a change here is caught).
+from numba.np.random._constants import (
+    fi_double,
+    ki_double,
+    wi_double,
+    ziggurat_nor_inv_r,
+    ziggurat_nor_r,
+)
+from numba.np.random.generator_core import next_double, next_uint64
+
+
+@njit(nogil=True, cache=True)
+def _normal(bits):  # type: ignore[no-untyped-def]
+    """One standard normal from ``bits`` (a Generator's ``bit_generator``).
+
+    numpy's ziggurat draw for draw, so the stream equals ``rng.standard_normal()``'s;
+    but the random sign is applied by multiplying with +-1 instead of by a branch, whose
+    mispredictions (half of all draws) cost numba's own version about half its rate on
+    the development machines (DEVELOPERS.md, "Kernels").
+    """
+    r = next_uint64(bits)
+    idx = r & 0xFF
+    r >>= 8
+    rabs = (r >> 1) & 0x000FFFFFFFFFFFFF
+    x = float(np.int64(rabs)) * wi_double[idx]
+    if rabs < ki_double[idx]:
+        return x * (1.0 - 2.0 * float(np.int64(r & 1)))
+    return _normal_rare(bits, idx, r, rabs, x)
+
+
+@njit(nogil=True, cache=True)
+def _normal_rare(bits, idx, r, rabs, x):  # type: ignore[no-untyped-def]
+    """The ziggurat's rare branches (about 1 % of draws): tail, wedge and redraws, with
+    numpy's arithmetic. ``x`` is the unsigned candidate of the draw ``r``."""
+    while True:
+        if r & 1:
+            x = -x
+        if rabs < ki_double[idx]:
+            return x
+        if idx == 0:
+            while True:
+                xx = -ziggurat_nor_inv_r * np.log1p(-next_double(bits))
+                yy = -np.log1p(-next_double(bits))
+                if yy + yy > xx * xx:
+                    if (rabs >> 8) & 0x1:
+                        return -(ziggurat_nor_r + xx)
+                    return ziggurat_nor_r + xx
+        elif (fi_double[idx - 1] - fi_double[idx]) * next_double(bits) + fi_double[
+            idx
+        ] < np.exp(-0.5 * x * x):
+            return x
+        r = next_uint64(bits)
+        idx = r & 0xFF
+        r >>= 8
+        rabs = (r >> 1) & 0x000FFFFFFFFFFFFF
+        x = float(np.int64(rabs)) * wi_double[idx]
+
+
+@njit(nogil=True, cache=True)
+def draw_normals(rng, n_steps, dimension):  # type: ignore[no-untyped-def]
+    """Draw ``n_steps * dimension`` standard normals as a d-dimensional walk would (the
+    kernels' speed limit, see :mod:`kernels.ceiling`); returns their sum so the
+    compiler cannot drop the draws."""
+    bits = rng.bit_generator
+    total = 0.0
+    for _ in range(n_steps):
+        for _ in range(dimension):
+            total += _normal(bits)
+    return total
+
+
 #: The bridge probability is only evaluated when (a - x1)(a - x2) < BRIDGE_CUTOFF * D dt;
 #: beyond that it is below exp(-20) ~ 2e-9 and is skipped (planning figure, see
 #: DEVELOPERS.md "Kernels").
@@ -182,6 +255,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
     ) = a  # fmt: skip
     d = start.shape[0]
     n_targets = target_radius.shape[0]
+    bits = rng.bit_generator  # for _normal, the step draws' fast path
     is_ball = ball_radius < math.inf
     n_box_walls = 0 if is_ball else 2 * d
     sigma = math.sqrt(2.0 * diffusivity * dt)
@@ -267,13 +341,13 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
             while step < n_steps:
                 step += 1
                 # 2. Free increment, mirrored at reflecting faces.
-                y0 = x0 + s0 + sigma * rng.standard_normal()
+                y0 = x0 + s0 + sigma * _normal(bits)
                 y1 = x1
                 y2 = x2
                 if dim >= 2:
-                    y1 = x1 + s1 + sigma * rng.standard_normal()
+                    y1 = x1 + s1 + sigma * _normal(bits)
                 if dim >= 3:
-                    y2 = x2 + s2 + sigma * rng.standard_normal()
+                    y2 = x2 + s2 + sigma * _normal(bits)
                 if not general or n_box_walls > 0:
                     if y0 < rl0 or y0 > rh0:
                         y0 = _fold(y0, rl0, rh0)
@@ -388,7 +462,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                 near = False
                 for i in range(d):
                     xi = x[i]
-                    yi = xi + drift_step[i] + sigma * rng.standard_normal()
+                    yi = xi + drift_step[i] + sigma * _normal(bits)
                     if yi < refl_lo[i] or yi > refl_hi[i]:
                         yi = _fold(yi, refl_lo[i], refl_hi[i])
                     xo[i] = xi

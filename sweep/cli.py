@@ -80,7 +80,7 @@ def build_parser() -> argparse.ArgumentParser:
         "bench", help="kernel throughput as ratios to this machine's limits"
     )
     bench.add_argument(
-        "--repeats", type=int, default=5, help="repetitions per case (median)"
+        "--repeats", type=int, default=5, help="repetitions per case (fastest kept)"
     )
     bench.add_argument(
         "--walkers", type=int, default=20_000, help="walkers per kernel call"
@@ -293,8 +293,11 @@ def _index_list(text: str, option: str) -> list[int]:
 def _bench(args: argparse.Namespace) -> int:
     from sweep.bench import HEADER, run_bench, verdicts
 
-    print("walker-steps per second on one core, medians over repetitions; ratios are")
-    print("taken within each repetition (kernel and reference run back to back).")
+    print(
+        f"walker-steps per second on one core, the fastest of {args.repeats} "
+        "repetitions (other jobs only slow"
+    )
+    print("a run down); kernel, ceiling and numpy run in turn in each repetition.")
     print(HEADER)
     rows, speedup = run_bench(
         repeats=args.repeats,

@@ -38,7 +38,7 @@ import zarr
 from numpy.typing import NDArray
 
 from sweep.errors import StoreError, StoreLockedError, StoreMismatchError
-from sweep.plan import Plan, Task, coordinate_columns, snapshot_steps
+from sweep.plan import BIT_GENERATOR, Plan, Task, coordinate_columns, snapshot_steps
 from sweep.spec import Sweep, axis_names, parse_spec
 
 log = logging.getLogger(__name__)
@@ -67,6 +67,7 @@ def fingerprint() -> dict[str, str]:
         "kernel_sha256": hashlib.sha256(KERNEL_FILE.read_bytes()).hexdigest(),
         "numpy": np.__version__,
         "numba": numba.__version__,
+        "bit_generator": BIT_GENERATOR.__name__,
     }
 
 
