@@ -104,6 +104,11 @@ def draw_normals(rng, n_steps, dimension):  # type: ignore[no-untyped-def]
 #: DEVELOPERS.md "Kernels").
 BRIDGE_CUTOFF = 20.0
 
+#: Curved surfaces are examined only for steps within REACH sigma of them, sigma =
+#: sqrt(2 D dt): the cut is BRIDGE_CUTOFF D dt = 10 sigma^2 < REACH^2 sigma^2 = 12.25
+#: sigma^2, so no step beyond could be near (the margin absorbs rounding).
+REACH = 3.5
+
 
 @njit(nogil=True, cache=True)
 def _hit_fraction(rng, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
@@ -298,14 +303,14 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
     for i in range(d):
         if abs_lo[i] > -math.inf or abs_hi[i] < math.inf:
             absorbing_faces = True
-    # A target is only examined for steps that start or end within 5 sigma of it
-    # (farther, d1 d2 > 25 sigma^2 exceeds any cut).
+    # A target or ball surface is only examined for steps that start or end within
+    # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut.
     reach2 = np.empty(n_targets)
     for k in range(n_targets):
-        reach = target_radius[k] + 5.0 * sigma
+        reach = target_radius[k] + REACH * sigma
         reach2[k] = reach * reach
     ball_r2 = ball_radius * ball_radius
-    inner = ball_radius - 5.0 * sigma
+    inner = ball_radius - REACH * sigma
     inner2 = inner * inner if inner > 0.0 else -1.0
     steps_done = 0
 
@@ -401,7 +406,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                                     y0, y1, y2, bc0, bc1, bc2, ball_radius
                                 )
                         elif rb1 >= inner2 or rb2 >= inner2:
-                            # Within 5 sigma of the surface (else d1 d2 > 25 sigma^2
+                            # Within REACH sigma of the surface (farther, d1 d2
                             # exceeds any cut): distances along the radius.
                             d1 = ball_radius - math.sqrt(rb1)
                             d2 = ball_radius - math.sqrt(rb2)
