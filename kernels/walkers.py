@@ -87,6 +87,18 @@ def _normal_rare(bits, idx, r, rabs, x):  # type: ignore[no-untyped-def]
 
 
 @njit(nogil=True, cache=True)
+def _wald(bits, mean, shape):  # type: ignore[no-untyped-def]
+    """Inverse-Gaussian variate, numpy's ``Generator.wald`` draw for draw."""
+    mu_2l = mean / (2.0 * shape)
+    y = _normal(bits)
+    y = mean * y * y
+    x = mean + mu_2l * (y - np.sqrt(4.0 * shape * y + y * y))
+    if next_double(bits) <= mean / (mean + x):
+        return x
+    return mean * mean / x
+
+
+@njit(nogil=True, cache=True)
 def draw_normals(rng, n_steps, dimension):  # type: ignore[no-untyped-def]
     """Draw ``n_steps * dimension`` standard normals as a d-dimensional walk would (the
     kernels' speed limit, see :mod:`kernels.ceiling`); returns their sum so the
@@ -111,7 +123,7 @@ REACH = 3.5
 
 
 @njit(nogil=True, cache=True)
-def _hit_fraction(rng, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+def _hit_fraction(bits, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
     """Fraction of the step (0, 1] at which the path first touched the wall.
 
     ``alpha`` > 0 is the start's distance to the wall, ``gamma`` >= 0 the end's distance
@@ -125,9 +137,9 @@ def _hit_fraction(rng, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[n
         return 0.0
     shape = alpha * alpha / (2.0 * diffusivity)
     if gamma > 0.0:
-        u = rng.wald(dt * alpha / gamma, shape)
+        u = _wald(bits, dt * alpha / gamma, shape)
     else:
-        z = rng.standard_normal()
+        z = _normal(bits)
         u = shape / (z * z) if z != 0.0 else math.inf
     return u / (dt + u)
 
@@ -260,7 +272,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
     ) = a  # fmt: skip
     d = start.shape[0]
     n_targets = target_radius.shape[0]
-    bits = rng.bit_generator  # for _normal, the step draws' fast path
+    bits = rng.bit_generator  # every draw below comes from it (_normal, next_double)
     is_ball = ball_radius < math.inf
     n_box_walls = 0 if is_ball else 2 * d
     sigma = math.sqrt(2.0 * diffusivity * dt)
@@ -319,7 +331,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
         if uniform_start:
             while True:
                 for i in range(d):
-                    x[i] = lower[i] + (upper[i] - lower[i]) * rng.random()
+                    x[i] = lower[i] + (upper[i] - lower[i]) * next_double(bits)
                 if _free(
                     x, is_ball, ball_center, ball_radius, target_center, target_radius
                 ):
@@ -367,34 +379,34 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                     #    (axis by axis, low face first); the earliest crossing wins.
                     if (x0 - al0) * (y0 - al0) <= cut:
                         frac, hit_wall = _face(
-                            rng, x0 - al0, y0 - al0, 0, frac, hit_wall, kill_scale,
+                            bits, x0 - al0, y0 - al0, 0, frac, hit_wall, kill_scale,
                             diffusivity, dt, bridge,
                         )  # fmt: skip
                     if (x0 - ah0) * (y0 - ah0) <= cut:
                         frac, hit_wall = _face(
-                            rng, ah0 - x0, ah0 - y0, 1, frac, hit_wall, kill_scale,
+                            bits, ah0 - x0, ah0 - y0, 1, frac, hit_wall, kill_scale,
                             diffusivity, dt, bridge,
                         )  # fmt: skip
                     if dim >= 2:
                         if (x1 - al1) * (y1 - al1) <= cut:
                             frac, hit_wall = _face(
-                                rng, x1 - al1, y1 - al1, 2, frac, hit_wall,
+                                bits, x1 - al1, y1 - al1, 2, frac, hit_wall,
                                 kill_scale, diffusivity, dt, bridge,
                             )  # fmt: skip
                         if (x1 - ah1) * (y1 - ah1) <= cut:
                             frac, hit_wall = _face(
-                                rng, ah1 - x1, ah1 - y1, 3, frac, hit_wall,
+                                bits, ah1 - x1, ah1 - y1, 3, frac, hit_wall,
                                 kill_scale, diffusivity, dt, bridge,
                             )  # fmt: skip
                     if dim >= 3:
                         if (x2 - al2) * (y2 - al2) <= cut:
                             frac, hit_wall = _face(
-                                rng, x2 - al2, y2 - al2, 4, frac, hit_wall,
+                                bits, x2 - al2, y2 - al2, 4, frac, hit_wall,
                                 kill_scale, diffusivity, dt, bridge,
                             )  # fmt: skip
                         if (x2 - ah2) * (y2 - ah2) <= cut:
                             frac, hit_wall = _face(
-                                rng, ah2 - x2, ah2 - y2, 5, frac, hit_wall,
+                                bits, ah2 - x2, ah2 - y2, 5, frac, hit_wall,
                                 kill_scale, diffusivity, dt, bridge,
                             )  # fmt: skip
                 if general:
@@ -412,7 +424,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                             d2 = ball_radius - math.sqrt(rb2)
                             if d1 * d2 <= cut:
                                 f = _crossing(
-                                    rng, d1, d2, kill_scale, diffusivity, dt, bridge
+                                    bits, d1, d2, kill_scale, diffusivity, dt, bridge
                                 )
                                 if f < frac:
                                     frac = f
@@ -436,7 +448,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                         d2 = math.sqrt(r2) - target_radius[k]
                         if d1 * d2 <= cut:
                             f = _crossing(
-                                rng, d1, d2, kill_scale, diffusivity, dt, bridge
+                                bits, d1, d2, kill_scale, diffusivity, dt, bridge
                             )
                             if f < frac:
                                 frac = f
@@ -445,7 +457,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                     _put(xo, x0, x1, x2)
                     _put(x, y0, y1, y2)
                     _exit_point(
-                        rng, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
+                        bits, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
                         is_ball, ball_center, ball_radius, target_center, target_radius,
                     )  # fmt: skip
                     break
@@ -480,7 +492,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                 #    between; the earliest crossing wins.
                 if near:
                     frac, hit_wall = _face_crossing(
-                        rng,
+                        bits,
                         xo,
                         x,
                         abs_lo,
@@ -502,7 +514,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                             d2 = ball_radius - _norm(x, ball_center)
                             if d1 * d2 <= cut:
                                 f = _crossing(
-                                    rng, d1, d2, kill_scale, diffusivity, dt, bridge
+                                    bits, d1, d2, kill_scale, diffusivity, dt, bridge
                                 )
                                 if f < frac:
                                     frac = f
@@ -519,14 +531,14 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                         d2 = math.sqrt(r2) - target_radius[k]
                         if d1 * d2 <= cut:
                             f = _crossing(
-                                rng, d1, d2, kill_scale, diffusivity, dt, bridge
+                                bits, d1, d2, kill_scale, diffusivity, dt, bridge
                             )
                             if f < frac:
                                 frac = f
                                 hit_wall = n_box_walls + k
                 if hit_wall >= 0:
                     _exit_point(
-                        rng, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
+                        bits, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
                         is_ball, ball_center, ball_radius, target_center, target_radius,
                     )  # fmt: skip
                     break
@@ -618,7 +630,7 @@ _LOOPS = {
 
 @njit(nogil=True, cache=True)
 def _face_crossing(  # type: ignore[no-untyped-def]
-    rng, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity, dt, bridge
+    bits, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity, dt, bridge
 ):
     """(fraction of the step, wall index) of the earliest face crossing, or (2.0, -1).
 
@@ -635,7 +647,7 @@ def _face_crossing(  # type: ignore[no-untyped-def]
             d1 = xo[i] - a if side == 0 else a - xo[i]
             d2 = x[i] - a if side == 0 else a - x[i]
             if d1 * d2 <= cut:
-                f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
+                f = _crossing(bits, d1, d2, kill_scale, diffusivity, dt, bridge)
                 if f < frac:
                     frac = f
                     wall = 2 * i + side
@@ -643,10 +655,10 @@ def _face_crossing(  # type: ignore[no-untyped-def]
 
 
 @njit(nogil=True, cache=True)
-def _face(rng, d1, d2, wall, frac, hit_wall, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+def _face(bits, d1, d2, wall, frac, hit_wall, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
     """(frac, wall) after resolving one face near the step: its crossing fraction and
     index if earlier than ``frac``, else ``frac`` and ``hit_wall`` unchanged."""
-    f = _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge)
+    f = _crossing(bits, d1, d2, kill_scale, diffusivity, dt, bridge)
     if f < frac:
         return f, wall
     return frac, hit_wall
@@ -690,16 +702,16 @@ def _fold(y, lo, hi):  # type: ignore[no-untyped-def]
 
 
 @njit(nogil=True, cache=True)
-def _crossing(rng, d1, d2, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+def _crossing(bits, d1, d2, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
     """Step fraction at which a face was first touched, or 2.0 when it was not.
 
     ``d1`` > 0 and ``d2`` are the signed distances of the step's start and end from
     the face (negative: beyond it). An end inside is killed with the bridge crossing
     probability exp(-d1 d2 / (D dt)).
     """
-    if d2 > 0.0 and rng.random() >= math.exp(-d1 * d2 * kill_scale):
+    if d2 > 0.0 and next_double(bits) >= math.exp(-d1 * d2 * kill_scale):
         return 2.0
-    return _hit_fraction(rng, d1, abs(d2), diffusivity, dt, bridge)
+    return _hit_fraction(bits, d1, abs(d2), diffusivity, dt, bridge)
 
 
 @njit(nogil=True, cache=True)
@@ -753,7 +765,7 @@ def _mirror(y0, y1, y2, c0, c1, c2, radius):  # type: ignore[no-untyped-def]
 
 @njit(nogil=True, cache=True)
 def _exit_point(  # type: ignore[no-untyped-def]
-    rng, x, y, frac, sigma, wall, n_box_walls, lower, upper,
+    bits, x, y, frac, sigma, wall, n_box_walls, lower, upper,
     is_ball, ball_center, ball_radius, target_center, target_radius,
 ):  # fmt: skip
     """Overwrite ``y`` with the position at absorption, a fraction ``frac`` into the step.
@@ -765,7 +777,7 @@ def _exit_point(  # type: ignore[no-untyped-def]
     d = x.shape[0]
     spread = sigma * math.sqrt(max(frac * (1.0 - frac), 0.0))
     for i in range(d):
-        y[i] = x[i] + (y[i] - x[i]) * frac + spread * rng.standard_normal()
+        y[i] = x[i] + (y[i] - x[i]) * frac + spread * _normal(bits)
     if wall < n_box_walls:
         axis = wall // 2
         for i in range(d):
