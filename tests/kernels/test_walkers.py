@@ -827,7 +827,10 @@ def test_hit_fraction_law(x2: float, case: str) -> None:
     shape = alpha**2 / (2 * diffusivity)
     rng = np.random.default_rng(14)
     fractions = np.array(
-        [_hit_fraction(rng, alpha, gamma, diffusivity, h, True) for _ in range(n)]
+        [
+            _hit_fraction(rng.bit_generator, alpha, gamma, diffusivity, h, True)
+            for _ in range(n)
+        ]
     )
     assert np.all((fractions > 0.0) & (fractions < 1.0))
     if gamma > 0.0:
