@@ -375,40 +375,47 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                         if y2 < rl2 or y2 > rh2:
                             y2 = _fold(y2, rl2, rh2)
                 if not general or absorbing_faces:
-                    # 3. Absorbing faces near the step, in the array loop's order
-                    #    (axis by axis, low face first); the earliest crossing wins.
-                    if (x0 - al0) * (y0 - al0) <= cut:
-                        frac, hit_wall = _face(
-                            bits, x0 - al0, y0 - al0, 0, frac, hit_wall, kill_scale,
-                            diffusivity, dt, bridge,
-                        )  # fmt: skip
-                    if (x0 - ah0) * (y0 - ah0) <= cut:
-                        frac, hit_wall = _face(
-                            bits, ah0 - x0, ah0 - y0, 1, frac, hit_wall, kill_scale,
-                            diffusivity, dt, bridge,
-                        )  # fmt: skip
+                    # 3. Absorbing faces near the step. One branch per step on the
+                    #    smallest face product; then each face in the array loop's
+                    #    order (axis by axis, low first); the earliest crossing wins.
+                    p = min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0))
                     if dim >= 2:
-                        if (x1 - al1) * (y1 - al1) <= cut:
-                            frac, hit_wall = _face(
-                                bits, x1 - al1, y1 - al1, 2, frac, hit_wall,
-                                kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - ah1) * (y1 - ah1) <= cut:
-                            frac, hit_wall = _face(
-                                bits, ah1 - x1, ah1 - y1, 3, frac, hit_wall,
-                                kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
+                        p = min(p, (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1))
                     if dim >= 3:
-                        if (x2 - al2) * (y2 - al2) <= cut:
+                        p = min(p, (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2))
+                    if p <= cut:
+                        if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall = _face(
-                                bits, x2 - al2, y2 - al2, 4, frac, hit_wall,
-                                kill_scale, diffusivity, dt, bridge,
+                                bits, x0 - al0, y0 - al0, 0, frac, hit_wall, kill_scale,
+                                diffusivity, dt, bridge,
                             )  # fmt: skip
-                        if (x2 - ah2) * (y2 - ah2) <= cut:
+                        if (x0 - ah0) * (y0 - ah0) <= cut:
                             frac, hit_wall = _face(
-                                bits, ah2 - x2, ah2 - y2, 5, frac, hit_wall,
-                                kill_scale, diffusivity, dt, bridge,
+                                bits, ah0 - x0, ah0 - y0, 1, frac, hit_wall, kill_scale,
+                                diffusivity, dt, bridge,
                             )  # fmt: skip
+                        if dim >= 2:
+                            if (x1 - al1) * (y1 - al1) <= cut:
+                                frac, hit_wall = _face(
+                                    bits, x1 - al1, y1 - al1, 2, frac, hit_wall,
+                                    kill_scale, diffusivity, dt, bridge,
+                                )  # fmt: skip
+                            if (x1 - ah1) * (y1 - ah1) <= cut:
+                                frac, hit_wall = _face(
+                                    bits, ah1 - x1, ah1 - y1, 3, frac, hit_wall,
+                                    kill_scale, diffusivity, dt, bridge,
+                                )  # fmt: skip
+                        if dim >= 3:
+                            if (x2 - al2) * (y2 - al2) <= cut:
+                                frac, hit_wall = _face(
+                                    bits, x2 - al2, y2 - al2, 4, frac, hit_wall,
+                                    kill_scale, diffusivity, dt, bridge,
+                                )  # fmt: skip
+                            if (x2 - ah2) * (y2 - ah2) <= cut:
+                                frac, hit_wall = _face(
+                                    bits, ah2 - x2, ah2 - y2, 5, frac, hit_wall,
+                                    kill_scale, diffusivity, dt, bridge,
+                                )  # fmt: skip
                 if general:
                     if is_ball:
                         rb2 = (y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2
