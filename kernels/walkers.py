@@ -355,6 +355,10 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
             # "Kernels"). Same draws in the same order, same arithmetic: bit-identical.
             x0, x1, x2 = _axes(x, 0.0)
             rb1 = (x0 - bc0) ** 2 + (x1 - bc1) ** 2 + (x2 - bc2) ** 2
+            far = np.int64(0)
+            for k in range(min(n_targets, 63)):
+                if _r2(target_center, k, x0, x1, x2) > reach2[k]:
+                    far |= np.int64(1) << k
             while step < n_steps:
                 step += 1
                 # 2. Free increment, mirrored at reflecting faces.
@@ -438,17 +442,21 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                                     hit_wall = n_targets
                         rb1 = rb2
                     for k in range(n_targets):
-                        c = target_center[k, 0]
-                        r1 = (x0 - c) ** 2
-                        r2 = (y0 - c) ** 2
+                        r2 = (y0 - target_center[k, 0]) ** 2
                         if dim >= 2:
-                            c = target_center[k, 1]
-                            r1 += (x1 - c) ** 2
-                            r2 += (y1 - c) ** 2
+                            r2 += (y1 - target_center[k, 1]) ** 2
                         if dim >= 3:
-                            c = target_center[k, 2]
-                            r1 += (x2 - c) ** 2
-                            r2 += (y2 - c) ** 2
+                            r2 += (y2 - target_center[k, 2]) ** 2
+                        # Bit k of `far`: the step start was beyond reach of target
+                        # k (the last step's end); then r1 need not be computed.
+                        bit = np.int64(1) << k if k < 63 else np.int64(0)
+                        if r2 > reach2[k]:
+                            if far & bit:
+                                continue
+                            far |= bit
+                        else:
+                            far &= ~bit
+                        r1 = _r2(target_center, k, x0, x1, x2)
                         if r2 > reach2[k] and r1 > reach2[k]:
                             continue
                         d1 = math.sqrt(r1) - target_radius[k]
@@ -753,6 +761,19 @@ def _put(v, a0, a1, a2):  # type: ignore[no-untyped-def]
         v[1] = a1
     if n > 2:
         v[2] = a2
+
+
+@njit(nogil=True, cache=True)
+def _r2(centers, k, y0, y1, y2):  # type: ignore[no-untyped-def]
+    """Squared distance of the point (y0, y1, y2), first ``centers.shape[1]`` axes, from
+    ``centers[k]``."""
+    n = centers.shape[1]
+    r2 = (y0 - centers[k, 0]) ** 2
+    if n > 1:
+        r2 += (y1 - centers[k, 1]) ** 2
+    if n > 2:
+        r2 += (y2 - centers[k, 2]) ** 2
+    return r2
 
 
 @njit(nogil=True, cache=True)

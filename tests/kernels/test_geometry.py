@@ -889,6 +889,15 @@ def test_occupancy_repeated_snapshot_rows_identical(
 
 # ------------------------------------------------------------------ determinism
 
+#: More targets than the register loop's 63-bit "start was far" mask covers.
+MANY_TARGETS = box(
+    (0.0, 0.0), (1.0, 1.0), (("reflecting", "reflecting"),) * 2, (0.51, 0.9),
+    diffusivity=1.0, dt=0.002, n_steps=40,
+    target_centers=tuple((0.05 + 0.9 * (k % 10) / 9, 0.05 + 0.9 * (k // 10) / 6)
+                         for k in range(70)),
+    target_radii=(0.02,) * 70,
+)  # fmt: skip
+
 #: A reflecting disc with drift and a coarse step (radial mirror images repeat).
 REFLECTING_DISC = ball(
     2, 0.5, 0.3, diffusivity=1.0, dt=0.02, n_steps=40, absorbing=False,
@@ -910,9 +919,10 @@ REFLECTING_DISC = ball(
         replace(TARGET_CASES["ball-one-target"], n_steps=40),
         replace(TARGET_CASES["square-uniform-start"], n_steps=40),
         replace(REFLECTING_DISC, n_steps=40),
+        MANY_TARGETS,
     ],
     ids=["absorbing-ball-targets", "box-targets-no-bridge", "reflecting-ball-target",
-         "uniform-start-targets", "reflecting-disc"],
+         "uniform-start-targets", "reflecting-disc", "70-targets"],
 )  # fmt: skip
 @pytest.mark.parametrize("loop", ["registers", "arrays"])
 def test_general_loop_python_identical_to_compiled(domain: Domain, loop: str) -> None:
