@@ -260,7 +260,7 @@ def run_bench(
                 rows.append(row)
                 report(_format_row(row))
     speedup = thread_speedup(
-        _task("box 3-D (2 abs + 4 refl)", False, True, max(walkers // 8, 1), dt),
+        _task("box 3-D (2 abs + 4 refl)", False, True, max(walkers // 2, 1), dt),
         repeats,
     )
     return rows, speedup
