@@ -240,8 +240,10 @@ def simulate(  # type: ignore[no-untyped-def]
         Walker-steps simulated.
     """
     # One compiled loop per case (literal arguments of _simulate), each compiled on
-    # first use: boxes without targets leave the ball and target code out (it slows the loop
-    # even when unused), and one to three axes keep the position in registers.
+    # first use: boxes without targets leave the ball and target code out (it slows
+    # the loop even when unused), and one to three axes keep the position in
+    # registers. A plain-Python dispatcher: an njit one would compile all eight loops
+    # at its first call.
     a = (
         rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
         absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
