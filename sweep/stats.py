@@ -123,6 +123,20 @@ def wilson_interval(successes: Any, n: Any, level: float = LEVEL) -> tuple[Any, 
     return centre - half, centre + half
 
 
+def _binned_density(
+    count: NDArray[np.float64], n: NDArray[np.float64], width: Any, level: float
+) -> tuple[Any, Any, Any, Any]:
+    """Density count / (n width) of a histogram, its standard error and its Wilson
+    interval divided by the bin width; NaN where ``n`` is 0. ``count``, ``n`` and
+    ``width`` broadcast together."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        n_ok = np.where(n > 0, n, np.nan)
+        dens = count / (n_ok * width)
+        se = np.sqrt(count * (1.0 - count / n_ok)) / (n_ok * width)
+        lower, upper = wilson_interval(count, n_ok, level)
+    return dens, se, lower / width, upper / width
+
+
 def splitting_probability(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
     """Fraction of walkers absorbed by each wall or target, with Wilson intervals.
 
@@ -596,11 +610,7 @@ def fpt_density(
     counts, _ = absorbed.binned(edges)
     n = _walkers(ds)[:, None]
     width = np.diff(edges, axis=1)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        n_ok = np.where(n > 0, n, np.nan)
-        dens = counts / (n_ok * width)
-        se = np.sqrt(counts * (1.0 - counts / n_ok)) / (n_ok * width)
-        lower, upper = wilson_interval(counts, n_ok, level)
+    dens, se, lower, upper = _binned_density(counts, n, width, level)
     dims = ("point", "fpt_bin")
     return _result(
         ds,
@@ -608,8 +618,8 @@ def fpt_density(
         {
             "estimate": dens,
             "stderr": se,
-            "lower": lower / width,
-            "upper": upper / width,
+            "lower": lower,
+            "upper": upper,
             "count": counts,
             "n": n[:, 0],
         },
@@ -1268,11 +1278,7 @@ def exit_position_histogram(
     edges = np.stack(all_edges, axis=1)
     width = np.diff(edges, axis=2)
     n = n_wall if conditional else _walkers(ds)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        n_ok = np.where(n > 0, n, np.nan)[:, None, None]
-        dens = count / (n_ok * width)
-        se = np.sqrt(count * (1.0 - count / n_ok)) / (n_ok * width)
-        lower, upper = wilson_interval(count, n_ok, level)
+    dens, se, lower, upper = _binned_density(count, n[:, None, None], width, level)
     dims = ("point", "axis", "exit_bin")
     return _result(
         ds,
@@ -1280,8 +1286,8 @@ def exit_position_histogram(
         {
             "estimate": dens,
             "stderr": se,
-            "lower": lower / width,
-            "upper": upper / width,
+            "lower": lower,
+            "upper": upper,
             "count": count,
             "n": n,
         },
