@@ -400,6 +400,8 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                         # 3. Absorbing faces near the step. One branch per step on the
                         #    smallest face product; then each face in the array loop's
                         #    order (axis by axis, low first); the earliest crossing wins.
+                        #    Written out per axis: a helper per axis made the 1-D loops
+                        #    3-5 % slower (same-run A/B).
                         p = min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0))
                         if dim >= 2:
                             p = min(p, (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1))
