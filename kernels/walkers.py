@@ -373,7 +373,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                     far |= np.int64(1) << k
             while True:
                 # Steps up to the next snapshot (or the horizon) in an inner loop, so
-                # the common step does not test for a snapshot (5 % in 1-D).
+                # the common step does not test for a snapshot (8 % in 1-D).
                 limit = n_steps
                 if 0 <= next_snapshot <= n_steps:
                     limit = next_snapshot
@@ -930,8 +930,8 @@ def _snapshots(x, step, o, steps, lower, upper, bins, out):  # type: ignore[no-u
 
 @njit(nogil=True, cache=True)
 def _cell(x, lower, upper, bins):  # type: ignore[no-untyped-def]
-    """Bin of ``x`` on one axis of the occupancy histogram, -1 outside (:func:`_bin`'s
-    arithmetic)."""
+    """Bin of ``x`` on one axis of the occupancy histogram, -1 outside (used by
+    :func:`_bin` and by the register loop on scalars)."""
     b = int(math.floor((x - lower) / (upper - lower) * bins))
     if x == upper:
         b = bins - 1
@@ -952,13 +952,10 @@ def _cell_next(cell, x, lower, upper, bins):  # type: ignore[no-untyped-def]
 @njit(nogil=True, cache=True)
 def _bin(x, lower, upper, bins, out, snapshot):  # type: ignore[no-untyped-def]
     """Add the point ``x`` to row ``snapshot`` of the flattened occupancy histogram."""
-    d = x.shape[0]
     index = 0
-    for i in range(d):
-        b = int(math.floor((x[i] - lower[i]) / (upper[i] - lower[i]) * bins))
-        if x[i] == upper[i]:
-            b = bins - 1
-        if b < 0 or b >= bins:
+    for i in range(x.shape[0]):
+        b = _cell(x[i], lower[i], upper[i], bins)
+        if b < 0:
             return
         index = index * bins + b
     out[snapshot, index] += 1
