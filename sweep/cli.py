@@ -230,7 +230,7 @@ def _plan(args: argparse.Namespace) -> int:
     import os
 
     from sweep.plan import make_plan
-    from sweep.sizing import human_bytes, human_seconds, size
+    from sweep.sizing import human_bytes, human_seconds, memory_limit, size
     from sweep.spec import load_spec
 
     sweep = load_spec(args.spec)
@@ -251,7 +251,9 @@ def _plan(args: argparse.Namespace) -> int:
         f"{sizing.walker_steps_bound:.3g} (no walker absorbed before the horizon)"
     )
     print(f"  disk:            at most {human_bytes(sizing.disk_bytes)} (uncompressed)")
-    print(f"  memory per task: about {human_bytes(sizing.task_memory_bytes)}")
+    limit, where = memory_limit()
+    allowed = f" ({where} allows {human_bytes(limit)})" if limit else ""
+    print(f"  memory per task: about {human_bytes(sizing.task_memory_bytes)}{allowed}")
     print(
         f"  run time:        about {human_seconds(sizing.run_seconds(cores))} on {cores} "
         f"cores at {sizing.rate_per_core / 1e6:.0f} M walker-steps/s per core "

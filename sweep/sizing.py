@@ -30,7 +30,8 @@ MAX_TASK_SECONDS = 3600.0
 #: sqrt(2 D dt) above this fraction of the smallest length (target radius, domain
 #: width) resolves that length poorly.
 STEP_FRACTION = 0.1
-#: Fraction of the machine's memory that the tasks running at once may take.
+#: Fraction of the memory this process may use (the machine's, or its cgroup limit where
+#: lower) that the tasks running at once may take.
 MEMORY_SHARE = 0.8
 
 
@@ -294,15 +295,20 @@ def size(plan: Plan) -> Sizing:
     )
 
 
-def check_memory(sweep: Sweep, concurrent_tasks: int) -> None:
-    """Refuse a sweep whose running tasks would not fit in this machine's memory.
+def check_memory(
+    sweep: Sweep, concurrent_tasks: int, limit: tuple[float, str] | None = None
+) -> None:
+    """Refuse a sweep whose running tasks would not fit in the memory this process may
+    use.
+
+    ``limit`` is (bytes, what sets it), by default :func:`memory_limit`'s.
 
     Raises
     ------
     PlanError
         With the per-task estimate and how to shrink it.
     """
-    total = _machine_memory()
+    total, where = memory_limit() if limit is None else limit
     per_task = task_memory(sweep)
     need = per_task * concurrent_tasks
     if total and need > MEMORY_SHARE * total:
@@ -311,19 +317,84 @@ def check_memory(sweep: Sweep, concurrent_tasks: int) -> None:
         size, label = parts[key]
         tasks = "task" if concurrent_tasks == 1 else "tasks"
         raise PlanError(
-            f"{sweep.source}: [{key}] = {label} needs about {size / 2**30:.1f} GiB per "
-            f"task ({per_task / 2**30:.1f} GiB in all, {need / 2**30:.1f} GiB for "
-            f"{concurrent_tasks} {tasks} at once), more than {MEMORY_SHARE:.0%} of this "
-            f"machine's {total / 2**30:.1f} GiB. Lower {key}, or run fewer tasks at once "
+            f"{sweep.source}: [{key}] = {label} needs about {human_bytes(size)} per "
+            f"task ({human_bytes(per_task)} in all, {human_bytes(need)} for "
+            f"{concurrent_tasks} {tasks} at once), more than {MEMORY_SHARE:.0%} of "
+            f"{where}'s {human_bytes(total)}. Lower {key}, or run fewer tasks at once "
             f"(--threads / --processes)."
         )
 
 
-def _machine_memory() -> float:
+#: cgroup memory limits at or above this are "no limit" (cgroup v1 writes 2^63 rounded
+#: down to a page; v2 writes "max").
+_NO_LIMIT = 2**60
+
+
+def memory_limit(root: Path = Path("/")) -> tuple[float, str]:
+    """Memory this process may use: the machine's, or its control group's limit where
+    lower.
+
+    Batch schedulers (Slurm with cgroup enforcement, containers) confine a job to a
+    memory limit far below the node's physical memory and kill it beyond; checking
+    against the node alone would let a sweep start that is certain to be killed.
+
+    Parameters
+    ----------
+    root : Path
+        Filesystem root holding ``proc`` and ``sys`` (tests point it at a directory
+        tree of their own).
+
+    Returns
+    -------
+    (bytes, where) : (float, str)
+        The limit in bytes (0.0 when unknown) and what sets it, for messages: "this
+        machine" or "the cgroup limit (path)".
+    """
     try:
-        return float(os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES"))
+        total = float(os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES"))
     except (ValueError, OSError, AttributeError):
-        return 0.0
+        total = 0.0
+    where = "this machine"
+    for path, limit in _cgroup_limits(root):
+        if limit < _NO_LIMIT and (total == 0.0 or limit < total):
+            total, where = float(limit), f"the cgroup limit ({path})"
+    return total, where
+
+
+def _cgroup_limits(root: Path) -> list[tuple[str, int]]:
+    """Memory limits of this process's control group and of every group above it
+    (a limit set on a parent binds too), cgroup v2 and v1; unreadable ones are
+    skipped."""
+    try:
+        lines = (root / "proc/self/cgroup").read_text().splitlines()
+    except OSError:
+        return []
+    files = []
+    for line in lines:
+        # "0::/path" (v2) or "4:memory:/path" (v1); the path is relative to the
+        # hierarchy's mount, which a container may show as its root.
+        fields = line.split(":", 2)
+        if len(fields) != 3:
+            continue
+        _, controllers, group = fields
+        if controllers == "":
+            mount, name = root / "sys/fs/cgroup", "memory.max"
+        elif "memory" in controllers.split(","):
+            mount, name = root / "sys/fs/cgroup/memory", "memory.limit_in_bytes"
+        else:
+            continue
+        parts = [p for p in group.split("/") if p]
+        for depth in range(len(parts), -1, -1):
+            files.append(mount.joinpath(*parts[:depth], name))
+    limits = []
+    for path in files:
+        try:
+            text = path.read_text().strip()
+        except OSError:
+            continue
+        if text.isdigit():
+            limits.append((f"/{path.relative_to(root)}", int(text)))
+    return limits
 
 
 def human_bytes(n: float) -> str:
