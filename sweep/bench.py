@@ -106,6 +106,9 @@ class BenchRow:
     numpy_rate: float
     of_ceiling: float
     over_numpy: float
+    #: How far the median repetition fell short of the fastest, kernel or ceiling
+    #: (whichever is larger): a measure of how busy the machine was.
+    spread: float = 0.0
 
 
 def _task(case: str, occupancy: bool, bridge: bool, walkers: int, dt: float) -> Task:
@@ -256,7 +259,8 @@ def run_bench(
                     " + occupancy" if occupancy else ""
                 )
                 k, c, n = max(k_rates), max(c_rates), max(n_rates)
-                row = BenchRow(case, options, k, c, n, k / c, k / n)
+                spread = max(_spread(k_rates), _spread(c_rates))
+                row = BenchRow(case, options, k, c, n, k / c, k / n, spread)
                 rows.append(row)
                 report(_format_row(row))
     speedup = thread_speedup(
@@ -264,6 +268,11 @@ def run_bench(
         repeats,
     )
     return rows, speedup
+
+
+def _spread(rates: list[float]) -> float:
+    """1 - median / fastest of one rate's repetitions (0 when they agree)."""
+    return 1.0 - float(np.median(rates)) / max(rates)
 
 
 #: Tasks per thread-scaling measurement: like a sweep, many tasks shared out to
@@ -291,14 +300,31 @@ def thread_speedup(task: Task, repeats: int) -> float:
 
 HEADER = (
     f"{'case':26} {'options':22} {'kernel':>9} {'ceiling':>9} {'numpy':>9} "
-    f"{'kernel/ceiling':>15} {'kernel/numpy':>13}"
+    f"{'kernel/ceiling':>15} {'kernel/numpy':>13} {'spread':>7}"
 )
+
+#: Above this spread between repetitions the machine was busy enough that the ratios
+#: are uncertain by about as much (rates move 3-5 % between quiet runs here).
+BUSY_SPREAD = 0.10
 
 
 def _format_row(row: BenchRow) -> str:
     return (
         f"{row.case:26} {row.options:22} {row.kernel_rate / 1e6:8.1f}M {row.ceiling_rate / 1e6:8.1f}M "
-        f"{row.numpy_rate / 1e6:8.1f}M {row.of_ceiling:15.0%} {row.over_numpy:12.1f}x"
+        f"{row.numpy_rate / 1e6:8.1f}M {row.of_ceiling:15.0%} {row.over_numpy:12.1f}x "
+        f"{row.spread:7.0%}"
+    )
+
+
+def busy_note(rows: list[BenchRow]) -> str | None:
+    """A warning when repetitions disagreed by more than :data:`BUSY_SPREAD`."""
+    worst = max(rows, key=lambda r: r.spread)
+    if worst.spread <= BUSY_SPREAD:
+        return None
+    return (
+        f"note: repetitions disagreed by up to {worst.spread:.0%} ({worst.case}, "
+        f"{worst.options}): this machine was busy,\nso the ratios are uncertain by "
+        "about as much. Rerun with more --repeats when it is quieter."
     )
 
 

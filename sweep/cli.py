@@ -293,13 +293,14 @@ def _index_list(text: str, option: str) -> list[int]:
 
 
 def _bench(args: argparse.Namespace) -> int:
-    from sweep.bench import HEADER, run_bench, verdicts
+    from sweep.bench import HEADER, busy_note, run_bench, verdicts
 
     print(
         f"walker-steps per second on one core, the fastest of {args.repeats} "
         "repetitions (other jobs only slow"
     )
-    print("a run down); kernel, ceiling and numpy run in turn in each repetition.")
+    print("a run down); kernel, ceiling and numpy run in turn in each repetition;")
+    print("spread: how far the median repetition fell short of the fastest.")
     print(HEADER)
     rows, speedup = run_bench(
         repeats=args.repeats,
@@ -331,6 +332,9 @@ def _bench(args: argparse.Namespace) -> int:
         print(
             f"  {name:45} {shown:>8}  (target >= {want})  {'met' if met else 'NOT met'}"
         )
+    note = busy_note(rows)
+    if note:
+        print(f"\n{note}")
     return 0
 
 

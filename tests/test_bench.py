@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from sweep.bench import CASES, run_bench, verdicts
+from sweep.bench import BUSY_SPREAD, CASES, BenchRow, busy_note, run_bench, verdicts
 
 
 def test_bench_measures_every_case_and_target() -> None:
@@ -21,6 +21,15 @@ def test_bench_measures_every_case_and_target() -> None:
             row.of_ceiling,
         ):
             assert math.isfinite(value) and value > 0
+        assert 0.0 <= row.spread < 1.0
     assert math.isfinite(speedup) and speedup > 0
     names = [name for name, *_ in verdicts(rows, speedup)]
     assert len(names) == 5 and "two threads / one thread" in names
+
+
+def test_busy_note_only_when_repetitions_disagree() -> None:
+    quiet = BenchRow("interval 1-D", "bridge", 1.0, 1.0, 1.0, 1.0, 1.0, BUSY_SPREAD)
+    busy = BenchRow("ball 3-D", "endpoint", 1.0, 1.0, 1.0, 1.0, 1.0, 0.25)
+    assert busy_note([quiet]) is None
+    note = busy_note([quiet, busy])
+    assert note is not None and "25%" in note and "ball 3-D, endpoint" in note
