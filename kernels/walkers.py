@@ -46,24 +46,29 @@ def _normal(bits):  # type: ignore[no-untyped-def]
     numpy's ziggurat draw for draw, so the stream equals ``rng.standard_normal()``'s;
     but the random sign is applied by multiplying with +-1 instead of by a branch, whose
     mispredictions (half of all draws) cost numba's own version about half its rate on
-    the development machines (DEVELOPERS.md, "Kernels").
+    the development machines (DEVELOPERS.md, "Kernels"). Every integer constant is a
+    uint64: with plain int literals numba types the masks as int64 and compares the
+    mixed-sign ``rabs < ki_double[idx]`` in floating point, a conversion that cost the
+    kernels about 10 % (same-run A/B; exact either way, as the values are below 2^53).
     """
     r = next_uint64(bits)
-    idx = r & 0xFF
-    r >>= 8
-    rabs = (r >> 1) & 0x000FFFFFFFFFFFFF
+    idx = r & np.uint64(0xFF)
+    r >>= np.uint64(8)
+    rabs = (r >> np.uint64(1)) & np.uint64(0x000FFFFFFFFFFFFF)
     x = float(np.int64(rabs)) * wi_double[idx]
     if rabs < ki_double[idx]:
-        return x * (1.0 - 2.0 * float(np.int64(r & 1)))
+        return x * (1.0 - 2.0 * float(np.int64(r & np.uint64(1))))
     return _normal_rare(bits, idx, r, rabs, x)
 
 
 @njit(nogil=True, cache=True)
 def _normal_rare(bits, idx, r, rabs, x):  # type: ignore[no-untyped-def]
     """The ziggurat's rare branches (about 1 % of draws): tail, wedge and redraws, with
-    numpy's arithmetic. ``x`` is the unsigned candidate of the draw ``r``."""
+    numpy's arithmetic. ``x`` is the unsigned candidate of the draw ``r``. The redraw
+    keeps :func:`_normal`'s uint64 constants, so ``r``, ``idx`` and ``rabs`` keep one
+    integer type."""
     while True:
-        if r & 1:
+        if r & np.uint64(1):
             x = -x
         if rabs < ki_double[idx]:
             return x
@@ -72,7 +77,7 @@ def _normal_rare(bits, idx, r, rabs, x):  # type: ignore[no-untyped-def]
                 xx = -ziggurat_nor_inv_r * np.log1p(-next_double(bits))
                 yy = -np.log1p(-next_double(bits))
                 if yy + yy > xx * xx:
-                    if (rabs >> 8) & 0x1:
+                    if (rabs >> np.uint64(8)) & np.uint64(1):
                         return -(ziggurat_nor_r + xx)
                     return ziggurat_nor_r + xx
         elif (fi_double[idx - 1] - fi_double[idx]) * next_double(bits) + fi_double[
@@ -80,9 +85,9 @@ def _normal_rare(bits, idx, r, rabs, x):  # type: ignore[no-untyped-def]
         ] < np.exp(-0.5 * x * x):
             return x
         r = next_uint64(bits)
-        idx = r & 0xFF
-        r >>= 8
-        rabs = (r >> 1) & 0x000FFFFFFFFFFFFF
+        idx = r & np.uint64(0xFF)
+        r >>= np.uint64(8)
+        rabs = (r >> np.uint64(1)) & np.uint64(0x000FFFFFFFFFFFFF)
         x = float(np.int64(rabs)) * wi_double[idx]
 
 
@@ -317,6 +322,8 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
     al0, al1, al2 = _axes(abs_lo, -math.inf)
     ah0, ah1, ah2 = _axes(abs_hi, math.inf)
     bc0, bc1, bc2 = _axes(ball_center, 0.0)
+    lo0, lo1, lo2 = _axes(lower, -math.inf)
+    hi0, hi1, hi2 = _axes(upper, math.inf)
     ol0, ol1, ol2 = _axes(occupancy_lower, 0.0)
     oh0, oh1, oh2 = _axes(occupancy_upper, 1.0)
     n_snapshots = occupancy_steps.shape[0]
@@ -351,15 +358,14 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
             for i in range(d):
                 x[i] = start[i]
 
-        o, next_snapshot = _snapshots(
-            x, 0, 0, occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins,
-            out_occupancy,
-        )  # fmt: skip
-
         hit_wall = -1
         frac = 2.0
         step = 0
         if dim > 0:
+            # A snapshot at step 0 is binned by the loop's snapshot code below (its
+            # inner loop runs no step up to it).
+            o = 0
+            next_snapshot = occupancy_steps[0] if n_snapshots > 0 else -1
             # One to three axes: the position lives in scalars (registers). The array
             # loop below reloads its arrays after every draw, since the generator is
             # called through a pointer; this loop runs markedly faster (DEVELOPERS.md,
@@ -500,12 +506,9 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                                 kill_scale, diffusivity, dt, bridge,
                             )  # fmt: skip
                     if hit_wall >= 0:
-                        _put(xo, x0, x1, x2)
-                        _put(x, y0, y1, y2)
-                        _exit_point(
-                            bits, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
-                            is_ball, ball_center, ball_radius, target_center, target_radius,
-                        )  # fmt: skip
+                        x0, x1, x2 = _bridge_point(
+                            bits, dim, x0, x1, x2, y0, y1, y2, frac, sigma
+                        )
                         break
                     x0 = y0
                     x1 = y1
@@ -526,9 +529,37 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                     next_snapshot = occupancy_steps[o] if o < n_snapshots else -1
                 if step >= n_steps:
                     break
-            if hit_wall < 0:
-                _put(x, x0, x1, x2)
+            if hit_wall >= 0:
+                # The exit point on the surface hit, :func:`_exit_point` on scalars: the
+                # call with arrays cost about 50 ns per walker, 3 % of a 1-D walker's
+                # time in the bench case (same-run A/B).
+                if hit_wall < n_box_walls:
+                    x0, x1, x2 = _on_face(
+                        hit_wall, x0, x1, x2, lo0, lo1, lo2, hi0, hi1, hi2
+                    )
+                else:
+                    k = hit_wall - n_box_walls
+                    if k < n_targets:
+                        c0 = target_center[k, 0]
+                        c1 = target_center[k, 1] if dim >= 2 else 0.0
+                        c2 = target_center[k, 2] if dim >= 3 else 0.0
+                        x0, x1, x2 = _on_sphere(
+                            dim, x0, x1, x2, c0, c1, c2, target_radius[k]
+                        )
+                        if not is_ball:
+                            x0, x1, x2 = _clamp(
+                                x0, x1, x2, lo0, lo1, lo2, hi0, hi1, hi2
+                            )
+                    else:
+                        x0, x1, x2 = _on_sphere(
+                            dim, x0, x1, x2, bc0, bc1, bc2, ball_radius
+                        )
+            _put(x, x0, x1, x2)
         else:
+            o, next_snapshot = _snapshots(
+                x, 0, 0, occupancy_steps, occupancy_lower, occupancy_upper,
+                occupancy_bins, out_occupancy,
+            )  # fmt: skip
             while step < n_steps:
                 step += 1
                 # 2. Free increment and mirror images at reflecting faces, in place.
@@ -906,6 +937,67 @@ def _exit_point(  # type: ignore[no-untyped-def]
     if not is_ball:
         for i in range(d):
             y[i] = min(max(y[i], lower[i]), upper[i])
+
+
+@njit(nogil=True, cache=True)
+def _bridge_point(bits, dim, x0, x1, x2, y0, y1, y2, frac, sigma):  # type: ignore[no-untyped-def]
+    """The first part of :func:`_exit_point` on scalars (the first ``dim`` axes drawn,
+    the others returned as 0): the bridge's position a fraction ``frac`` into the step
+    (x0, x1, x2) -> (y0, y1, y2)."""
+    spread = sigma * math.sqrt(max(frac * (1.0 - frac), 0.0))
+    z0 = x0 + (y0 - x0) * frac + spread * _normal(bits)
+    z1 = 0.0
+    z2 = 0.0
+    if dim >= 2:
+        z1 = x1 + (y1 - x1) * frac + spread * _normal(bits)
+    if dim >= 3:
+        z2 = x2 + (y2 - x2) * frac + spread * _normal(bits)
+    return z0, z1, z2
+
+
+@njit(nogil=True, cache=True)
+def _clamp(y0, y1, y2, lo0, lo1, lo2, hi0, hi1, hi2):  # type: ignore[no-untyped-def]
+    """Each coordinate clamped into [lo, hi]."""
+    return (
+        min(max(y0, lo0), hi0),
+        min(max(y1, lo1), hi1),
+        min(max(y2, lo2), hi2),
+    )
+
+
+@njit(nogil=True, cache=True)
+def _on_face(wall, y0, y1, y2, lo0, lo1, lo2, hi0, hi1, hi2):  # type: ignore[no-untyped-def]
+    """:func:`_exit_point`'s placement on box face ``wall`` on scalars: clamped into
+    the box, the face's coordinate set."""
+    y0, y1, y2 = _clamp(y0, y1, y2, lo0, lo1, lo2, hi0, hi1, hi2)
+    if wall == 0:
+        y0 = lo0
+    elif wall == 1:
+        y0 = hi0
+    elif wall == 2:
+        y1 = lo1
+    elif wall == 3:
+        y1 = hi1
+    elif wall == 4:
+        y2 = lo2
+    else:
+        y2 = hi2
+    return y0, y1, y2
+
+
+@njit(nogil=True, cache=True)
+def _on_sphere(dim, y0, y1, y2, c0, c1, c2, radius):  # type: ignore[no-untyped-def]
+    """:func:`_project` on scalars, first ``dim`` axes (the others stay as given)."""
+    r2 = (y0 - c0) ** 2
+    if dim >= 2:
+        r2 += (y1 - c1) ** 2
+    if dim >= 3:
+        r2 += (y2 - c2) ** 2
+    r = math.sqrt(r2)
+    if r == 0.0:
+        return c0 + radius, c1, c2
+    scale = radius / r
+    return c0 + (y0 - c0) * scale, c1 + (y1 - c1) * scale, c2 + (y2 - c2) * scale
 
 
 @njit(nogil=True, cache=True)
