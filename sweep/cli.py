@@ -293,14 +293,16 @@ def _index_list(text: str, option: str) -> list[int]:
 
 
 def _bench(args: argparse.Namespace) -> int:
-    from sweep.bench import HEADER, busy_note, run_bench, verdicts
+    from sweep.bench import HEADER, PAIRS, busy_note, run_bench, verdicts
 
     print(
-        f"walker-steps per second on one core, the fastest of {args.repeats} "
-        "repetitions (other jobs only slow"
+        f"walker-steps per second on one core, the fastest run (other jobs only slow a "
+        f"run down) of {args.repeats} repetitions;"
     )
-    print("a run down); kernel, ceiling and numpy run in turn in each repetition;")
-    print("spread: how far the median repetition fell short of the fastest.")
+    print(
+        f"each repetition runs kernel and ceiling in turn {PAIRS} times, then numpy once;"
+    )
+    print("spread: how far the median run fell short of the fastest.")
     print(HEADER)
     rows, speedup = run_bench(
         repeats=args.repeats,
