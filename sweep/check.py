@@ -2,8 +2,9 @@
 
 For each point whose geometry has a closed form (intervals, half-lines, boxes as products
 of intervals, absorbing balls), the simulated statistic with its standard error is
-compared with the exact value: z = (simulated - exact) / stderr, and the check passes
-when |z| <= Z_PASS. Points without an analytic counterpart are listed as such.
+compared with the exact value (survival, mean first-passage time, splitting probability,
+and for balls the mean cosine of the exit angle): z = (simulated - exact) / stderr, and
+the check passes when |z| <= Z_PASS. Points without an analytic counterpart are listed as such.
 """
 
 from __future__ import annotations
@@ -88,6 +89,7 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
     surv = stats.survival(ds)
     mean = stats.mean_first_passage_time(ds) if per_walker else None
     split = stats.splitting_probability(ds) if per_walker else None
+    cosines = exit_cosines(ds, sweep)
     for p, point in enumerate(sweep.points):
         if int(ds["walkers_done"][p]) == 0:
             unchecked.append((p, "no finished tasks yet"))
@@ -102,6 +104,8 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
             if censored == 0.0:
                 rows += _mean_rows(p, point, mean.isel(point=p))
                 rows += _splitting_rows(p, point, split.isel(point=p))
+                if cosines is not None:
+                    rows += _exit_rows(p, point, cosines.isel(point=p))
     return CheckReport(store=name, rows=tuple(rows), unchecked=tuple(unchecked))
 
 
@@ -302,6 +306,74 @@ def _exact_splitting(point: PointSpec) -> float:
             m.start[0] - dom.lower[0], length, m.diffusivity, m.drift[0]
         )
     )
+
+
+def _exit_geometry(point: PointSpec) -> tuple[np.ndarray, np.ndarray, float] | None:
+    """(center, unit start direction, radius) of an absorbing-ball point with an
+    off-centre start, else None: the points whose exit angle has a closed-form mean."""
+    m, dom = point.motion, point.domain
+    if dom.shape != "ball" or m.start is None or unsupported(point):
+        return None
+    center = np.asarray(dom.center, dtype=float)
+    r0 = math.dist(m.start, dom.center)
+    if r0 == 0.0:
+        return None
+    return center, (np.asarray(m.start) - center) / r0, dom.radius
+
+
+def exit_cosines(ds: xr.Dataset, sweep: Sweep) -> xr.Dataset | None:
+    """Per point: count, mean and standard deviation of cos(theta), the exit point's
+    angle from the start direction, over absorbed walkers (NaN where
+    :func:`_exit_geometry` has none); None when no point qualifies or the store keeps
+    no per-walker exit positions. One pass over the stored positions."""
+    if "exit_position" not in ds:
+        return None
+    geometry = [_exit_geometry(point) for point in sweep.points]
+    if all(g is None for g in geometry):
+        return None
+    d = ds.sizes["axis"]
+    center = np.full((len(geometry), d), np.nan)
+    direction = np.full((len(geometry), d), np.nan)
+    radius = np.full(len(geometry), np.nan)
+    for p, g in enumerate(geometry):
+        if g is not None:
+            center[p], direction[p], radius[p] = g
+    dims = ("point", "axis")
+    # cos(theta) = (X_exit - c) . u / R per walker; censored walkers' rows are NaN.
+    cosine = (
+        (ds["exit_position"] - xr.DataArray(center, dims=dims))
+        * xr.DataArray(direction, dims=dims)
+    ).sum("axis", skipna=False) / xr.DataArray(radius, dims="point")
+    summary = xr.Dataset(
+        {
+            "n": cosine.count("walker"),
+            "mean": cosine.mean("walker"),
+            "std": cosine.std("walker", ddof=1),
+        }
+    )
+    return summary.compute()
+
+
+def _exit_rows(p: int, point: PointSpec, cosines: xr.Dataset) -> list[CheckRow]:
+    """Where walkers leave an absorbing ball: the mean cosine of the exit angle
+    against the harmonic measure's r0 / R."""
+    geometry = _exit_geometry(point)
+    n = int(cosines["n"])
+    if geometry is None or n < 2:
+        return []
+    assert point.motion.start is not None
+    r0 = math.dist(point.motion.start, point.domain.center)
+    est = float(cosines["mean"])
+    se = float(cosines["std"]) / math.sqrt(n)
+    exact = analytic.ball_exit_cos_mean(r0, point.domain.radius)
+    bias = _allowance(
+        point, lambda q: analytic.ball_exit_cos_mean(r0, q.domain.radius), exact
+    )
+    source = (
+        "harmonic measure of the ball, E[cos theta] = r0/R (Morters & Peres 2010 "
+        "ch. 3) [from memory]"
+    )
+    return [_row(p, "E[cos exit angle]", est, se, exact, source, bias)]
 
 
 # --------------------------------------------------------------------------- text

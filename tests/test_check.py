@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import dataclasses
 import json
+import math
 import subprocess
 import sys
 from pathlib import Path
@@ -81,3 +82,73 @@ def test_check_reports_endpoint_bias_separately(tmp_path: Path) -> None:
         assert abs(r.simulated - r.exact - r.allowance) <= Z_STAT * r.stderr
     text = _cli("check", str(out)).stdout
     assert "expected dt bias" in text
+
+
+BALL_SPEC = """
+[sweep]
+name = "ball-exit"
+seed = 11
+walkers = 6000
+chunk = 3000
+
+[motion]
+dimension = {dimension}
+diffusivity = 0.5
+start = {start}
+
+[time]
+dt = 1e-3
+horizon = 10.0
+{monitoring}
+
+[domain]
+shape = "ball"
+center = {center}
+radius = 1.0
+wall = "absorbing"
+
+[record]
+survival = {{ stop = 1.0, points = 11 }}
+"""
+
+
+def _ball_store(tmp_path: Path, dimension: int, start: list[float], **kw: str) -> Path:
+    spec = tmp_path / f"ball{dimension}.toml"
+    spec.write_text(
+        BALL_SPEC.format(
+            dimension=dimension,
+            start=start,
+            center=[0.25] + [0.0] * (dimension - 1),
+            monitoring=kw.get("monitoring", ""),
+        )
+    )
+    out = tmp_path / f"ball{dimension}.zarr"
+    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
+    return out
+
+
+def test_check_compares_ball_exit_angle_with_harmonic_measure(tmp_path: Path) -> None:
+    # E[cos theta] = r0 / R for the exit point of an absorbing ball, every dimension
+    # (harmonic measure: Morters & Peres 2010 ch. 3 [from memory]; sweep.analytic).
+    for dimension, start in ((2, [0.85, 0.0]), (3, [0.25, 0.5, 0.3])):
+        report = check_store(_ball_store(tmp_path, dimension, start))
+        rows = [r for r in report.rows if r.statistic == "E[cos exit angle]"]
+        assert len(rows) == 1 and rows[0].passed and rows[0].source, report.rows
+        center = [0.25] + [0.0] * (dimension - 1)
+        assert rows[0].exact == math.dist(start, center)  # R = 1
+        assert abs(rows[0].z) <= Z_STAT
+
+
+def test_check_skips_exit_angle_from_the_centre(tmp_path: Path) -> None:
+    # From the centre the start direction is undefined (the exit point is uniform).
+    report = check_store(_ball_store(tmp_path, 2, [0.25, 0.0]))
+    assert report.passed and report.rows
+    assert not [r for r in report.rows if r.statistic == "E[cos exit angle]"]
+
+
+def test_check_exit_angle_endpoint_allowance(tmp_path: Path) -> None:
+    # Checking the surface only at step ends acts like a ball enlarged by
+    # 0.5826 sqrt(2 D dt) (Broadie, Glasserman & Kou 1997): the angle's mean shrinks.
+    out = _ball_store(tmp_path, 2, [0.85, 0.0], monitoring='monitoring = "endpoint"')
+    rows = [r for r in check_store(out).rows if r.statistic == "E[cos exit angle]"]
+    assert len(rows) == 1 and rows[0].allowance < 0
