@@ -344,14 +344,18 @@ def verdicts(
     rows: list[BenchRow], speedup: float
 ) -> list[tuple[str, float, float, bool]]:
     """(target, measured, wanted, met) for each of the issue's throughput targets."""
-    # "Plain" is the kernel without options: endpoint monitoring, no occupancy.
+    # "Plain" is the kernel without options: endpoint monitoring, no occupancy. The
+    # bridge test (the default monitoring) is an option like occupancy: it adds work,
+    # a uniform draw and a hitting time for steps near an absorbing surface.
     plain = [r.of_ceiling for r in rows if r.options == "endpoint"]
     every = [r.of_ceiling for r in rows]
     one_d = [r.over_numpy for r in rows if r.case.startswith("interval")]
     three_d = [r.over_numpy for r in rows if "3-D" in r.case]
     return [
-        _verdict("plain kernels / ceiling (worst case)", plain, TARGET_PLAIN),
-        _verdict("every option combination / ceiling (worst)", every, TARGET_OPTIONS),
+        _verdict(
+            "plain (endpoint, no occupancy) / ceiling, worst", plain, TARGET_PLAIN
+        ),
+        _verdict("every option combination / ceiling, worst", every, TARGET_OPTIONS),
         _verdict("kernel / numpy, 1-D (worst)", one_d, TARGET_NUMPY_1D),
         _verdict("kernel / numpy, 3-D (worst)", three_d, TARGET_NUMPY_3D),
         _verdict("two threads / one thread", [speedup], TARGET_THREADS),
