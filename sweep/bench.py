@@ -238,9 +238,13 @@ def _numpy_rate(task: Task, walkers: int, seed: int) -> float:
 PAIRS = 3
 
 
+#: Walkers per kernel call of a full bench (fewer make per-call overhead show).
+DEFAULT_WALKERS = 20_000
+
+
 def run_bench(
     repeats: int = 5,
-    walkers: int = 20_000,
+    walkers: int = DEFAULT_WALKERS,
     dt: float = 1e-3,
     numpy_walkers: int = 100_000,
     report: Callable[[str], None] = print,

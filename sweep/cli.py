@@ -83,7 +83,10 @@ def build_parser() -> argparse.ArgumentParser:
         "--repeats", type=int, default=5, help="repetitions per case (fastest kept)"
     )
     bench.add_argument(
-        "--walkers", type=int, default=20_000, help="walkers per kernel call"
+        "--walkers",
+        type=int,
+        default=20_000,  # sweep.bench.DEFAULT_WALKERS (not imported: keeps startup fast)
+        help="walkers per kernel call",
     )
     return parser
 
@@ -293,7 +296,14 @@ def _index_list(text: str, option: str) -> list[int]:
 
 
 def _bench(args: argparse.Namespace) -> int:
-    from sweep.bench import HEADER, PAIRS, busy_note, run_bench, verdicts
+    from sweep.bench import (
+        DEFAULT_WALKERS,
+        HEADER,
+        PAIRS,
+        busy_note,
+        run_bench,
+        verdicts,
+    )
 
     print(
         f"walker-steps per second on one core, the fastest run (other jobs only slow a "
@@ -312,21 +322,29 @@ def _bench(args: argparse.Namespace) -> int:
     print(f"\ntwo threads / one thread (3-D box, bridge): {speedup:.2f}x")
     from sweep.sizing import record_rates
 
-    # Bridge monitoring is the default, so its rates size runs in `sweep plan`.
-    record_rates(
-        {
-            1: next(
-                r.kernel_rate
-                for r in rows
-                if r.case.startswith("interval") and r.options == "bridge"
-            ),
-            3: next(
-                r.kernel_rate
-                for r in rows
-                if r.case.startswith("box") and r.options == "bridge"
-            ),
-        }
-    )
+    # Bridge monitoring is the default, so its rates size runs in `sweep plan`. A quick
+    # bench with few walkers per call measures mostly per-call overhead: its rates
+    # would understate real runs, so only full-size benches are kept.
+    if args.walkers >= DEFAULT_WALKERS:
+        record_rates(
+            {
+                1: next(
+                    r.kernel_rate
+                    for r in rows
+                    if r.case.startswith("interval") and r.options == "bridge"
+                ),
+                3: next(
+                    r.kernel_rate
+                    for r in rows
+                    if r.case.startswith("box") and r.options == "bridge"
+                ),
+            }
+        )
+    else:
+        print(
+            f"(rates not kept for `sweep plan`: fewer than {DEFAULT_WALKERS} walkers "
+            "per call)"
+        )
     print("\ntargets:")
     for name, measured, wanted, met in verdicts(rows, speedup):
         # One decimal: a ratio of 69.6 % must not print as a "70 %" that is not met.
