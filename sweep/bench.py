@@ -5,11 +5,10 @@ to back with (a) this machine's rate of drawing the d standard normals a walker-
 needs, with the same generator (the ceiling), and (b) a plain vectorised numpy
 implementation of the same case, all three in turn within each repetition (the short
 kernel and ceiling runs several times, see :data:`PAIRS`). Each rate is the fastest of
-its runs: on a shared machine other jobs only ever slow a run
-down (rates here swing by tens of percent between repetitions), so the fastest run of
-each is the least disturbed, and the ratios are taken between those (the common
-practice of timing benchmarks by their best run). Two threads are compared with one for
-the parallel speed-up the same way.
+its runs: on a shared machine other jobs only ever slow a run down (rates here swing by
+tens of percent between runs), so the fastest run of each is the least disturbed, and
+the ratios are taken between those (the common practice of timing benchmarks by their
+best run). Two threads are compared with one for the parallel speed-up the same way.
 """
 
 from __future__ import annotations
@@ -287,7 +286,7 @@ def run_bench(
 
 
 def _spread(rates: list[float]) -> float:
-    """1 - median / fastest of one rate's repetitions (0 when they agree)."""
+    """1 - median / fastest of one rate's runs (0 when they agree)."""
     return 1.0 - float(np.median(rates)) / max(rates)
 
 
@@ -319,7 +318,7 @@ HEADER = (
     f"{'kernel/ceiling':>15} {'kernel/numpy':>13} {'spread':>7}"
 )
 
-#: Above this spread between repetitions the machine was busy enough that the ratios
+#: Above this spread between runs the machine was busy enough that the ratios
 #: are uncertain by about as much (rates move 3-5 % between quiet runs here).
 BUSY_SPREAD = 0.10
 
@@ -333,12 +332,12 @@ def _format_row(row: BenchRow) -> str:
 
 
 def busy_note(rows: list[BenchRow]) -> str | None:
-    """A warning when repetitions disagreed by more than :data:`BUSY_SPREAD`."""
+    """A warning when runs disagreed by more than :data:`BUSY_SPREAD`."""
     worst = max(rows, key=lambda r: r.spread)
     if worst.spread <= BUSY_SPREAD:
         return None
     return (
-        f"note: repetitions disagreed by up to {worst.spread:.0%} ({worst.case}, "
+        f"note: runs disagreed by up to {worst.spread:.0%} ({worst.case}, "
         f"{worst.options}): this machine was busy,\nso the ratios are uncertain by "
         "about as much. Rerun with more --repeats when it is quieter."
     )

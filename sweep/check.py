@@ -4,7 +4,8 @@ For each point whose geometry has a closed form (intervals, half-lines, boxes as
 of intervals, absorbing balls), the simulated statistic with its standard error is
 compared with the exact value (survival, mean first-passage time, splitting probability,
 and for balls the mean cosine of the exit angle): z = (simulated - exact) / stderr, and
-the check passes when |z| <= Z_PASS. Points without an analytic counterpart are listed as such.
+the check passes when |z| <= Z_PASS. Points without an analytic counterpart are listed
+as such.
 """
 
 from __future__ import annotations
@@ -308,9 +309,12 @@ def _exact_splitting(point: PointSpec) -> float:
     )
 
 
-def _exit_geometry(point: PointSpec) -> tuple[np.ndarray, np.ndarray, float] | None:
-    """(center, unit start direction, radius) of an absorbing-ball point with an
-    off-centre start, else None: the points whose exit angle has a closed-form mean."""
+def _exit_geometry(
+    point: PointSpec,
+) -> tuple[np.ndarray, np.ndarray, float, float] | None:
+    """(center, unit start direction, start radius r0, ball radius) of an
+    absorbing-ball point with an off-centre start, else None: the points whose exit
+    angle has a closed-form mean."""
     m, dom = point.motion, point.domain
     if dom.shape != "ball" or m.start is None or unsupported(point):
         return None
@@ -318,7 +322,7 @@ def _exit_geometry(point: PointSpec) -> tuple[np.ndarray, np.ndarray, float] | N
     r0 = math.dist(m.start, dom.center)
     if r0 == 0.0:
         return None
-    return center, (np.asarray(m.start) - center) / r0, dom.radius
+    return center, (np.asarray(m.start) - center) / r0, r0, dom.radius
 
 
 def exit_cosines(ds: xr.Dataset, sweep: Sweep) -> xr.Dataset | None:
@@ -337,7 +341,7 @@ def exit_cosines(ds: xr.Dataset, sweep: Sweep) -> xr.Dataset | None:
     radius = np.full(len(geometry), np.nan)
     for p, g in enumerate(geometry):
         if g is not None:
-            center[p], direction[p], radius[p] = g
+            center[p], direction[p], _, radius[p] = g
     dims = ("point", "axis")
     # cos(theta) = (X_exit - c) . u / R per walker; censored walkers' rows are NaN.
     cosine = (
@@ -361,11 +365,10 @@ def _exit_rows(p: int, point: PointSpec, cosines: xr.Dataset) -> list[CheckRow]:
     n = int(cosines["n"])
     if geometry is None or n < 2:
         return []
-    assert point.motion.start is not None
-    r0 = math.dist(point.motion.start, point.domain.center)
+    _, _, r0, radius = geometry
     est = float(cosines["mean"])
     se = float(cosines["std"]) / math.sqrt(n)
-    exact = analytic.ball_exit_cos_mean(r0, point.domain.radius)
+    exact = analytic.ball_exit_cos_mean(r0, radius)
     bias = _allowance(
         point, lambda q: analytic.ball_exit_cos_mean(r0, q.domain.radius), exact
     )
