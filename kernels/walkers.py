@@ -249,10 +249,10 @@ def simulate(  # type: ignore[no-untyped-def]
         Walker-steps simulated.
     """
     # One compiled loop per case (literal arguments of _simulate), each compiled on
-    # first use: boxes without targets leave the ball and target code out (it slows
-    # the loop even when unused), and one to three axes keep the position in
-    # registers. A plain-Python dispatcher: an njit one would compile all eight loops
-    # at its first call.
+    # first use: each kind of domain leaves out the code of the others (it slows the
+    # loop even when unused), and one to three axes keep the position in registers.
+    # A plain-Python dispatcher: an njit one would compile all twelve loops at its
+    # first call.
     a = (
         rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
         absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
@@ -261,17 +261,28 @@ def simulate(  # type: ignore[no-untyped-def]
         out_wall, out_position, out_survival, out_occupancy, out_final, fpt_bin_width,
         out_fpt_hist,
     )  # fmt: skip
-    general = bool(ball_radius < math.inf or target_radius.shape[0] > 0)
+    if ball_radius < math.inf:
+        shape = BALL
+    elif target_radius.shape[0] > 0:
+        shape = BOX_TARGETS
+    else:
+        shape = BOX
     d = start.shape[0]
-    return _LOOPS[general, d if d <= 3 else 0](a)
+    return _LOOPS[shape, d if d <= 3 else 0](a)
+
+
+#: Kinds of domain, each stepped by its own compiled loop (the literal ``shape`` of
+#: _simulate): a box, a box with targets, a ball (with or without targets).
+BOX, BOX_TARGETS, BALL = 0, 1, 2
 
 
 @njit(nogil=True, cache=True)
-def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
+def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
     """:func:`simulate` with its arguments packed in ``a``, compiled once per literal
-    ``general`` (ball and target code present) and ``dim`` (1-3: the step loop keeps
-    the position in scalar registers; 0: any dimension, positions in arrays)."""
-    numba.literally(general)
+    ``shape`` (:data:`BOX`, :data:`BOX_TARGETS` or :data:`BALL`) and ``dim`` (1-3: the
+    step loop keeps the position in scalar registers; 0: any dimension, positions in
+    arrays)."""
+    numba.literally(shape)
     numba.literally(dim)
     (
         rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
@@ -284,7 +295,12 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
     d = start.shape[0]
     n_targets = target_radius.shape[0]
     bits = rng.bit_generator  # every draw below comes from it (_normal, next_double)
-    is_ball = ball_radius < math.inf
+    # Compile-time constants of each loop: its tests of the domain's kind fold away
+    # (a box with a target ran 8-11 % faster than with them as run-time tests, median
+    # of paired runs; DEVELOPERS.md, "Kernels").
+    is_ball = shape == BALL
+    general = shape != BOX  # ball or target code present
+    has_targets = shape == BOX_TARGETS or n_targets > 0
     n_box_walls = 0 if is_ball else 2 * d
     sigma = math.sqrt(2.0 * diffusivity * dt)
     cutoff = BRIDGE_CUTOFF * diffusivity * dt
@@ -393,7 +409,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                         y1 = x1 + s1 + sigma * _normal(bits)
                     if dim >= 3:
                         y2 = x2 + s2 + sigma * _normal(bits)
-                    if not general or n_box_walls > 0:
+                    if not is_ball:
                         if y0 < rl0 or y0 > rh0:
                             y0 = _fold(y0, rl0, rh0)
                         if dim >= 2:
@@ -402,7 +418,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                         if dim >= 3:
                             if y2 < rl2 or y2 > rh2:
                                 y2 = _fold(y2, rl2, rh2)
-                    if not general or absorbing_faces:
+                    if shape == BOX or (shape == BOX_TARGETS and absorbing_faces):
                         # 3. Absorbing faces near the step. One branch per step on the
                         #    smallest face product; then each face in the array loop's
                         #    order (axis by axis, low first); the earliest crossing wins.
@@ -476,7 +492,7 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
                                         frac = f
                                         hit_wall = n_targets
                             rb1 = rb2
-                        if n_targets > 0:
+                        if has_targets:
                             # Target 0 (most set-ups have one) in scalars, its start
                             # distance carried from the last step: 9 % faster than
                             # the loop below (same-run A/B).
@@ -660,54 +676,78 @@ def _simulate(a, general, dim):  # type: ignore[no-untyped-def]
 
 @njit(nogil=True, cache=True)
 def _box1(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, False, 1)
+    return _simulate(a, BOX, 1)
 
 
 @njit(nogil=True, cache=True)
 def _box2(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, False, 2)
+    return _simulate(a, BOX, 2)
 
 
 @njit(nogil=True, cache=True)
 def _box3(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, False, 3)
+    return _simulate(a, BOX, 3)
 
 
 @njit(nogil=True, cache=True)
 def _boxn(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, False, 0)
+    return _simulate(a, BOX, 0)
 
 
 @njit(nogil=True, cache=True)
-def _full1(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, True, 1)
+def _targets1(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, BOX_TARGETS, 1)
 
 
 @njit(nogil=True, cache=True)
-def _full2(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, True, 2)
+def _targets2(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, BOX_TARGETS, 2)
 
 
 @njit(nogil=True, cache=True)
-def _full3(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, True, 3)
+def _targets3(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, BOX_TARGETS, 3)
 
 
 @njit(nogil=True, cache=True)
-def _fulln(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, True, 0)
+def _targetsn(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, BOX_TARGETS, 0)
 
 
-#: (general, dim) -> its compiled loop; dim 0 is any dimension.
+@njit(nogil=True, cache=True)
+def _ball1(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, BALL, 1)
+
+
+@njit(nogil=True, cache=True)
+def _ball2(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, BALL, 2)
+
+
+@njit(nogil=True, cache=True)
+def _ball3(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, BALL, 3)
+
+
+@njit(nogil=True, cache=True)
+def _balln(a):  # type: ignore[no-untyped-def]
+    return _simulate(a, BALL, 0)
+
+
+#: (shape, dim) -> its compiled loop; dim 0 is any dimension.
 _LOOPS = {
-    (False, 1): _box1,
-    (False, 2): _box2,
-    (False, 3): _box3,
-    (False, 0): _boxn,
-    (True, 1): _full1,
-    (True, 2): _full2,
-    (True, 3): _full3,
-    (True, 0): _fulln,
+    (BOX, 1): _box1,
+    (BOX, 2): _box2,
+    (BOX, 3): _box3,
+    (BOX, 0): _boxn,
+    (BOX_TARGETS, 1): _targets1,
+    (BOX_TARGETS, 2): _targets2,
+    (BOX_TARGETS, 3): _targets3,
+    (BOX_TARGETS, 0): _targetsn,
+    (BALL, 1): _ball1,
+    (BALL, 2): _ball2,
+    (BALL, 3): _ball3,
+    (BALL, 0): _balln,
 }
 
 

@@ -38,6 +38,10 @@ from tests.conftest import SMALL_SPEC, assert_stores_identical, sweep_command
 
 #: Seconds a command may take before the case counts as hanging.
 PATIENCE = 120.0
+#: For a missing scheduler file: the message must come well before the 60 s the Dask
+#: client would wait for a scheduler (the command takes about 2 s on an idle machine;
+#: a loaded 2-core CI machine takes several times that).
+FAIL_FAST = 25.0
 ERROR = "sweep: error:"
 #: The message argparse prints for bad options of `sweep run`.
 ARGPARSE_RUN_ERROR = "sweep run: error:"
@@ -833,7 +837,7 @@ CASES: list[Case] = [
         expect=("--scheduler-file", "{ws}/scheduler.json"),
         setup=(SMALL,),
         absent="s.zarr",
-        timeout=10.0,
+        timeout=FAIL_FAST,
     ),
     # ----- status, check, export on paths that are not stores
     store_command("status-missing-store", "status", (), "no such store"),

@@ -21,7 +21,7 @@ import pytest
 from numpy.typing import NDArray
 from scipy import integrate, stats
 
-from kernels.walkers import simulate
+from kernels.walkers import BALL, BOX_TARGETS, simulate
 from sweep import analytic
 from tests.kernels.test_walkers import (
     check_p,
@@ -930,7 +930,8 @@ def test_general_loop_python_identical_to_compiled(domain: Domain, loop: str) ->
     # so the uncompiled loop (ball and target code in) must give the compiled kernel's
     # outputs to the last bit, in both the register loop (d <= 3) and the array loop.
     dim = domain.dimension if loop == "registers" else 0
+    shape = BALL if domain.is_ball else BOX_TARGETS
     compiled = run(domain, 30, seed=1000)
-    python = run(domain, 30, seed=1000, kernel=uncompiled_loop(True, dim))
+    python = run(domain, 30, seed=1000, kernel=uncompiled_loop(shape, dim))
     for name, a, b in zip(Run._fields, compiled, python):
         np.testing.assert_array_equal(a, b, err_msg=name)

@@ -27,7 +27,7 @@ from numba import njit
 from numpy.typing import NDArray
 from scipy import special, stats
 
-from kernels.walkers import _normal, _simulate, draw_normals, simulate
+from kernels.walkers import BOX, _normal, _simulate, draw_normals, simulate
 from tests.kernels.reference import simulate_reference
 from tests.tolerances import P_MIN, Z_STAT
 
@@ -461,11 +461,12 @@ HYPERCUBE = replace(
 )
 
 
-def uncompiled_loop(general: bool, dim: int) -> Callable[..., Any]:
-    """The uncompiled step loop ``_simulate`` with the given literal arguments (``dim``
-    1-3: scalar registers; 0: arrays, any dimension), calling the compiled helpers.
-    ``simulate`` itself only dispatches to a compiled loop."""
-    return lambda *args: _simulate.py_func(args, general, dim)
+def uncompiled_loop(shape: int, dim: int) -> Callable[..., Any]:
+    """The uncompiled step loop ``_simulate`` with the given literal arguments (``shape``
+    BOX, BOX_TARGETS or BALL; ``dim`` 1-3: scalar registers; 0: arrays, any
+    dimension), calling the compiled helpers. ``simulate`` itself only dispatches to a
+    compiled loop."""
+    return lambda *args: _simulate.py_func(args, shape, dim)
 
 
 @pytest.mark.parametrize(
@@ -492,7 +493,7 @@ def test_simulate_py_func_identical_to_compiled(box: Box, loop: str) -> None:
     compiled_rng = np.random.default_rng(99)
     python_rng = np.random.default_rng(99)
     compiled = run_kernel(box, 30, compiled_rng)
-    python = run_kernel(box, 30, python_rng, kernel=uncompiled_loop(False, dim))
+    python = run_kernel(box, 30, python_rng, kernel=uncompiled_loop(BOX, dim))
     assert_results_identical(compiled, python)
     assert compiled_rng.bit_generator.state == python_rng.bit_generator.state
 
