@@ -88,6 +88,13 @@ def build_parser() -> argparse.ArgumentParser:
         default=20_000,  # sweep.bench.DEFAULT_WALKERS (not imported: keeps startup fast)
         help="walkers per kernel call",
     )
+    bench.add_argument(
+        "--remeasure",
+        type=int,
+        default=4,  # sweep.bench.REMEASURE
+        help="rounds of further runs, at the end, for results below their target "
+        "(0: none)",
+    )
     return parser
 
 
@@ -299,6 +306,15 @@ def _index_list(text: str, option: str) -> list[int]:
 
 
 def _bench(args: argparse.Namespace) -> int:
+    for option, value, least in (
+        ("--repeats", args.repeats, 1),
+        ("--walkers", args.walkers, 1),
+        ("--remeasure", args.remeasure, 0),
+    ):
+        if value < least:
+            raise SweepError(
+                f"{option}: expected a whole number of at least {least}; got {value}."
+            )
     from sweep.bench import (
         DEFAULT_WALKERS,
         HEADER,
@@ -321,6 +337,7 @@ def _bench(args: argparse.Namespace) -> int:
         repeats=args.repeats,
         walkers=args.walkers,
         report=lambda line: print(line, flush=True),
+        remeasure=args.remeasure,
     )
     print(f"\ntwo threads / one thread (3-D box, bridge): {speedup:.2f}x")
     from sweep.sizing import record_rates

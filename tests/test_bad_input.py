@@ -839,6 +839,17 @@ CASES: list[Case] = [
         absent="s.zarr",
         timeout=FAIL_FAST,
     ),
+    # ----- bench options
+    Case(
+        id="bench-no-repeats",
+        argv=("bench", "--repeats", "0"),
+        expect=("--repeats", "at least 1", "got 0"),
+    ),
+    Case(
+        id="bench-negative-remeasure",
+        argv=("bench", "--remeasure", "-1"),
+        expect=("--remeasure", "at least 0", "got -1"),
+    ),
     # ----- status, check, export on paths that are not stores
     store_command("status-missing-store", "status", (), "no such store"),
     store_command(
