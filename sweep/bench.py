@@ -412,6 +412,18 @@ def busy_note(rows: list[BenchRow]) -> str | None:
     )
 
 
+def thread_note(speedup: float) -> str | None:
+    """A warning when two threads measured more than twice one thread's rate, which
+    two cores cannot give: other jobs slowed every one-thread run, so the speed-up is
+    overstated."""
+    if speedup <= 2.0:
+        return None
+    return (
+        f"note: {speedup:.2f}x is more than two threads can give: other jobs slowed "
+        "the one-thread runs, so it overstates the speed-up."
+    )
+
+
 def verdicts(
     rows: list[BenchRow], speedup: float
 ) -> list[tuple[str, float, float, bool]]:

@@ -321,6 +321,7 @@ def _bench(args: argparse.Namespace) -> int:
         PAIRS,
         busy_note,
         run_bench,
+        thread_note,
         verdicts,
     )
 
@@ -340,6 +341,8 @@ def _bench(args: argparse.Namespace) -> int:
         remeasure=args.remeasure,
     )
     print(f"\ntwo threads / one thread (3-D box, bridge): {speedup:.2f}x")
+    if note := thread_note(speedup):
+        print(note)
     from sweep.sizing import record_rates
 
     # Bridge monitoring is the default, so its rates size runs in `sweep plan`. A quick

@@ -21,6 +21,7 @@ from sweep.bench import (
     busy_note,
     run_bench,
     target_of,
+    thread_note,
     verdicts,
 )
 from sweep.cli import build_parser
@@ -107,3 +108,11 @@ def test_plain_rows_have_the_plain_target() -> None:
     assert target_of(row) == TARGET_PLAIN
     for options in ("bridge", "bridge + occupancy", "endpoint + occupancy"):
         assert target_of(BenchRow("ball 3-D", options, 1, 1, 1, 1, 1)) == TARGET_OPTIONS
+
+
+def test_thread_note_only_above_two() -> None:
+    # Two threads on two cores give at most twice one thread's rate; more means the
+    # one-thread runs were slowed by other jobs.
+    assert thread_note(1.91) is None and thread_note(2.0) is None
+    note = thread_note(2.45)
+    assert note is not None and "2.45x" in note and "overstates" in note
