@@ -556,9 +556,7 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                 else:
                     k = hit_wall - n_box_walls
                     if k < n_targets:
-                        c0 = target_center[k, 0]
-                        c1 = target_center[k, 1] if dim >= 2 else 0.0
-                        c2 = target_center[k, 2] if dim >= 3 else 0.0
+                        c0, c1, c2 = _axes(target_center[k], 0.0)
                         x0, x1, x2 = _on_sphere(
                             dim, x0, x1, x2, c0, c1, c2, target_radius[k]
                         )

@@ -252,11 +252,17 @@ DEFAULT_WALKERS = 20_000
 REMEASURE = 4
 
 
+def is_plain(row: BenchRow) -> bool:
+    """Whether ``row`` is a plain kernel: endpoint monitoring, no occupancy. The bridge
+    test (the default monitoring) is an option like occupancy: it adds work, a uniform
+    draw and a hitting time for steps near an absorbing surface."""
+    return row.options == "endpoint"
+
+
 def target_of(row: BenchRow) -> float:
-    """The ratio to the ceiling that ``row`` should reach: plain kernels (endpoint
-    monitoring, no occupancy) :data:`TARGET_PLAIN`, any other option combination
-    :data:`TARGET_OPTIONS`."""
-    return TARGET_PLAIN if row.options == "endpoint" else TARGET_OPTIONS
+    """The ratio to the ceiling that ``row`` should reach: :data:`TARGET_PLAIN` for a
+    plain kernel, :data:`TARGET_OPTIONS` for any other option combination."""
+    return TARGET_PLAIN if is_plain(row) else TARGET_OPTIONS
 
 
 @dataclass
@@ -330,8 +336,8 @@ def run_bench(
     )
     one, two = thread_times(thread_task, repeats)
     for look in range(remeasure):
-        short = [r for r in runs if r.row().of_ceiling < target_of(r.row())]
-        threads_short = min(one) / min(two) < TARGET_THREADS
+        short = [r for r in runs if (row := r.row()).of_ceiling < target_of(row)]
+        threads_short = thread_speedup(one, two) < TARGET_THREADS
         if not short and not threads_short:
             break
         if look == 0:
@@ -343,8 +349,8 @@ def run_bench(
             more_one, more_two = thread_times(thread_task, 1)
             one += more_one
             two += more_two
-            report(f"two threads / one thread: {min(one) / min(two):.2f}x")
-    return [r.row() for r in runs], min(one) / min(two)
+            report(f"two threads / one thread: {thread_speedup(one, two):.2f}x")
+    return [r.row() for r in runs], thread_speedup(one, two)
 
 
 #: Printed before the first row measured again (see :data:`REMEASURE`).
@@ -363,14 +369,17 @@ def _spread(rates: list[float]) -> float:
 #: whichever thread is free, so one thread's delay does not idle the other.
 THREAD_TASKS = 16
 
+#: Threads compared with one in the scaling measurement.
+THREADS = 2
+
 
 def thread_times(task: Task, repeats: int) -> tuple[list[float], list[float]]:
     """Wall times (s) of :data:`THREAD_TASKS` copies of ``task`` on one thread and on
-    two threads taking tasks as they free up, ``repeats`` of each, in turn; the
-    speed-up is the fastest one-thread time over the fastest two-thread time."""
+    :data:`THREADS` threads taking tasks as they free up, ``repeats`` of each, in
+    turn (see :func:`thread_speedup`)."""
     tasks = [task] * THREAD_TASKS
     one, two = [], []
-    with ThreadPoolExecutor(2) as pool:
+    with ThreadPoolExecutor(THREADS) as pool:
         for _ in range(repeats):
             start = time.perf_counter()
             for t in tasks:
@@ -380,6 +389,11 @@ def thread_times(task: Task, repeats: int) -> tuple[list[float], list[float]]:
             list(pool.map(simulate_task, tasks))
             two.append(time.perf_counter() - start)
     return one, two
+
+
+def thread_speedup(one: list[float], two: list[float]) -> float:
+    """The fastest one-thread time over the fastest two-thread time (s / s)."""
+    return min(one) / min(two)
 
 
 HEADER = (
@@ -412,14 +426,14 @@ def busy_note(rows: list[BenchRow]) -> str | None:
     )
 
 
-def thread_note(speedup: float) -> str | None:
-    """A warning when two threads measured more than twice one thread's rate, which
-    two cores cannot give: other jobs slowed every one-thread run, so the speed-up is
-    overstated."""
-    if speedup <= 2.0:
+def thread_note(measured: float) -> str | None:
+    """A warning when :data:`THREADS` threads measured more than that many times one
+    thread's rate, which they cannot give: other jobs slowed every one-thread run, so
+    the speed-up is overstated."""
+    if measured <= THREADS:
         return None
     return (
-        f"note: {speedup:.2f}x is more than two threads can give: other jobs slowed "
+        f"note: {measured:.2f}x is more than two threads can give: other jobs slowed "
         "the one-thread runs, so it overstates the speed-up."
     )
 
@@ -428,10 +442,7 @@ def verdicts(
     rows: list[BenchRow], speedup: float
 ) -> list[tuple[str, float, float, bool]]:
     """(target, measured, wanted, met) for each of the issue's throughput targets."""
-    # "Plain" is the kernel without options: endpoint monitoring, no occupancy. The
-    # bridge test (the default monitoring) is an option like occupancy: it adds work,
-    # a uniform draw and a hitting time for steps near an absorbing surface.
-    plain = [r.of_ceiling for r in rows if r.options == "endpoint"]
+    plain = [r.of_ceiling for r in rows if is_plain(r)]
     every = [r.of_ceiling for r in rows]
     one_d = [r.over_numpy for r in rows if r.case.startswith("interval")]
     three_d = [r.over_numpy for r in rows if "3-D" in r.case]
