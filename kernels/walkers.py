@@ -130,6 +130,13 @@ EXP_MARGIN = 1.0 + 1e-12
 #: sigma^2, so no step beyond could be near (the margin absorbs rounding).
 REACH = 3.5
 
+#: With endpoint monitoring (cut 0) only a step that ends inside a curved surface
+#: matters, so the reach shrinks to the surface itself, widened by this relative margin
+#: (far above sqrt's rounding): a step skipped beyond it has d1, d2 > 0, so d1 d2 > 0
+#: = cut, exactly as if it had been examined. Skipping the shell of REACH sigma made
+#: the plain reflecting box with a target 1.5 % faster (median of paired runs).
+SURFACE_MARGIN = 1e-12
+
 
 @njit(nogil=True, cache=True)
 def _hit_fraction(bits, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
@@ -268,7 +275,7 @@ def simulate(  # type: ignore[no-untyped-def]
     else:
         shape = BOX
     d = start.shape[0]
-    return _LOOPS[shape, d if d <= 3 else 0](a)
+    return _LOOPS[shape, d if d <= 3 else 0](*a)
 
 
 #: Kinds of domain, each stepped by its own compiled loop (the literal ``shape`` of
@@ -349,14 +356,21 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
         if abs_lo[i] > -math.inf or abs_hi[i] < math.inf:
             absorbing_faces = True
     # A target or ball surface is only examined for steps that start or end within
-    # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut.
+    # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
+    # monitoring only needs steps that end inside (SURFACE_MARGIN).
     reach2 = np.empty(n_targets)
     for k in range(n_targets):
-        reach = target_radius[k] + REACH * sigma
+        if bridge:
+            reach = target_radius[k] + REACH * sigma
+        else:
+            reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
-    inner = ball_radius - REACH * sigma
+    if bridge:
+        inner = ball_radius - REACH * sigma
+    else:
+        inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     steps_done = 0
 
@@ -672,80 +686,45 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
     return steps_done
 
 
-@njit(nogil=True, cache=True)
-def _box1(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BOX, 1)
+def _loop(shape, dim):  # type: ignore[no-untyped-def]
+    """The compiled step loop for one kind of domain and number of axes (see
+    :func:`_simulate`), taking :func:`simulate`'s arguments one by one.
 
+    One by one, not packed in a tuple (nor as ``*args``, which numba packs the same
+    way): numba types a tuple argument in Python, one element at a time, which cost
+    0.3 ms per call (20 arrays), 1-2 % of a bench run of the 1-D kernel and time
+    under the GIL, on which two threads serialise; single arguments take its fast
+    path (30 us). Each loop is its own function for numba's on-disk cache, whose
+    index tells them apart by ``shape`` and ``dim`` (the closure's values).
+    """
 
-@njit(nogil=True, cache=True)
-def _box2(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BOX, 2)
+    @njit(nogil=True, cache=True)
+    def loop(  # type: ignore[no-untyped-def]
+        rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
+        absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
+        target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
+        occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins, out_time,
+        out_wall, out_position, out_survival, out_occupancy, out_final, fpt_bin_width,
+        out_fpt_hist,
+    ):  # fmt: skip
+        a = (
+            rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
+            absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
+            target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
+            occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins,
+            out_time, out_wall, out_position, out_survival, out_occupancy, out_final,
+            fpt_bin_width, out_fpt_hist,
+        )  # fmt: skip
+        return _simulate(a, shape, dim)
 
-
-@njit(nogil=True, cache=True)
-def _box3(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BOX, 3)
-
-
-@njit(nogil=True, cache=True)
-def _boxn(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BOX, 0)
-
-
-@njit(nogil=True, cache=True)
-def _targets1(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BOX_TARGETS, 1)
-
-
-@njit(nogil=True, cache=True)
-def _targets2(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BOX_TARGETS, 2)
-
-
-@njit(nogil=True, cache=True)
-def _targets3(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BOX_TARGETS, 3)
-
-
-@njit(nogil=True, cache=True)
-def _targetsn(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BOX_TARGETS, 0)
-
-
-@njit(nogil=True, cache=True)
-def _ball1(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BALL, 1)
-
-
-@njit(nogil=True, cache=True)
-def _ball2(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BALL, 2)
-
-
-@njit(nogil=True, cache=True)
-def _ball3(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BALL, 3)
-
-
-@njit(nogil=True, cache=True)
-def _balln(a):  # type: ignore[no-untyped-def]
-    return _simulate(a, BALL, 0)
+    return loop
 
 
 #: (shape, dim) -> its compiled loop; dim 0 is any dimension.
 _LOOPS = {
-    (BOX, 1): _box1,
-    (BOX, 2): _box2,
-    (BOX, 3): _box3,
-    (BOX, 0): _boxn,
-    (BOX_TARGETS, 1): _targets1,
-    (BOX_TARGETS, 2): _targets2,
-    (BOX_TARGETS, 3): _targets3,
-    (BOX_TARGETS, 0): _targetsn,
-    (BALL, 1): _ball1,
-    (BALL, 2): _ball2,
-    (BALL, 3): _ball3,
-    (BALL, 0): _balln,
+    (shape, dim): _loop(shape, dim)
+    for shape in (BOX, BOX_TARGETS, BALL)
+    for dim in (1, 2, 3, 0)
 }
 
 
