@@ -298,8 +298,8 @@ def run_bench(
     numpy_walkers: int = 100_000,
     report: Callable[[str], None] = print,
     remeasure: int = REMEASURE,
-) -> tuple[list[BenchRow], float]:
-    """Measure every case; returns the rows and the two-thread speed-up.
+) -> tuple[list[BenchRow], ThreadRuns]:
+    """Measure every case; returns the rows and the thread-scaling runs.
 
     Each repetition runs the kernel and the ceiling :data:`PAIRS` times in turn, then
     the numpy version once; each rate is the fastest of its runs. Then up to
@@ -331,13 +331,17 @@ def run_bench(
                     r.numpy.append(_numpy_rate(np_task, numpy_walkers, rep))
                 runs.append(r)
                 report(_format_row(r.row()))
-    thread_task = _task(
-        "box 3-D (2 abs + 4 refl)", False, True, max(walkers // 2, 1), dt
+    threads = ThreadRuns(
+        _task("box 3-D (2 abs + 4 refl)", False, True, max(walkers // 2, 1), dt),
+        [],
+        [],
+        [],
+        [],
     )
-    one, two = thread_times(thread_task, repeats)
+    threads.measure(repeats)
     for look in range(remeasure):
         short = [r for r in runs if (row := r.row()).of_ceiling < target_of(row)]
-        threads_short = thread_speedup(one, two) < TARGET_THREADS
+        threads_short = threads.kernel() < TARGET_THREADS
         if not short and not threads_short:
             break
         if look == 0:
@@ -346,11 +350,9 @@ def run_bench(
             r.measure_pairs((repeats + look) * PAIRS)
             report(_format_row(r.row()))
         if threads_short:
-            more_one, more_two = thread_times(thread_task, 1)
-            one += more_one
-            two += more_two
-            report(f"two threads / one thread: {thread_speedup(one, two):.2f}x")
-    return [r.row() for r in runs], thread_speedup(one, two)
+            threads.measure(1)
+            report(thread_line(threads))
+    return [r.row() for r in runs], threads
 
 
 #: Printed before the first row measured again (see :data:`REMEASURE`).
@@ -373,27 +375,72 @@ THREAD_TASKS = 16
 THREADS = 2
 
 
-def thread_times(task: Task, repeats: int) -> tuple[list[float], list[float]]:
-    """Wall times (s) of :data:`THREAD_TASKS` copies of ``task`` on one thread and on
-    :data:`THREADS` threads taking tasks as they free up, ``repeats`` of each, in
-    turn (see :func:`thread_speedup`)."""
-    tasks = [task] * THREAD_TASKS
-    one, two = [], []
-    with ThreadPoolExecutor(THREADS) as pool:
-        for _ in range(repeats):
-            start = time.perf_counter()
-            for t in tasks:
-                simulate_task(t)
-            one.append(time.perf_counter() - start)
-            start = time.perf_counter()
-            list(pool.map(simulate_task, tasks))
-            two.append(time.perf_counter() - start)
-    return one, two
+@dataclass
+class ThreadRuns:
+    """Wall times (s) of :data:`THREAD_TASKS` jobs run on one thread and on
+    :data:`THREADS` threads taking jobs as they free up.
+
+    Two kinds of job, in turn within each repetition: copies of the kernel's
+    ``task``, and generator-loop jobs drawing as many normals as one task needs (the
+    ceiling's loop alone: this machine's own two-thread speed-up for the work that
+    limits the kernel).
+    """
+
+    task: Task
+    kernel_one: list[float]
+    kernel_two: list[float]
+    draws_one: list[float]
+    draws_two: list[float]
+
+    def measure(self, repeats: int) -> None:
+        """``repeats`` more of each of the four timings."""
+        _, steps = simulate_task(self.task)
+        d = self.task.args.start.shape[0]
+
+        def draws(seed: int) -> None:
+            draw_normals(np.random.Generator(BIT_GENERATOR(seed)), steps, d)
+
+        kinds: list[tuple[Callable, list, list[float], list[float]]] = [
+            (
+                simulate_task,
+                [self.task] * THREAD_TASKS,
+                self.kernel_one,
+                self.kernel_two,
+            ),
+            (draws, list(range(THREAD_TASKS)), self.draws_one, self.draws_two),
+        ]
+        with ThreadPoolExecutor(THREADS) as pool:
+            for _ in range(repeats):
+                for job, jobs, one, two in kinds:
+                    start = time.perf_counter()
+                    for j in jobs:
+                        job(j)
+                    one.append(time.perf_counter() - start)
+                    start = time.perf_counter()
+                    list(pool.map(job, jobs))
+                    two.append(time.perf_counter() - start)
+
+    def kernel(self) -> float:
+        """The kernel's two-thread speed-up (see :func:`thread_speedup`)."""
+        return thread_speedup(self.kernel_one, self.kernel_two)
+
+    def draws(self) -> float:
+        """The generator loop's two-thread speed-up: what this machine gives."""
+        return thread_speedup(self.draws_one, self.draws_two)
 
 
 def thread_speedup(one: list[float], two: list[float]) -> float:
     """The fastest one-thread time over the fastest two-thread time (s / s)."""
     return min(one) / min(two)
+
+
+def thread_line(threads: ThreadRuns) -> str:
+    """Both two-thread speed-ups, the kernel's first, as ``sweep bench`` prints
+    them."""
+    return (
+        f"two threads / one thread: {threads.kernel():.2f}x "
+        f"(drawing the normals alone: {threads.draws():.2f}x)"
+    )
 
 
 HEADER = (
@@ -435,6 +482,20 @@ def thread_note(measured: float) -> str | None:
     return (
         f"note: {measured:.2f}x is more than two threads can give: other jobs slowed "
         "the one-thread runs, so it overstates the speed-up."
+    )
+
+
+def machine_note(threads: ThreadRuns) -> str | None:
+    """A note when the kernel's two-thread speed-up misses :data:`TARGET_THREADS` and
+    drawing the normals alone, measured in turn with it, misses it too: the
+    machine, not the kernel, then sets the limit."""
+    kernel, draws = threads.kernel(), threads.draws()
+    if kernel >= TARGET_THREADS or draws >= TARGET_THREADS:
+        return None
+    return (
+        f"note: drawing the normals alone, with no kernel code, gave {draws:.2f}x on "
+        f"two threads in the same run (the kernel {kernel:.2f}x): this machine's "
+        "cores, shared with other jobs, limit the speed-up, not the kernel."
     )
 
 

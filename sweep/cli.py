@@ -320,7 +320,9 @@ def _bench(args: argparse.Namespace) -> int:
         HEADER,
         PAIRS,
         busy_note,
+        machine_note,
         run_bench,
+        thread_line,
         thread_note,
         verdicts,
     )
@@ -334,15 +336,17 @@ def _bench(args: argparse.Namespace) -> int:
     )
     print("spread: how far the median run fell short of the fastest.")
     print(HEADER)
-    rows, speedup = run_bench(
+    rows, threads = run_bench(
         repeats=args.repeats,
         walkers=args.walkers,
         report=lambda line: print(line, flush=True),
         remeasure=args.remeasure,
     )
-    print(f"\ntwo threads / one thread (3-D box, bridge): {speedup:.2f}x")
-    if note := thread_note(speedup):
-        print(note)
+    speedup = threads.kernel()
+    print(f"\n3-D box, bridge: {thread_line(threads)}")
+    for note in (thread_note(speedup), machine_note(threads)):
+        if note:
+            print(note)
     from sweep.sizing import record_rates
 
     # Bridge monitoring is the default, so its rates size runs in `sweep plan`. A quick

@@ -16,11 +16,16 @@ from sweep.bench import (
     REMEASURE_HEADER,
     TARGET_OPTIONS,
     TARGET_PLAIN,
+    TARGET_THREADS,
     BenchRow,
+    ThreadRuns,
     _format_row,
+    _task,
     busy_note,
+    machine_note,
     run_bench,
     target_of,
+    thread_line,
     thread_note,
     verdicts,
 )
@@ -29,9 +34,10 @@ from sweep.cli import build_parser
 
 def test_bench_measures_every_case_and_target() -> None:
     lines: list[str] = []
-    rows, speedup = run_bench(
+    rows, threads = run_bench(
         repeats=1, walkers=200, numpy_walkers=200, report=lines.append, remeasure=1
     )
+    speedup = threads.kernel()
     assert len(rows) == len(CASES) * 4
     # The first pass reports every row; with 200 walkers per call (mostly per-call
     # overhead) some fall short of their target and are reported again after one
@@ -61,6 +67,11 @@ def test_bench_measures_every_case_and_target() -> None:
             assert math.isfinite(value) and value > 0
         assert 0.0 <= row.spread < 1.0
     assert math.isfinite(speedup) and speedup > 0
+    assert math.isfinite(threads.draws()) and threads.draws() > 0
+    # One timing of each kind per repetition (one here, one more if re-measured).
+    counts = {len(t) for t in (threads.kernel_one, threads.kernel_two)}
+    counts |= {len(t) for t in (threads.draws_one, threads.draws_two)}
+    assert len(counts) == 1 and counts <= {1, 2}
     names = [name for name, *_ in verdicts(rows, speedup)]
     assert len(names) == 5 and "two threads / one thread" in names
 
@@ -116,3 +127,21 @@ def test_thread_note_only_above_two() -> None:
     assert thread_note(1.91) is None and thread_note(2.0) is None
     note = thread_note(2.45)
     assert note is not None and "2.45x" in note and "overstates" in note
+
+
+def _threads(kernel: float, draws: float) -> ThreadRuns:
+    # Wall times whose fastest ratios are the given speed-ups.
+    task = _task("interval 1-D", False, True, 10, 1e-3)
+    return ThreadRuns(task, [kernel, 9.0], [1.0, 5.0], [draws, 9.0], [1.0, 5.0])
+
+
+def test_machine_note_only_when_the_generator_loop_also_misses() -> None:
+    # The kernel is blamed (no note) unless drawing the normals alone, measured in
+    # the same run, also falls short of the target.
+    below = TARGET_THREADS - 0.1
+    assert machine_note(_threads(TARGET_THREADS, below)) is None
+    assert machine_note(_threads(below, TARGET_THREADS)) is None
+    note = machine_note(_threads(below, below - 0.05))
+    assert note is not None and f"{below - 0.05:.2f}x" in note and "machine" in note
+    line = thread_line(_threads(1.7, 1.75))
+    assert line.startswith("two threads / one thread: 1.70x") and "1.75x" in line
