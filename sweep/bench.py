@@ -19,7 +19,7 @@ import math
 import time
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -332,11 +332,7 @@ def run_bench(
                 runs.append(r)
                 report(_format_row(r.row()))
     threads = ThreadRuns(
-        _task("box 3-D (2 abs + 4 refl)", False, True, max(walkers // 2, 1), dt),
-        [],
-        [],
-        [],
-        [],
+        _task("box 3-D (2 abs + 4 refl)", False, True, max(walkers // 2, 1), dt)
     )
     threads.measure(repeats)
     for look in range(remeasure):
@@ -387,14 +383,14 @@ class ThreadRuns:
     """
 
     task: Task
-    kernel_one: list[float]
-    kernel_two: list[float]
-    draws_one: list[float]
-    draws_two: list[float]
+    kernel_one: list[float] = field(default_factory=list)
+    kernel_two: list[float] = field(default_factory=list)
+    draws_one: list[float] = field(default_factory=list)
+    draws_two: list[float] = field(default_factory=list)
 
     def measure(self, repeats: int) -> None:
         """``repeats`` more of each of the four timings."""
-        _, steps = simulate_task(self.task)
+        _, steps = simulate_task(self.task)  # also a warm-up, untimed
         d = self.task.args.start.shape[0]
 
         def draws(seed: int) -> None:
