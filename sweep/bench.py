@@ -483,15 +483,16 @@ def thread_note(measured: float) -> str | None:
 
 def machine_note(threads: ThreadRuns) -> str | None:
     """A note when the kernel's two-thread speed-up misses :data:`TARGET_THREADS` and
-    drawing the normals alone, measured in turn with it, misses it too: the
-    machine, not the kernel, then sets the limit."""
+    drawing the normals alone, measured in turn with it, misses it too: the machine
+    then holds back even the work that limits the kernel."""
     kernel, draws = threads.kernel(), threads.draws()
     if kernel >= TARGET_THREADS or draws >= TARGET_THREADS:
         return None
     return (
         f"note: drawing the normals alone, with no kernel code, gave {draws:.2f}x on "
-        f"two threads in the same run (the kernel {kernel:.2f}x): this machine's "
-        "cores, shared with other jobs, limit the speed-up, not the kernel."
+        f"two threads in the same run (the kernel {kernel:.2f}x): on this machine "
+        f"even that misses {TARGET_THREADS}x (other jobs on its cores, shared "
+        "hyperthreads, or lower clocks with both cores busy)."
     )
 
 
