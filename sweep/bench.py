@@ -272,9 +272,9 @@ class _Runs:
     case: str
     options: str
     task: Task
-    kernel: list[float]
-    ceiling: list[float]
-    numpy: list[float]
+    kernel: list[float] = field(default_factory=list)
+    ceiling: list[float] = field(default_factory=list)
+    numpy: list[float] = field(default_factory=list)
 
     def measure_pairs(self, first_seed: int) -> None:
         """:data:`PAIRS` kernel runs, each followed by a ceiling run of as many
@@ -317,14 +317,7 @@ def run_bench(
                 options = ("bridge" if bridge else "endpoint") + (
                     " + occupancy" if occupancy else ""
                 )
-                r = _Runs(
-                    case,
-                    options,
-                    _task(case, occupancy, bridge, walkers, dt),
-                    [],
-                    [],
-                    [],
-                )
+                r = _Runs(case, options, _task(case, occupancy, bridge, walkers, dt))
                 np_task = _task(case, occupancy, bridge, numpy_walkers, dt)
                 for rep in range(repeats):
                     r.measure_pairs(rep * PAIRS)
@@ -387,11 +380,14 @@ class ThreadRuns:
     kernel_two: list[float] = field(default_factory=list)
     draws_one: list[float] = field(default_factory=list)
     draws_two: list[float] = field(default_factory=list)
+    #: Walker-steps of one task (the same every run), found by the first measure.
+    steps: int = field(default=0, init=False)
 
     def measure(self, repeats: int) -> None:
         """``repeats`` more of each of the four timings."""
-        _, steps = simulate_task(self.task)  # also a warm-up, untimed
-        d = self.task.args.start.shape[0]
+        if not self.steps:
+            _, self.steps = simulate_task(self.task)  # also a warm-up, untimed
+        steps, d = self.steps, self.task.args.start.shape[0]
 
         def draws(seed: int) -> None:
             draw_normals(np.random.Generator(BIT_GENERATOR(seed)), steps, d)
