@@ -30,7 +30,7 @@ from tests.kernels.test_walkers import (
     mean_and_se,
     uncompiled_loop,
 )
-from tests.tolerances import ORDER_TOL, RTOL_F64, RTOL_NUMERIC
+from tests.tolerances import ORDER_TOL, RTOL_F64, RTOL_NUMERIC, Z_STAT
 
 # --------------------------------------------------------------------------- helpers
 
@@ -744,6 +744,39 @@ def test_step_end_exit_time_bias_is_first_order() -> None:
     order = observed_order(STEP_END_DTS, biases)
     print(f"step-end bias: observed order {order:.3f}")
     assert abs(order - 1.0) <= ORDER_TOL, (order, STEP_END_DTS, biases)
+
+
+#: The kernel issue's accuracy target: at dt = 1e-3 the mean exit time of the interval
+#: [0, 1] (D = 0.5, x0 = 0.5) is within 0.1 % of 0.25 (the unbridged walk is ~7.5 % long).
+TARGET_DT = 1e-3
+TARGET_REL = 1e-3
+#: Walkers, in chunks, for Z_STAT standard errors to fit inside TARGET_REL:
+#: 5 sd(T) / sqrt(N) = 5 * 0.204 / sqrt(2e7) = 2.3e-4 < 2.5e-4 (about 5e9 walker-steps,
+#: some 30 s on one core).
+N_TARGET_CHUNKS, N_TARGET_CHUNK = 10, 2_000_000
+
+
+def test_mean_exit_time_within_target_at_fine_step() -> None:
+    # E T = x0 (L - x0) / (2D) = 0.25: Redner (2001) Ch. 2, first passage in an
+    # interval [from memory]; analytic.md C1 (sweep.analytic.interval_mean_exit_time).
+    exact = analytic.interval_mean_exit_time(X0_C, L_C, D_C)
+    means, variances = [], []
+    for chunk in range(N_TARGET_CHUNKS):
+        result = interval_c_run(TARGET_DT, True, N_TARGET_CHUNK, seed=720 + chunk)
+        means.append(float(result.time.mean()))
+        variances.append(float(result.time.var(ddof=1)))
+    # Equal chunks: the grand mean is the mean of the chunk means; the variance of the
+    # whole sample is the mean within-chunk variance plus the spread of the chunk means.
+    n = N_TARGET_CHUNKS * N_TARGET_CHUNK
+    mean = float(np.mean(means))
+    within = (N_TARGET_CHUNK - 1) * float(np.sum(variances))
+    between = N_TARGET_CHUNK * float(np.sum((np.asarray(means) - mean) ** 2))
+    se = math.sqrt((within + between) / (n - 1) / n)
+    assert Z_STAT * se < TARGET_REL * exact, "too few walkers to resolve the target"
+    check_z(f"exit time dt={TARGET_DT}", mean, exact, se, TARGET_DT)
+    rel = (mean - exact) / exact
+    print(f"dt={TARGET_DT}: relative error {rel:+.3e} (SE {se / exact:.1e})")
+    assert abs(rel) <= TARGET_REL, (mean, exact, se)
 
 
 #: dt ladder for the unbridged walk: at least 3.5 step-sd from each wall at the coarsest.
