@@ -62,6 +62,16 @@ class CheckReport:
     def passed(self) -> bool:
         return all(r.passed for r in self.rows)
 
+    def verdict(self) -> str:
+        """One line: all passed, how many failed, or that nothing could be compared
+        (no point has a closed form), which is not a pass."""
+        if not self.rows:
+            return "nothing compared: no point could be checked (reasons above)"
+        if self.passed:
+            return f"all {len(self.rows)} checks passed"
+        failed = sum(not r.passed for r in self.rows)
+        return f"{failed} of {len(self.rows)} checks FAILED"
+
     def to_json(self) -> str:
         return json.dumps(
             {
@@ -405,30 +415,44 @@ def format_table(
             row += (f"{r.allowance:+.3g}" if r.allowance else "0",)
         lines.append((*row, "ok" if r.passed else "FAIL"))
     widths = [max(len(row[i]) for row in lines) for i in range(len(header))]
-    text = "\n".join(
-        "  ".join(c.ljust(w) for c, w in zip(row, widths)).rstrip() for row in lines
-    )
+    blocks = []
     if values and swept:
-        legend = "\n".join(
-            f"  point {i}: " + ", ".join(f"{k} = {v}" for k, v in zip(swept, vals))
-            for i, vals in enumerate(values)
+        blocks.append(
+            "points:\n"
+            + "\n".join(
+                f"  point {i}: " + ", ".join(f"{k} = {v}" for k, v in zip(swept, vals))
+                for i, vals in enumerate(values)
+            )
         )
-        text = f"points:\n{legend}\n\n{text}"
-    for p, why in report.unchecked:
-        text += f"\npoint {p}: not checked ({why})"
-    failed = sum(not r.passed for r in report.rows)
-    verdict = (
-        "all checks passed"
-        if report.passed
-        else f"{failed} of {len(report.rows)} checks FAILED"
-    )
+    # No header over no rows: it would read like a table that lost its lines.
+    table = [
+        "  ".join(c.ljust(w) for c, w in zip(row, widths)).rstrip() for row in lines
+    ]
+    table += [f"{who}: not checked ({why})" for who, why in _unchecked_runs(report)]
+    blocks.append("\n".join(table if report.rows else table[1:]))
+    text = "\n\n".join(blocks)
+    if not report.rows:
+        return f"{text}\n\n{report.verdict()}."
     note = (
         "\nendpoint monitoring lets walkers slip out and back between steps; the expected "
         "bias column is the shifted-wall prediction (not added to the tolerance)."
         if biased
         else ""
     )
-    return f"{text}\n\n{verdict} (|z| <= {Z_PASS:g}; z = (simulated - exact) / standard error){note}"
+    return f"{text}\n\n{report.verdict()} (|z| <= {Z_PASS:g}; z = (simulated - exact) / standard error){note}"
+
+
+def _unchecked_runs(report: CheckReport) -> list[tuple[str, str]]:
+    """Unchecked points, consecutive ones with the same reason merged ("points 0-8")."""
+    runs: list[list[object]] = []
+    for p, why in report.unchecked:
+        if runs and runs[-1][2] == why and runs[-1][1] == p - 1:
+            runs[-1][1] = p
+        else:
+            runs.append([p, p, why])
+    return [
+        (f"point {a}" if a == b else f"points {a}-{b}", str(why)) for a, b, why in runs
+    ]
 
 
 def _finite(row: dict[str, object]) -> dict[str, object]:

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import logging
+import os
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -47,6 +48,13 @@ def build_parser() -> argparse.ArgumentParser:
 
     status = sub.add_parser("status", help="progress of a store, per point")
     status.add_argument("store")
+
+    summary = sub.add_parser(
+        "summary",
+        help="headline numbers per point: censoring, mean first-passage time, "
+        "splitting, with 95 %% intervals",
+    )
+    summary.add_argument("store")
 
     check = sub.add_parser("check", help="compare a store with analytic results")
     check.add_argument("store")
@@ -121,6 +129,8 @@ def _dispatch(args: argparse.Namespace) -> int:
         return _run(args)
     if args.command == "status":
         return _status(args)
+    if args.command == "summary":
+        return _summary(args)
     if args.command == "check":
         return _check(args)
     if args.command == "plan":
@@ -162,6 +172,13 @@ def _run(args: argparse.Namespace) -> int:
         print(
             f"sweep: stopped; {summary.store} keeps every finished task. Rerun to resume."
         )
+        if summary.abandoned:
+            # Their threads cannot be stopped and would hold up the interpreter's exit.
+            # Leaving now is safe: a task without its completion marker is simply run
+            # again by the next run, and the store's lock is already released.
+            sys.stdout.flush()
+            sys.stderr.flush()
+            os._exit(130)
         return 130
     done = summary.already_done + summary.completed
     print(
@@ -176,8 +193,16 @@ def _run(args: argparse.Namespace) -> int:
             f"{sweep.n_points} points: run `sweep check {summary.store}` for the analytic comparison."
         )
         return 0
-    report = check_dataset(open_dataset(summary.store), sweep, str(summary.store))
+    ds = open_dataset(summary.store)
+    report = check_dataset(ds, sweep, str(summary.store))
     print()
+    if report.unchecked:
+        # Points without a closed form get their numbers here; checked points show
+        # theirs in the comparison below.
+        from sweep.report import headline_table
+
+        print(headline_table(ds, sweep))
+        print()
     print(format_table(report, sweep.swept, sweep.values))
     return 0 if report.passed else 1
 
@@ -226,6 +251,15 @@ def _status(args: argparse.Namespace) -> int:
     return 0
 
 
+def _summary(args: argparse.Namespace) -> int:
+    from sweep.report import headline_table
+    from sweep.store import load_sweep, open_dataset
+
+    sweep = load_sweep(args.store)
+    print(headline_table(open_dataset(args.store), sweep))
+    return 0
+
+
 def _check(args: argparse.Namespace) -> int:
     from sweep.check import check_store, format_table
     from sweep.store import load_sweep
@@ -240,8 +274,6 @@ def _check(args: argparse.Namespace) -> int:
 
 
 def _plan(args: argparse.Namespace) -> int:
-    import os
-
     from sweep.plan import make_plan
     from sweep.sizing import human_bytes, human_seconds, memory_limit, size
     from sweep.spec import load_spec

@@ -117,6 +117,10 @@ class RunSummary:
     walker_steps: int = 0
     seconds: float = 0.0
     interrupted: bool = False
+    #: Tasks still running in this process's threads when a second Ctrl-C asked to
+    #: stop at once: their work is lost (the store is intact). The caller should exit
+    #: without waiting for them (the ``sweep`` command does).
+    abandoned: int = 0
 
     @property
     def complete(self) -> bool:
@@ -429,11 +433,19 @@ def _run_threads(
     stop = threading.Event()
     progress = Progress(summary.n_tasks, summary.already_done, options.progress, n)
 
+    # Tasks running now: on Ctrl-C dask returns at once, but the threads run on, so
+    # the run waits for them (holding the store's lock) before it returns.
+    running = _Counter()
+
     def posttask(key: Any, result: Any, dsk: Any, state: Any, worker_id: Any) -> None:
         if isinstance(result, dict) and "point" in result:
             _handle(result, summary, progress, stop)
 
-    tasks = [dask.delayed(run_task, pure=False)(str(path), t, stop) for t in pending]
+    def counted(store_path: str, task: Task) -> dict[str, Any]:
+        with running:
+            return run_task(store_path, task, stop)
+
+    tasks = [dask.delayed(counted, pure=False)(str(path), t) for t in pending]
     try:
         with Callback(posttask=posttask):
             dask.compute(*tasks, scheduler="threads", num_workers=n)
@@ -441,11 +453,43 @@ def _run_threads(
         stop.set()
         summary.interrupted = True
         sys.stderr.write(
-            "\ninterrupted: running tasks finish and are kept; rerun the same command "
-            "to resume.\n"
+            f"\ninterrupted: waiting for {running.value} running task(s) to finish "
+            "(they are kept); Ctrl-C again stops at once and loses them.\n"
         )
+        try:
+            running.wait_for_zero()
+        except KeyboardInterrupt:
+            summary.abandoned = running.value
     finally:
         progress.close()
+
+
+class _Counter:
+    """A thread-safe count of running tasks (``with counter:`` counts one)."""
+
+    def __init__(self) -> None:
+        self._value = 0
+        self._changed = threading.Condition()
+
+    @property
+    def value(self) -> int:
+        with self._changed:
+            return self._value
+
+    def __enter__(self) -> None:
+        with self._changed:
+            self._value += 1
+
+    def __exit__(self, *exc: object) -> None:
+        with self._changed:
+            self._value -= 1
+            self._changed.notify_all()
+
+    def wait_for_zero(self) -> None:
+        # Short timeouts keep the wait interruptible by Ctrl-C.
+        with self._changed:
+            while self._value:
+                self._changed.wait(0.1)
 
 
 def _run_distributed(

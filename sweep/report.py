@@ -9,6 +9,7 @@ table. Matplotlib runs with the non-interactive Agg backend.
 from __future__ import annotations
 
 import html
+import math
 from pathlib import Path
 
 import matplotlib
@@ -66,6 +67,89 @@ def write_report(path: str | Path, out: str | Path) -> Path:
     page = out / "index.html"
     page.write_text(_html(sweep, ds, report, figures))
     return page
+
+
+def headline_rows(ds: xr.Dataset, sweep: Sweep) -> list[list[str]]:
+    """The headline numbers of every point as text cells, a header row first.
+
+    Columns: the point, its swept values, walkers done, the censored fraction, the mean
+    first-passage time with its 95 % interval (``estimate ± half-width``; over absorbed
+    walkers only where some are censored, marked ``*``: then a lower bound of the
+    unconditional mean), and the splitting probability of each wall that absorbs at
+    some point, with its 95 % Wilson interval. From :func:`sweep.stats.summary`.
+    """
+    s = stats.summary(ds)
+    header = ["point", *sweep.swept, "walkers", "censored"]
+    has_mean = "mean_fpt" in s
+    names = sweep.points[0].domain.wall_names()
+    walls = [
+        w
+        for w in range(len(names))
+        if "splitting" in s and any(p.domain.wall_absorbing()[w] for p in sweep.points)
+    ]
+    if has_mean:
+        header.append("mean first-passage time")
+    header += [f"P({names[w]})" for w in walls]
+    rows = [header]
+    for p in range(sweep.n_points):
+        at = s.isel(point=p)
+        censored = float(at["censored"]) if "censored" in s else math.nan
+        row = [
+            str(p),
+            *(str(v) for v in sweep.values[p]),
+            f"{int(at['walkers'])}",
+            f"{censored:.3%}" if math.isfinite(censored) else "-",
+        ]
+        if has_mean:
+            mean = float(at["mean_fpt"])
+            half = 0.5 * float(at["mean_fpt_upper"] - at["mean_fpt_lower"])
+            mark = " *" if censored > 0 else ""
+            row.append(_plus_minus(mean, half) + mark if math.isfinite(mean) else "-")
+        for w in walls:
+            split = at.isel(wall=w)
+            if not math.isfinite(float(split["splitting"])):
+                row.append("-")  # no finished walkers yet
+                continue
+            row.append(
+                f"{float(split['splitting']):.4f} "
+                f"[{float(split['splitting_lower']):.4f}, "
+                f"{float(split['splitting_upper']):.4f}]"
+            )
+        rows.append(row)
+    return rows
+
+
+def headline_table(ds: xr.Dataset, sweep: Sweep) -> str:
+    """:func:`headline_rows` as an aligned text table, with a footnote when a mean
+    first-passage time leaves censored walkers out."""
+    rows = headline_rows(ds, sweep)
+    notes = [
+        "mean ± half-width of its 95 % interval; P(wall): splitting probability"
+        " [95 % Wilson interval]."
+    ]
+    if any(cell.endswith(" *") for row in rows[1:] for cell in row):
+        notes.append(
+            "* some walkers were still free at the horizon: the mean is over absorbed"
+            " walkers only, a lower bound of the full mean; lengthen time.horizon."
+        )
+    return "\n".join([text_table(rows), *notes])
+
+
+def _plus_minus(value: float, half: float) -> str:
+    """``value ± half`` with ``half`` to two significant digits and ``value`` to the
+    same decimal place (all of ``value``'s digits beyond are noise)."""
+    if not (half > 0 and math.isfinite(half)):
+        return f"{value:.5g} ± {half:.2g}"
+    decimals = max(0, 1 - math.floor(math.log10(half)))
+    return f"{value:.{decimals}f} ± {half:.{decimals}f}"
+
+
+def text_table(rows: list[list[str]]) -> str:
+    """Rows of text cells as left-aligned columns (the first row is the header)."""
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    return "\n".join(
+        "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in rows
+    )
 
 
 def _labels(sweep: Sweep) -> list[str]:
@@ -289,6 +373,11 @@ def _html(
     figures: list[tuple[str, str]],
 ) -> str:
     e = html.escape
+    head, *body = headline_rows(ds, sweep)
+    headline = "<tr>" + "".join(f"<th>{e(c)}</th>" for c in head) + "</tr>"
+    headline += "".join(
+        "<tr>" + "".join(f"<td>{e(c)}</td>" for c in row) + "</tr>" for row in body
+    )
     rows = "".join(
         "<tr>"
         f"<td>{r.point}</td><td>{e(r.statistic)}</td>"
@@ -302,11 +391,7 @@ def _html(
     points = "".join(
         f"<li>point {i}: {e(label)}</li>" for i, label in enumerate(_labels(sweep))
     )
-    verdict = (
-        "all analytic checks passed"
-        if report.passed
-        else f"{sum(not r.passed for r in report.rows)} analytic checks FAILED"
-    )
+    verdict = report.verdict()
     done = int(ds["done"].sum())
     total = int(ds["done"].size)
     images = "".join(
@@ -329,6 +414,11 @@ Definition: <code>{e(sweep.source)}</code>; spec hash <code>{e(ds.attrs["spec_ha
 <p><strong>Simulation results need convergence checks (time step, walker count) before
 they are relied on.</strong></p>
 <h2>Points</h2><ul>{points}</ul>
+<h2>Headline numbers</h2>
+<table>{headline}</table>
+<p>Mean first-passage time ± half-width of its 95 % interval (* over absorbed walkers
+only, where some were still free at the horizon: a lower bound of the full mean);
+P(wall): splitting probability [95 % Wilson interval].</p>
 <h2>Analytic checks: {e(verdict)}</h2>
 <table><tr><th>point</th><th>statistic</th><th>simulated ± 95 % CI</th><th>exact</th>
 <th>z</th><th>verdict</th></tr>{rows}</table>

@@ -132,6 +132,17 @@ class Domain:
             names.append("surface")
         return tuple(names)
 
+    def wall_absorbing(self) -> tuple[bool, ...]:
+        """Whether each wall of :meth:`wall_names` absorbs walkers (targets always do)."""
+        kinds: list[bool] = []
+        if self.shape == "box":
+            for low, high in zip(self.absorbing_low, self.absorbing_high):
+                kinds += [low, high]
+        kinds += [True] * len(self.targets)
+        if self.shape == "ball":
+            kinds.append(self.surface_absorbing)
+        return tuple(kinds)
+
     def contains(self, point: Sequence[float]) -> bool:
         """Whether ``point`` lies strictly inside the domain and outside every target."""
         if self.shape == "box":

@@ -69,6 +69,11 @@ def assert_stores_identical(a: Path, b: Path) -> None:
         )
 
 
+#: Seconds a subprocess (a sweep command, a Dask process) may take to start, reach a
+#: state or finish before the test counts it as hanging.
+PATIENCE = 120.0
+
+
 def sweep_command() -> list[str]:
     """The installed console script, run with this interpreter."""
     return [sys.executable, "-m", "sweep.cli"]

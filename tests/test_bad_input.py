@@ -34,10 +34,8 @@ import zarr
 
 from sweep import store
 from sweep.execute import RunOptions, run
-from tests.conftest import SMALL_SPEC, assert_stores_identical, sweep_command
+from tests.conftest import PATIENCE, SMALL_SPEC, assert_stores_identical, sweep_command
 
-#: Seconds a command may take before the case counts as hanging.
-PATIENCE = 120.0
 #: For a missing scheduler file: the message must come well before the 60 s the Dask
 #: client would wait for a scheduler (the command takes about 2 s on an idle machine;
 #: a loaded 2-core CI machine takes several times that).
@@ -858,6 +856,10 @@ CASES: list[Case] = [
     store_command("check-missing-store", "check", (), "no such store"),
     store_command(
         "check-not-a-store", "check", NOT_A_STORE, "is not a brownian-sweep store"
+    ),
+    store_command("summary-missing-store", "summary", (), "no such store"),
+    store_command(
+        "summary-not-a-store", "summary", NOT_A_STORE, "is not a brownian-sweep store"
     ),
     store_command("export-missing-store", "export", (), "no such store"),
     store_command(

@@ -10,7 +10,7 @@ import sys
 from pathlib import Path
 
 from sweep import store
-from sweep.check import check_store
+from sweep.check import CheckReport, check_store, format_table
 from sweep.execute import RunOptions, run, run_task
 from sweep.plan import make_plan
 from sweep.spec import load_spec
@@ -152,3 +152,19 @@ def test_check_exit_angle_endpoint_allowance(tmp_path: Path) -> None:
     out = _ball_store(tmp_path, 2, [0.85, 0.0], monitoring='monitoring = "endpoint"')
     rows = [r for r in check_store(out).rows if r.statistic == "E[cos exit angle]"]
     assert len(rows) == 1 and rows[0].allowance < 0
+
+
+def test_nothing_compared_is_not_a_pass_and_reasons_are_merged() -> None:
+    unchecked = (
+        (0, "uniform start"),
+        (1, "uniform start"),
+        (2, "no tasks"),
+        (4, "no tasks"),
+    )
+    report = CheckReport("s.zarr", (), unchecked)
+    text = format_table(report)
+    assert "points 0-1: not checked (uniform start)" in text
+    assert "point 2: not checked (no tasks)" in text
+    assert "point 4: not checked (no tasks)" in text
+    assert "point  statistic" not in text and "passed" not in text
+    assert report.verdict().startswith("nothing compared")

@@ -20,12 +20,10 @@ import pytest
 
 from sweep import store
 from sweep.execute import RunOptions, run
-from tests.conftest import SMALL_SPEC, assert_stores_identical
+from tests.conftest import PATIENCE, SMALL_SPEC, assert_stores_identical
 
 pytestmark = pytest.mark.distributed
 
-#: Seconds to wait for processes to start, connect or finish.
-PATIENCE = 120.0
 BIN = Path(sys.executable).parent
 
 

@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
+import re
+import subprocess
 from pathlib import Path
 
+import sweep
+from sweep import stats
 from sweep.execute import RunOptions, run
-from sweep.report import write_report
-from tests.conftest import SMALL_SPEC
+from sweep.report import _plus_minus, write_report
+from tests.conftest import PATIENCE, SMALL_SPEC, sweep_command
 
 PLANE = """
 [sweep]
@@ -45,11 +49,83 @@ def _report(tmp_path: Path, text: str) -> str:
 
 def test_report_1d_has_figures_and_check_table(tmp_path: Path) -> None:
     text = _report(tmp_path, SMALL_SPEC)
-    assert "all analytic checks passed" in text
+    assert re.search(r"all \d+ checks passed", text)
+    assert "Headline numbers" in text and "mean first-passage time" in text
     assert "survival S(t=" in text and "need convergence checks" in text
 
 
 def test_report_2d_has_heat_maps_and_checks(tmp_path: Path) -> None:
     text = _report(tmp_path, PLANE)
-    assert "analytic checks passed" in text
+    assert re.search(r"all \d+ checks passed", text)
     assert "occupancy.png" in text
+
+
+# Uniform starts have no closed form here, and a short horizon leaves walkers free.
+UNCHECKED = (
+    SMALL_SPEC.replace("start = [0.3]", 'start = "uniform"')
+    .replace("horizon = 3.0", "horizon = 0.4")
+    .replace("stop = 1.0", "stop = 0.4")
+)
+
+
+def test_headline_numbers_without_closed_form(
+    tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    spec = tmp_path / "u.toml"
+    spec.write_text(UNCHECKED)
+    out = tmp_path / "u.zarr"
+
+    def sweep_cli(*args: str) -> subprocess.CompletedProcess[str]:
+        return subprocess.run(
+            [*sweep_command(), *args],
+            env=cli_env,
+            capture_output=True,
+            text=True,
+            timeout=PATIENCE,
+        )
+
+    ran = sweep_cli("run", str(spec), "--store", str(out), "--threads", "2", "--quiet")
+    assert ran.returncode == 0, ran.stderr
+    # Nothing to compare is said as such, not as a pass, by run, check and report.
+    assert "nothing compared" in ran.stdout and "passed" not in ran.stdout
+    checked = sweep_cli("check", str(out))
+    assert checked.returncode == 0, checked.stderr
+    assert (
+        "nothing compared" in checked.stdout
+        and "point  statistic" not in checked.stdout
+    )
+    page = write_report(out, tmp_path / "report").read_text()
+    assert "nothing compared" in page
+
+    shown = sweep_cli("summary", str(out))
+    assert shown.returncode == 0, shown.stderr
+    assert shown.stdout in ran.stdout  # run prints the same table
+    lines = shown.stdout.splitlines()
+    header = lines[0].split("  ")
+    assert "P(x_low)" in lines[0] and "P(x_high)" in lines[0], lines[0]
+    # Every cell is the value of sweep.stats.summary, as formatted.
+    numbers = stats.summary(sweep.open(out))
+    for p in range(2):
+        row = lines[1 + p]
+        at = numbers.isel(point=p)
+        assert row.startswith(f"{p}  "), row
+        assert f"  {int(at['walkers'])}  " in row
+        assert f"{float(at['censored']):.3%}" in row
+        half = 0.5 * float(at["mean_fpt_upper"] - at["mean_fpt_lower"])
+        assert _plus_minus(float(at["mean_fpt"]), half) + " *" in row
+        for name in ("x_low", "x_high"):
+            split = at.sel(wall=name)
+            assert (
+                f"{float(split['splitting']):.4f} "
+                f"[{float(split['splitting_lower']):.4f}, "
+                f"{float(split['splitting_upper']):.4f}]"
+            ) in row
+    assert float(numbers["censored"].min()) > 0, "horizon too long for the footnote"
+    assert "lower bound of the full mean" in shown.stdout, header
+
+
+def test_plus_minus_rounds_to_the_interval() -> None:
+    assert _plus_minus(7.0622, 0.18) == "7.06 ± 0.18"
+    assert _plus_minus(0.41858, 0.004) == "0.4186 ± 0.0040"
+    assert _plus_minus(1234.5, 25.0) == "1234 ± 25"
+    assert _plus_minus(0.5, 0.0) == "0.5 ± 0"

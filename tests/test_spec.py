@@ -1992,6 +1992,16 @@ def test_domain_wall_names_box_then_targets() -> None:
     )
     assert domain.absorbing_low == (True, False, False)
     assert domain.absorbing_high == (True, False, True)
+    assert domain.wall_absorbing() == (
+        True,
+        True,
+        False,
+        False,
+        False,
+        True,
+        True,
+        True,
+    )
 
 
 def test_domain_wall_names_beyond_three_axes() -> None:
@@ -2021,7 +2031,9 @@ def test_domain_wall_names_keep_infinite_sides() -> None:
 
 def test_domain_wall_names_ball_targets_then_surface() -> None:
     text = spec(DISK, domain__targets=[{"center": [-0.5, 0.0], "radius": 0.1}])
-    assert parse(text).points[0].domain.wall_names() == ("target_0", "surface")
+    domain = parse(text).points[0].domain
+    assert domain.wall_names() == ("target_0", "surface")
+    assert domain.wall_absorbing() == (True, domain.surface_absorbing)
     assert parse(dumps(DISK)).points[0].domain.wall_names() == ("surface",)
 
 
