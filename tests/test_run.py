@@ -366,16 +366,22 @@ def test_ctrl_c_stops_cleanly_and_resumes(
     assert_stores_identical(reference, out)
 
 
+def slow_spec(tmp_path: Path, dt: float, walkers: int) -> Path:
+    """The small sweep with a finer step and more walkers, in tasks of 5000 walkers."""
+    path = tmp_path / "slow.toml"
+    path.write_text(
+        SMALL_SPEC.replace("dt = 1e-3", f"dt = {dt!r}")
+        .replace("walkers = 3000", f"walkers = {walkers}")
+        .replace("chunk = 500", "chunk = 5000")
+    )
+    return path
+
+
 def test_second_ctrl_c_stops_at_once(tmp_path: Path, cli_env: dict[str, str]) -> None:
     """The first Ctrl-C waits for running tasks; a second leaves them (their threads
     cannot be stopped) and exits at once, with the lock released."""
-    spec = tmp_path / "long.toml"
     # One task of some 1e9 walker-steps: seconds to minutes, far beyond the signals.
-    spec.write_text(
-        SMALL_SPEC.replace("dt = 1e-3", "dt = 1e-6")
-        .replace("walkers = 3000", "walkers = 5000")
-        .replace("chunk = 500", "chunk = 5000")
-    )
+    spec = slow_spec(tmp_path, dt=1e-6, walkers=5000)
     out = tmp_path / "s.zarr"
     proc = subprocess.Popen(
         [*sweep_command(), "run", str(spec), "--store", str(out), "--threads", "1"],
@@ -449,12 +455,7 @@ def spec_with_walkers(tmp_path: Path) -> Path:
 def test_status_while_another_process_runs(
     small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
 ) -> None:
-    slow = tmp_path / "slow.toml"
-    slow.write_text(
-        SMALL_SPEC.replace("dt = 1e-3", "dt = 2e-5")
-        .replace("walkers = 3000", "walkers = 60000")
-        .replace("chunk = 500", "chunk = 5000")
-    )
+    slow = slow_spec(tmp_path, dt=2e-5, walkers=60000)
     out = tmp_path / "s.zarr"
     proc = subprocess.Popen(
         [
