@@ -414,7 +414,6 @@ def format_table(
         if biased:
             row += (f"{r.allowance:+.3g}" if r.allowance else "0",)
         lines.append((*row, "ok" if r.passed else "FAIL"))
-    widths = [max(len(row[i]) for row in lines) for i in range(len(header))]
     blocks = []
     if values and swept:
         blocks.append(
@@ -425,11 +424,9 @@ def format_table(
             )
         )
     # No header over no rows: it would read like a table that lost its lines.
-    table = [
-        "  ".join(c.ljust(w) for c, w in zip(row, widths)).rstrip() for row in lines
-    ]
+    table = [text_table(lines)] if report.rows else []
     table += [f"{who}: not checked ({why})" for who, why in _unchecked_runs(report)]
-    blocks.append("\n".join(table if report.rows else table[1:]))
+    blocks.append("\n".join(table))
     text = "\n\n".join(blocks)
     if not report.rows:
         return f"{text}\n\n{report.verdict()}."
@@ -440,6 +437,14 @@ def format_table(
         else ""
     )
     return f"{text}\n\n{report.verdict()} (|z| <= {Z_PASS:g}; z = (simulated - exact) / standard error){note}"
+
+
+def text_table(rows: Sequence[Sequence[str]]) -> str:
+    """Rows of text cells as left-aligned columns (the first row is the header)."""
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    return "\n".join(
+        "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in rows
+    )
 
 
 def _unchecked_runs(report: CheckReport) -> list[tuple[str, str]]:

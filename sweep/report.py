@@ -82,11 +82,11 @@ def headline_rows(ds: xr.Dataset, sweep: Sweep) -> list[list[str]]:
     header = ["point", *sweep.swept, "walkers", "censored"]
     has_mean = "mean_fpt" in s
     names = sweep.points[0].domain.wall_names()
-    walls = [
-        w
-        for w in range(len(names))
-        if "splitting" in s and any(p.domain.wall_absorbing()[w] for p in sweep.points)
+    # Walls that absorb at some point (the others' splitting is 0 by construction).
+    absorbing = [
+        any(k) for k in zip(*(p.domain.wall_absorbing() for p in sweep.points))
     ]
+    walls = [w for w, a in enumerate(absorbing) if a] if "splitting" in s else []
     if has_mean:
         header.append("mean first-passage time")
     header += [f"P({names[w]})" for w in walls]
@@ -132,7 +132,7 @@ def headline_table(ds: xr.Dataset, sweep: Sweep) -> str:
             "* some walkers were still free at the horizon: the mean is over absorbed"
             " walkers only, a lower bound of the full mean; lengthen time.horizon."
         )
-    return "\n".join([text_table(rows), *notes])
+    return "\n".join([check.text_table(rows), *notes])
 
 
 def _plus_minus(value: float, half: float) -> str:
@@ -142,14 +142,6 @@ def _plus_minus(value: float, half: float) -> str:
         return f"{value:.5g} ± {half:.2g}"
     decimals = max(0, 1 - math.floor(math.log10(half)))
     return f"{value:.{decimals}f} ± {half:.{decimals}f}"
-
-
-def text_table(rows: list[list[str]]) -> str:
-    """Rows of text cells as left-aligned columns (the first row is the header)."""
-    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
-    return "\n".join(
-        "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in rows
-    )
 
 
 def _labels(sweep: Sweep) -> list[str]:
