@@ -1,7 +1,8 @@
 """The ``sweep`` command line: parses arguments and calls the public API, nothing more.
 
 Exit codes: 0 success; 1 a check failed (or tasks failed); 2 bad input, with one message
-naming the file, the key, the value and what is allowed; 130 interrupted.
+naming the file, the key, the value and what is allowed; 130 interrupted; 141 the reader
+of the output closed it early.
 """
 
 from __future__ import annotations
@@ -113,7 +114,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         level=logging.WARNING, format="sweep: %(message)s", stream=sys.stderr
     )
     try:
-        return _dispatch(args)
+        code = _dispatch(args)
+        sys.stdout.flush()  # a closed pipe shows here, not at the interpreter's exit
+        return code
     except SweepError as err:
         if args.traceback:
             raise
@@ -122,6 +125,12 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("\nsweep: interrupted.", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # The reader left early (`sweep summary STORE | head`): the rest of the output
+        # is unwanted. stdout goes to /dev/null so the interpreter's last flush does
+        # not fail again; 141 is the shell's code for a writer stopped by SIGPIPE.
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 141
 
 
 def _dispatch(args: argparse.Namespace) -> int:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import re
 import subprocess
 from pathlib import Path
@@ -128,3 +129,28 @@ def test_plus_minus_rounds_to_the_interval() -> None:
     assert _plus_minus(0.41858, 0.004) == "0.4186 ± 0.0040"
     assert _plus_minus(1234.5, 25.0) == "1234 ± 25"
     assert _plus_minus(0.5, 0.0) == "0.5 ± 0"
+
+
+def test_closed_output_pipe_ends_quietly(
+    tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    """`sweep summary STORE | head -1`: the reader leaves early; no traceback."""
+    spec = tmp_path / "s.toml"
+    spec.write_text(SMALL_SPEC)
+    out = tmp_path / "s.zarr"
+    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
+    read, write = os.pipe()
+    os.close(read)  # the reader is gone before the first line
+    try:
+        result = subprocess.run(
+            [*sweep_command(), "summary", str(out)],
+            env=cli_env,
+            stdout=write,
+            stderr=subprocess.PIPE,
+            text=True,
+            timeout=PATIENCE,
+        )
+    finally:
+        os.close(write)
+    assert result.returncode == 141, result.stderr
+    assert result.stderr == "", result.stderr
