@@ -36,12 +36,17 @@ occupancy = { times = [0.05, 0.3], bins = 12 }
 """
 
 
-def _report(tmp_path: Path, text: str) -> str:
+def _store(tmp_path: Path, text: str) -> Path:
+    """Run the definition ``text`` into ``tmp_path / "s.zarr"`` on two threads."""
     spec = tmp_path / "s.toml"
     spec.write_text(text)
     out = tmp_path / "s.zarr"
     assert run(spec, out, RunOptions(threads=2, progress=False)).complete
-    page = write_report(out, tmp_path / "report")
+    return out
+
+
+def _report(tmp_path: Path, text: str) -> str:
+    page = write_report(_store(tmp_path, text), tmp_path / "report")
     for name in ("survival.png", "fpt_density.png", "splitting.png", "occupancy.png"):
         png = tmp_path / "report" / name
         assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n", name
@@ -135,10 +140,7 @@ def test_closed_output_pipe_ends_quietly(
     tmp_path: Path, cli_env: dict[str, str]
 ) -> None:
     """`sweep summary STORE | head -1`: the reader leaves early; no traceback."""
-    spec = tmp_path / "s.toml"
-    spec.write_text(SMALL_SPEC)
-    out = tmp_path / "s.zarr"
-    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
+    out = _store(tmp_path, SMALL_SPEC)
     read, write = os.pipe()
     os.close(read)  # the reader is gone before the first line
     try:
