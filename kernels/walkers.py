@@ -234,7 +234,7 @@ def simulate(  # type: ignore[no-untyped-def]
     out_time : float64 (n_walkers,)
         First-passage time; NaN when censored.
     out_wall : int16 (n_walkers,)
-        Index of the absorbing wall (box faces x_low, x_high, y_low, ..., then targets,
+        Index of the absorbing wall (box faces x_lower, x_upper, y_lower, ..., then targets,
         then the ball surface); -1 when censored.
     out_position : float64 (n_walkers, d)
         Position at absorption; NaN when censored.

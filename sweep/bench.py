@@ -54,7 +54,7 @@ start = [0.5]
 [domain]
 lower = [0.0]
 upper = [1.0]
-walls = { x_low = "absorbing", x_high = "absorbing" }
+walls = { x_lower = "absorbing", x_upper = "absorbing" }
 """,
     "box 3-D (2 abs + 4 refl)": """
 [motion]
@@ -64,7 +64,7 @@ start = [0.5, 0.5, 0.5]
 [domain]
 lower = [0.0, 0.0, 0.0]
 upper = [1.0, 1.0, 1.0]
-walls = { x_low = "absorbing", x_high = "absorbing", y_low = "reflecting", y_high = "reflecting", z_low = "reflecting", z_high = "reflecting" }
+walls = { x_lower = "absorbing", x_upper = "absorbing", y_lower = "reflecting", y_upper = "reflecting", z_lower = "reflecting", z_upper = "reflecting" }
 """,
     "ball 3-D": """
 [motion]
@@ -85,7 +85,7 @@ start = [0.1, 0.1, 0.1]
 [domain]
 lower = [0.0, 0.0, 0.0]
 upper = [1.0, 1.0, 1.0]
-walls = { x_low = "reflecting", x_high = "reflecting", y_low = "reflecting", y_high = "reflecting", z_low = "reflecting", z_high = "reflecting" }
+walls = { x_lower = "reflecting", x_upper = "reflecting", y_lower = "reflecting", y_upper = "reflecting", z_lower = "reflecting", z_upper = "reflecting" }
 targets = [{ center = [0.5, 0.5, 0.5], radius = 0.2 }]
 """,
 }

@@ -300,12 +300,12 @@ def _splitting_rows(p: int, point: PointSpec, split: xr.Dataset) -> list[CheckRo
         return []
     assert m.start is not None
     exact = _exact_splitting(point)
-    est = float(split["estimate"].sel(wall="x_high"))
+    est = float(split["estimate"].sel(wall="x_upper"))
     n = float(split["n"])
     se = math.sqrt(exact * (1 - exact) / n)
     bias = _allowance(point, _exact_splitting, exact)
     source = "splitting probability (Redner 2001 ch. 2) [from memory]"
-    return [_row(p, "P(exit at x_high)", est, se, exact, source, bias)]
+    return [_row(p, "P(exit at x_upper)", est, se, exact, source, bias)]
 
 
 def _exact_splitting(point: PointSpec) -> float:

@@ -255,7 +255,7 @@ def warm_up() -> None:
         [domain]
         lower = 0.0
         upper = 1.0
-        walls = { x_low = "absorbing", x_high = "reflecting" }
+        walls = { x_lower = "absorbing", x_upper = "reflecting" }
         """,
         source="<warm-up>",
     )

@@ -249,7 +249,7 @@ horizon = 2.0
 [domain]
 lower = {[0.0 for _ in axes]}
 upper = {[1.0 for _ in axes]}
-walls = {{ {", ".join(f'{a}_low = "absorbing", {a}_high = "absorbing"' for a in _axes(dimension))} }}
+walls = {{ {", ".join(f'{a}_lower = "absorbing", {a}_upper = "absorbing"' for a in _axes(dimension))} }}
 """
     task: Task = make_plan(parse_spec(text, source="<calibration>")).tasks[0]
     simulate_task(task)  # compile

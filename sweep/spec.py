@@ -26,6 +26,8 @@ from sweep.errors import SpecError
 
 WallKind = Literal["absorbing", "reflecting"]
 WALL_KINDS: tuple[str, ...] = ("absorbing", "reflecting")
+#: Box-wall suffixes of earlier versions, refused with a message naming the new one.
+_OLD_SIDES: dict[str, str] = {"low": "lower", "high": "upper"}
 MONITORING: tuple[str, ...] = ("bridge", "endpoint")
 SHAPES: tuple[str, ...] = ("box", "ball")
 MAX_DIMENSION = 8
@@ -119,14 +121,14 @@ class Domain:
     def wall_names(self) -> tuple[str, ...]:
         """Names of every wall in the order of stored wall indices.
 
-        Box faces ``<axis>_low``, ``<axis>_high`` come first (also reflecting ones, so
+        Box faces ``<axis>_lower``, ``<axis>_upper`` come first (also reflecting ones, so
         indices do not depend on wall kinds), then ``target_<i>``, then ``surface``
         for a ball.
         """
         names: list[str] = []
         if self.shape == "box":
             for axis in axis_names(self.dimension):
-                names += [f"{axis}_low", f"{axis}_high"]
+                names += [f"{axis}_lower", f"{axis}_upper"]
         names += [f"target_{i}" for i in range(len(self.targets))]
         if self.shape == "ball":
             names.append("surface")
@@ -790,10 +792,16 @@ class _Parser:
                         f"on axis {axis}.",
                     )
             walls = self.table(table, "walls", "domain")
-            names = [f"{a}_{side}" for a in axes for side in ("low", "high")]
+            names = [f"{a}_{side}" for a in axes for side in ("lower", "upper")]
             for name in walls:
-                axis = name.rsplit("_", 1)[0]
-                if name not in names and name.endswith(("_low", "_high")):
+                axis, _, side = name.rpartition("_")
+                if side in _OLD_SIDES:
+                    raise self.fail(
+                        f"domain.walls.{name}",
+                        f"is the old spelling; walls are named after the lower and upper "
+                        f"keys that place them: write {axis}_{_OLD_SIDES[side]}.",
+                    )
+                if name not in names and name.endswith(("_lower", "_upper")):
                     if axis in axis_names(MAX_DIMENSION):
                         raise self.fail(
                             f"domain.walls.{name}",
@@ -805,13 +813,13 @@ class _Parser:
             low: list[bool] = []
             high: list[bool] = []
             for axis, lo, hi in zip(axes, lower, upper):
-                for side, bound, kinds in (("low", lo, low), ("high", hi, high)):
+                for side, bound, kinds in (("lower", lo, low), ("upper", hi, high)):
                     name = f"{axis}_{side}"
                     if math.isinf(bound):
                         if name in walls:
                             raise self.fail(
                                 f"domain.walls.{name}",
-                                f"is at infinity (domain.{'lower' if side == 'low' else 'upper'} "
+                                f"is at infinity (domain.{side} "
                                 f"is {bound!r}); remove it.",
                             )
                         kinds.append(False)

@@ -1220,7 +1220,7 @@ def exit_position_histogram(
     walkers, so the density integrates to the splitting probability of the wall (the
     harmonic-measure density of first-passage theory; Redner 2001 ch. 1); with
     ``conditional=True`` n is the walkers absorbed there, so it integrates to 1. A
-    coordinate that is constant on the wall (x on x_high) gives one bin around it.
+    coordinate that is constant on the wall (x on x_upper) gives one bin around it.
     Errors: binomial counts, Wilson score intervals (Wilson 1927, JASA 22:209).
 
     Parameters

@@ -31,7 +31,7 @@ horizon = 3.0
 [domain]
 lower = [0.0]
 upper = [1.0]
-walls = { x_low = "absorbing", x_high = "absorbing" }
+walls = { x_lower = "absorbing", x_upper = "absorbing" }
 
 [record]
 survival = { stop = 1.0, points = 11 }

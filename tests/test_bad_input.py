@@ -80,10 +80,10 @@ horizon = 1.0
 [domain]
 lower = [0.0, 0.0, 0.0]
 upper = [1.0, 1.0, 1.0]
-walls = { x_low = "absorbing", x_high = "absorbing", y_low = "absorbing", y_high = "absorbing", z_low = "absorbing", z_high = "absorbing" }
+walls = { x_lower = "absorbing", x_upper = "absorbing", y_lower = "absorbing", y_upper = "absorbing", z_lower = "absorbing", z_upper = "absorbing" }
 """
 
-WALLS = 'walls = { x_low = "absorbing", x_high = "absorbing" }'
+WALLS = 'walls = { x_lower = "absorbing", x_upper = "absorbing" }'
 OCCUPANCY = "occupancy = { times = [0.2, 0.05], bins = 8 }"
 
 
@@ -353,8 +353,8 @@ CASES: list[Case] = [
     ),
     spec_case(
         "wall-kind-unknown",
-        base(('x_high = "absorbing"', 'x_high = "sticky"')),
-        "[domain.walls.x_high]",
+        base(('x_upper = "absorbing"', 'x_upper = "sticky"')),
+        "[domain.walls.x_upper]",
         "'absorbing' or 'reflecting'",
         '"sticky"',
     ),
@@ -530,16 +530,16 @@ CASES: list[Case] = [
     ),
     spec_case(
         "wall-for-missing-axis",
-        base((WALLS, WALLS[:-2] + ', y_low = "reflecting" }')),
-        "[domain.walls.y_low]",
+        base((WALLS, WALLS[:-2] + ', y_lower = "reflecting" }')),
+        "[domain.walls.y_lower]",
         "names axis 'y'",
         "only the axes x",
     ),
     spec_case(
         "wall-kind-missing",
-        base((', x_high = "absorbing"', "")),
+        base((', x_upper = "absorbing"', "")),
         "[domain.walls]",
-        "'x_high'",
+        "'x_upper'",
         '"absorbing" or "reflecting"',
     ),
     spec_case(
@@ -548,14 +548,14 @@ CASES: list[Case] = [
             ("upper = [1.0]", 'upper = ["inf"]'),
             (OCCUPANCY, OCCUPANCY[:-2] + ", lower = [0.0], upper = [1.0] }"),
         ),
-        "[domain.walls.x_high]",
+        "[domain.walls.x_upper]",
         "is at infinity",
     ),
     spec_case(
         "uniform-start-unbounded",
         base(
             ("upper = [1.0]", 'upper = ["inf"]'),
-            (', x_high = "absorbing"', ""),
+            (', x_upper = "absorbing"', ""),
             ("start = [0.3]", 'start = "uniform"'),
         ),
         "[motion.start]",

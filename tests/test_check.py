@@ -38,7 +38,7 @@ def test_check_passes_and_writes_json(small_spec: Path, tmp_path: Path) -> None:
     report = json.loads(result.stdout)
     assert report["passed"] is True
     names = {row["statistic"] for row in report["rows"]}
-    assert {"mean first-passage time", "P(exit at x_high)"} <= names
+    assert {"mean first-passage time", "P(exit at x_upper)"} <= names
     assert all(row["source"] for row in report["rows"])
 
 

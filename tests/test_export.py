@@ -43,7 +43,7 @@ def test_export_round_trip_is_exact(small_store: Path, tmp_path: Path) -> None:
         np.testing.assert_array_equal(h5["diffusivity"][...], ds.diffusivity.values)
         np.testing.assert_array_equal(h5["time"][...], ds.time.values)
         assert h5.attrs["spec_hash"] == ds.attrs["spec_hash"]
-        assert json.loads(h5.attrs["wall_names"]) == ["x_low", "x_high"]
+        assert json.loads(h5.attrs["wall_names"]) == ["x_lower", "x_upper"]
         assert "diffusivity" in h5.attrs["definition"]
     assert not list(tmp_path.glob(".s.h5.partial*"))
 

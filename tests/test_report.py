@@ -28,7 +28,7 @@ horizon = 2.0
 [domain]
 lower = [0.0, 0.0]
 upper = [1.0, 1.0]
-walls = { x_low = "absorbing", x_high = "absorbing", y_low = "reflecting", y_high = "reflecting" }
+walls = { x_lower = "absorbing", x_upper = "absorbing", y_lower = "reflecting", y_upper = "reflecting" }
 [record]
 occupancy = { times = [0.05, 0.3], bins = 12 }
 [grid]
@@ -107,7 +107,7 @@ def test_headline_numbers_without_closed_form(
     assert shown.returncode == 0, shown.stderr
     assert shown.stdout in ran.stdout  # run prints the same table
     lines = shown.stdout.splitlines()
-    assert "P(x_low)" in lines[0] and "P(x_high)" in lines[0], lines[0]
+    assert "P(x_lower)" in lines[0] and "P(x_upper)" in lines[0], lines[0]
     # Every cell is the value of sweep.stats.summary, as formatted.
     numbers = stats.summary(sweep.open(out))
     for p in range(2):
@@ -118,7 +118,7 @@ def test_headline_numbers_without_closed_form(
         assert f"{float(at['censored']):.3%}" in row
         half = 0.5 * float(at["mean_fpt_upper"] - at["mean_fpt_lower"])
         assert _plus_minus(float(at["mean_fpt"]), half) + " *" in row
-        for name in ("x_low", "x_high"):
+        for name in ("x_lower", "x_upper"):
             split = at.sel(wall=name)
             assert (
                 f"{float(split['splitting']):.4f} "

@@ -32,7 +32,7 @@ horizon = 60.0
 [domain]
 lower = [0.0, 0.0, 0.0]
 upper = [1.0, 1.0, 1.0]
-walls = { x_low = "reflecting", x_high = "reflecting", y_low = "reflecting", y_high = "reflecting", z_low = "reflecting", z_high = "reflecting" }
+walls = { x_lower = "reflecting", x_upper = "reflecting", y_lower = "reflecting", y_upper = "reflecting", z_lower = "reflecting", z_upper = "reflecting" }
 targets = [{ center = [0.5, 0.5, 0.5], radius = 0.1 }]
 [grid]
 "domain.targets.0.radius" = [0.1, 0.2]

@@ -145,7 +145,7 @@ LINE: dict[str, Any] = {
         "shape": "box",
         "lower": [0.0],
         "upper": [1.0],
-        "walls": {"x_low": "absorbing", "x_high": "absorbing"},
+        "walls": {"x_lower": "absorbing", "x_upper": "absorbing"},
     },
 }
 
@@ -164,10 +164,10 @@ PLANE: dict[str, Any] = {
         "lower": [0.0, 0.0],
         "upper": [1.0, 1.0],
         "walls": {
-            "x_low": "absorbing",
-            "x_high": "absorbing",
-            "y_low": "reflecting",
-            "y_high": "reflecting",
+            "x_lower": "absorbing",
+            "x_upper": "absorbing",
+            "y_lower": "reflecting",
+            "y_upper": "reflecting",
         },
         "targets": [{"center": [0.75, 0.5], "radius": 0.1}],
     },
@@ -188,7 +188,7 @@ DISK: dict[str, Any] = {
 
 #: Half-line (0, inf) with an absorbing origin.
 HALF_LINE: dict[str, Any] = edited(
-    LINE, {"domain.upper": ["inf"], "domain.walls": {"x_low": "absorbing"}}
+    LINE, {"domain.upper": ["inf"], "domain.walls": {"x_lower": "absorbing"}}
 )
 
 #: Unit cube, every face absorbing, no targets.
@@ -199,7 +199,7 @@ CUBE: dict[str, Any] = {
     "domain": {
         "lower": [0.0, 0.0, 0.0],
         "upper": [1.0, 1.0, 1.0],
-        "walls": {f"{a}_{s}": "absorbing" for a in "xyz" for s in ("low", "high")},
+        "walls": {f"{a}_{s}": "absorbing" for a in "xyz" for s in ("lower", "upper")},
     },
 }
 
@@ -410,9 +410,9 @@ BAD_INPUTS = [
     ),
     bad(
         "unknown-wall-name",
-        spec(LINE, domain__walls={"x_lo": "absorbing", "x_high": "absorbing"}),
+        spec(LINE, domain__walls={"x_lo": "absorbing", "x_upper": "absorbing"}),
         "unknown key 'x_lo' in [domain.walls]",
-        "Did you mean 'x_low'?",
+        "Did you mean 'x_lower'?",
     ),
     bad(
         "unknown-record-key",
@@ -710,58 +710,64 @@ BAD_INPUTS = [
     # --- walls
     bad(
         "wall-for-missing-axis",
-        spec(PLANE, domain__walls__z_low="absorbing"),
-        "[domain.walls.z_low] names axis 'z', but this 2-dimensional domain has only "
+        spec(PLANE, domain__walls__z_lower="absorbing"),
+        "[domain.walls.z_lower] names axis 'z', but this 2-dimensional domain has only "
         "the axes x, y; remove it or raise motion.dimension.",
     ),
     bad(
         "wall-for-missing-axis-1d",
-        spec(LINE, domain__walls__y_high="reflecting"),
-        "[domain.walls.y_high] names axis 'y', but this 1-dimensional domain has only "
+        spec(LINE, domain__walls__y_upper="reflecting"),
+        "[domain.walls.y_upper] names axis 'y', but this 1-dimensional domain has only "
         "the axes x; remove it or raise motion.dimension.",
     ),
     bad(
         "wall-for-missing-axis-x3",
-        spec(PLANE, domain__walls__x3_high="absorbing"),
-        "[domain.walls.x3_high] names axis 'x3', but this 2-dimensional domain has "
+        spec(PLANE, domain__walls__x3_upper="absorbing"),
+        "[domain.walls.x3_upper] names axis 'x3', but this 2-dimensional domain has "
         "only the axes x, y;",
     ),
     bad(
         "wall-for-axis-beyond-max-dimension",
-        spec(PLANE, domain__walls__x9_low="absorbing"),
-        "unknown key 'x9_low' in [domain.walls]. Allowed keys: x_low, x_high, y_low, "
-        "y_high.",
+        spec(PLANE, domain__walls__x9_lower="absorbing"),
+        "unknown key 'x9_lower' in [domain.walls]. Allowed keys: x_lower, x_upper, y_lower, "
+        "y_upper.",
+    ),
+    bad(
+        "wall-old-spelling",
+        spec(LINE, domain__walls={"x_low": "absorbing", "x_upper": "absorbing"}),
+        "[domain.walls.x_low] is the old spelling; walls are named after the lower and "
+        "upper keys that place them: write x_lower.",
     ),
     bad(
         "wall-name-without-side",
         spec(PLANE, domain__walls__z="absorbing"),
-        "unknown key 'z' in [domain.walls]. Allowed keys: x_low, x_high, y_low, y_high.",
+        "unknown key 'z' in [domain.walls]. Allowed keys: x_lower, x_upper, y_lower, y_upper.",
     ),
     bad(
         "wall-at-infinite-side",
-        spec(HALF_LINE, domain__walls__x_high="absorbing"),
-        "[domain.walls.x_high] is at infinity (domain.upper is inf); remove it.",
+        spec(HALF_LINE, domain__walls__x_upper="absorbing"),
+        "[domain.walls.x_upper] is at infinity (domain.upper is inf); remove it.",
     ),
     bad(
         "wall-at-minus-infinity",
         spec(LINE, domain__lower=["-inf"]),
-        "[domain.walls.x_low] is at infinity (domain.lower is -inf); remove it.",
+        "[domain.walls.x_lower] is at infinity (domain.lower is -inf); remove it.",
     ),
     bad(
         "wall-kind-missing",
-        spec(PLANE, domain__walls__y_high=DELETE),
-        "[domain.walls] must give the kind of wall 'y_high' "
+        spec(PLANE, domain__walls__y_upper=DELETE),
+        "[domain.walls] must give the kind of wall 'y_upper' "
         '("absorbing" or "reflecting"); got',
     ),
     bad(
         "walls-missing",
         spec(LINE, domain__walls=DELETE),
-        "[domain.walls] must give the kind of wall 'x_low'",
+        "[domain.walls] must give the kind of wall 'x_lower'",
     ),
     bad(
         "wall-kind-unknown",
-        spec(LINE, domain__walls__x_low="sticky"),
-        "[domain.walls.x_low] must be 'absorbing' or 'reflecting'; got \"sticky\".",
+        spec(LINE, domain__walls__x_lower="sticky"),
+        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting'; got \"sticky\".",
     ),
     bad(
         "ball-wall-kind-unknown",
@@ -818,7 +824,7 @@ BAD_INPUTS = [
     ),
     bad(
         "box-key-in-ball",
-        spec(DISK, domain__walls={"x_low": "absorbing"}),
+        spec(DISK, domain__walls={"x_lower": "absorbing"}),
         "[domain.walls] belongs to a box domain; a ball takes center, radius and wall.",
     ),
     bad(
@@ -1043,8 +1049,8 @@ BAD_INPUTS = [
     ),
     bad(
         "grid-wall-key-into-walls-string",
-        spec(LINE, domain__walls="none", grid={"domain.walls.x_low": ["absorbing"]}),
-        '[grid.domain.walls.x_low] reaches into domain.walls, which is "none" and '
+        spec(LINE, domain__walls="none", grid={"domain.walls.x_lower": ["absorbing"]}),
+        '[grid.domain.walls.x_lower] reaches into domain.walls, which is "none" and '
         "not a table or list.",
     ),
     bad(
@@ -1101,11 +1107,11 @@ BAD_INPUTS = [
         spec(
             LINE,
             grid={
-                "domain.walls": [{"x_low": "absorbing", "x_high": "absorbing"}],
-                "domain.walls.x_low": ["reflecting"],
+                "domain.walls": [{"x_lower": "absorbing", "x_upper": "absorbing"}],
+                "domain.walls.x_lower": ["reflecting"],
             },
         ),
-        "[grid.domain.walls.x_low] is swept twice (also as 'domain.walls')",
+        "[grid.domain.walls.x_lower] is swept twice (also as 'domain.walls')",
     ),
     bad(
         "zip-unequal-lengths",
@@ -1157,9 +1163,9 @@ BAD_INPUTS = [
     ),
     bad(
         "grid-wall-invalid",
-        spec(LINE, grid={"domain.walls.x_low": ["absorbing", "open"]}),
-        "[domain.walls.x_low] must be 'absorbing' or 'reflecting'; got \"open\". "
-        '(at point 1: domain.walls.x_low = "open")',
+        spec(LINE, grid={"domain.walls.x_lower": ["absorbing", "open"]}),
+        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting'; got \"open\". "
+        '(at point 1: domain.walls.x_lower = "open")',
     ),
     bad(
         "grid-target-count-changes",
@@ -1336,7 +1342,7 @@ def test_load_spec_quickstart() -> None:
     assert point.motion.start == tuple(doc["motion"]["start"])
     assert point.domain.lower == tuple(doc["domain"]["lower"])
     assert point.domain.upper == tuple(doc["domain"]["upper"])
-    assert point.domain.wall_names() == ("x_low", "x_high")
+    assert point.domain.wall_names() == ("x_lower", "x_upper")
     survival = doc.get("record", {}).get("survival", {})
     assert point.record.survival_stop == survival.get("stop", point.timing.horizon)
     assert point.record.survival_points == survival.get(
@@ -1457,7 +1463,7 @@ def test_grid_nested_keys_reach_walls_and_targets() -> None:
         spec(
             PLANE,
             grid={
-                "domain.walls.y_low": ["reflecting", "absorbing"],
+                "domain.walls.y_lower": ["reflecting", "absorbing"],
                 "domain.targets.0.radius": [0.1, 0.2],
             },
         )
@@ -1500,7 +1506,7 @@ def test_domain_infinite_upper_side(upper: list[Any], lower: list[Any]) -> None:
             LINE,
             domain__lower=lower,
             domain__upper=upper,
-            domain__walls={"x_low": "absorbing"},
+            domain__walls={"x_lower": "absorbing"},
         )
     )
     domain = sweep.points[0].domain
@@ -1516,7 +1522,7 @@ def test_domain_infinite_upper_side(upper: list[Any], lower: list[Any]) -> None:
 )
 def test_domain_infinite_lower_side(lower: list[Any]) -> None:
     sweep = parse(
-        spec(LINE, domain__lower=lower, domain__walls={"x_high": "reflecting"})
+        spec(LINE, domain__lower=lower, domain__walls={"x_upper": "reflecting"})
     )
     domain = sweep.points[0].domain
     assert domain.lower == (-math.inf,)
@@ -1525,9 +1531,9 @@ def test_domain_infinite_lower_side(lower: list[Any]) -> None:
 
 
 def test_domain_inf_string_and_toml_inf_hash_equal() -> None:
-    a = parse(spec(LINE, domain__upper=["inf"], domain__walls={"x_low": "absorbing"}))
+    a = parse(spec(LINE, domain__upper=["inf"], domain__walls={"x_lower": "absorbing"}))
     b = parse(
-        spec(LINE, domain__upper=[math.inf], domain__walls={"x_low": "absorbing"})
+        spec(LINE, domain__upper=[math.inf], domain__walls={"x_lower": "absorbing"})
     )
     assert a.spec_hash == b.spec_hash
 
@@ -1538,7 +1544,7 @@ def test_domain_slab_unbounded_in_y() -> None:
             PLANE,
             domain__lower=[0.0, "-inf"],
             domain__upper=[1.0, "inf"],
-            domain__walls={"x_low": "absorbing", "x_high": "reflecting"},
+            domain__walls={"x_lower": "absorbing", "x_upper": "reflecting"},
             record={
                 "occupancy": {**OCCUPANCY, "lower": [0.0, -2.0], "upper": [1.0, 2.0]}
             },
@@ -1746,7 +1752,7 @@ horizon = 4.0
 shape = "box"
 lower = [0.0, 0.0]
 upper = [1.0, 1.0]
-walls = { x_low = "absorbing", x_high = "absorbing", y_low = "reflecting", y_high = "reflecting" }
+walls = { x_lower = "absorbing", x_upper = "absorbing", y_lower = "reflecting", y_upper = "reflecting" }
 targets = [{ center = [0.75, 0.5], radius = 0.1 }]
 
 [record]
@@ -1766,10 +1772,10 @@ occupancy = {bins = 8, times = [5e-1]}
 survival = {points = 21, stop = 2.0}
 
 [domain.walls]
-y_high = "reflecting"
-y_low = "reflecting"
-x_high = "absorbing"
-x_low = "absorbing"
+y_upper = "reflecting"
+y_lower = "reflecting"
+x_upper = "absorbing"
+x_lower = "absorbing"
 
 [time]
 horizon = 4.0
@@ -1836,7 +1842,7 @@ HASH_CHANGES: list[Any] = [
     pytest.param({"time.monitoring": "endpoint"}, id="monitoring"),
     pytest.param({"domain.lower": [-1.0, 0.0]}, id="lower"),
     pytest.param({"domain.upper": [1.0, 2.0]}, id="upper"),
-    pytest.param({"domain.walls.x_low": "reflecting"}, id="wall-kind"),
+    pytest.param({"domain.walls.x_lower": "reflecting"}, id="wall-kind"),
     pytest.param(
         {"domain.targets": [{"center": [0.7, 0.5], "radius": 0.1}]}, id="target-center"
     ),
@@ -1972,8 +1978,8 @@ def test_domain_wall_names_box_then_targets() -> None:
         motion__start=[0.25, 0.5, 0.5],
         domain__lower=[0.0, 0.0, 0.0],
         domain__upper=[1.0, 1.0, 1.0],
-        domain__walls__z_low="reflecting",
-        domain__walls__z_high="absorbing",
+        domain__walls__z_lower="reflecting",
+        domain__walls__z_upper="absorbing",
         domain__targets=[
             {"center": [0.75, 0.5, 0.5], "radius": 0.1},
             {"center": [0.5, 0.75, 0.5], "radius": 0.1},
@@ -1981,12 +1987,12 @@ def test_domain_wall_names_box_then_targets() -> None:
     )
     domain = parse(text).points[0].domain
     assert domain.wall_names() == (
-        "x_low",
-        "x_high",
-        "y_low",
-        "y_high",
-        "z_low",
-        "z_high",
+        "x_lower",
+        "x_upper",
+        "y_lower",
+        "y_upper",
+        "z_lower",
+        "z_upper",
         "target_0",
         "target_1",
     )
@@ -2009,7 +2015,7 @@ def test_domain_wall_names_beyond_three_axes() -> None:
     walls = {
         f"{a}_{s}": "absorbing"
         for a in ("x", "y", "z", "x3", "x4")
-        for s in ("low", "high")
+        for s in ("lower", "upper")
     }
     text = spec(
         LINE,
@@ -2021,12 +2027,12 @@ def test_domain_wall_names_beyond_three_axes() -> None:
     )
     names = parse(text).points[0].domain.wall_names()
     assert names == tuple(walls)
-    assert names[6:] == ("x3_low", "x3_high", "x4_low", "x4_high")
+    assert names[6:] == ("x3_lower", "x3_upper", "x4_lower", "x4_upper")
 
 
 def test_domain_wall_names_keep_infinite_sides() -> None:
     domain = parse(dumps(HALF_LINE)).points[0].domain
-    assert domain.wall_names() == ("x_low", "x_high")
+    assert domain.wall_names() == ("x_lower", "x_upper")
 
 
 def test_domain_wall_names_ball_targets_then_surface() -> None:
@@ -2066,7 +2072,7 @@ FUZZ_PATHS = _paths(QUICKSTART_DOC) + [
     ("domain", "center"),
     ("domain", "radius"),
     ("domain", "wall"),
-    ("domain", "walls", "y_low"),
+    ("domain", "walls", "y_lower"),
     ("record", "per_walker"),
     ("record", "occupancy", "lower"),
     ("record", "occupancy", "upper"),
@@ -2074,7 +2080,7 @@ FUZZ_PATHS = _paths(QUICKSTART_DOC) + [
     ("grid", "motion.start"),
     ("grid", "domain.upper"),
     ("grid", "domain.walls"),
-    ("grid", "domain.walls.x_low"),
+    ("grid", "domain.walls.x_lower"),
     ("grid", "domain.targets"),
     ("grid", "domain.targets.0.center"),
     ("grid", "motion.dimension"),
@@ -2083,7 +2089,7 @@ FUZZ_PATHS = _paths(QUICKSTART_DOC) + [
 
 _KEY_WORDS = sorted(
     {str(p[-1]) for p in FUZZ_PATHS if isinstance(p[-1], str)}
-    | {"center", "radius", "x_low", "x_high", "stop", "points", "times", "bins"}
+    | {"center", "radius", "x_lower", "x_upper", "stop", "points", "times", "bins"}
 )
 
 _scalars = st.one_of(
@@ -2193,7 +2199,7 @@ SWEPT_DOC = edited(
     PLANE,
     {
         "record": {"survival": {"points": 5}, "occupancy": {"times": [0.5], "bins": 4}},
-        ("grid", "domain.walls.y_low"): ["reflecting", "absorbing"],
+        ("grid", "domain.walls.y_lower"): ["reflecting", "absorbing"],
         ("grid", "time.horizon"): [4.0, 2.0],
         "zip": [
             {
@@ -2206,7 +2212,7 @@ SWEPT_DOC = edited(
 SWEPT_PATHS = _paths(SWEPT_DOC) + [
     ("grid", "domain.targets.1.center"),
     ("grid", "domain.targets.0"),
-    ("grid", "domain.walls.z_low"),
+    ("grid", "domain.walls.z_lower"),
     ("zip", 0, "time.dt"),
     ("zip", 0, "domain.targets.0.center"),
     ("zip", 1),
@@ -2308,13 +2314,13 @@ def test_grid_other_date_time_values_raise_spec_error(value: str) -> None:
 
 
 def test_grid_wall_key_into_walls_string_raises_spec_error() -> None:
-    text = _with_grid(LINE, "domain.walls.x_low", ["absorbing"], domain__walls="none")
+    text = _with_grid(LINE, "domain.walls.x_lower", ["absorbing"], domain__walls="none")
     with pytest.raises(SpecError) as info:
         parse(text)
     # startswith: the message should also gain the point context (see
     # test_grid_key_reaching_past_list_end_names_point).
     assert str(info.value).startswith(
-        f"{SOURCE}: [grid.domain.walls.x_low] reaches into domain.walls, which is "
+        f"{SOURCE}: [grid.domain.walls.x_lower] reaches into domain.walls, which is "
         '"none" and not a table or list.'
     )
 
@@ -2421,10 +2427,10 @@ def test_uniform_start_with_domain_covered_by_target_rejected() -> None:
     ("key", "values", "changes", "location"),
     [
         pytest.param(
-            "domain.walls.x_low",
+            "domain.walls.x_lower",
             ["absorbing"],
             {"domain__walls": []},
-            "[grid.domain.walls.x_low] reaches into domain.walls",
+            "[grid.domain.walls.x_lower] reaches into domain.walls",
             id="walls-list",
         ),
         pytest.param(

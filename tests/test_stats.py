@@ -32,8 +32,8 @@ REPLICATIONS = 300
 LEVEL = 0.95
 
 #: Wall names of the synthetic 1-D and 2-D domains.
-WALLS_1D = ["x_low", "x_high"]
-WALLS_2D = ["x_low", "x_high", "y_low", "y_high"]
+WALLS_1D = ["x_lower", "x_upper"]
+WALLS_2D = ["x_lower", "x_upper", "y_lower", "y_upper"]
 
 
 def coverage_band(level: float = LEVEL, replications: int = REPLICATIONS) -> float:
@@ -180,7 +180,7 @@ def test_fpt_density_per_wall_integrates_to_splitting() -> None:
     times = rng.exponential(size=(2, 2000))
     walls = (rng.random(times.shape) < 0.3).astype(np.int16)
     ds = make_dataset(times, 2.0, [0.0], walls=walls)
-    high = stats.fpt_density(ds, bins=10, wall="x_high")
+    high = stats.fpt_density(ds, bins=10, wall="x_upper")
     total = (high["estimate"] * high["fpt_width"]).sum("fpt_bin").values
     expected = ((ds["absorbing_wall"] == 1).sum("walker") / 2000).values
     np.testing.assert_allclose(total, expected, rtol=RTOL_F64)
@@ -384,8 +384,8 @@ def test_tail_fit_without_recorded_horizon_cuts_at_last_grid_time() -> None:
 
 
 def test_exit_position_histogram_matches_beta() -> None:
-    # Walkers leave through x_high (index 1) with probability 0.4 at y ~
-    # scipy.stats.beta(2, 3), else through x_low at y ~ uniform; bin probabilities
+    # Walkers leave through x_upper (index 1) with probability 0.4 at y ~
+    # scipy.stats.beta(2, 3), else through x_lower at y ~ uniform; bin probabilities
     # 0.4 (F(b) - F(a)).
     rng = np.random.default_rng(18)
     n = 20_000
@@ -401,7 +401,7 @@ def test_exit_position_histogram_matches_beta() -> None:
         wall_names=WALLS_2D,
     )
     edges = np.linspace(0.0, 1.0, 11)
-    result = stats.exit_position_histogram(ds, "x_high", bins=edges)
+    result = stats.exit_position_histogram(ds, "x_upper", bins=edges)
     row = result.sel(axis="y").isel(point=0)
     p = 0.4 * np.diff(scipy_stats.beta(2, 3).cdf(edges))
     exact, se = p / 0.1, np.sqrt(p * (1 - p) / n) / 0.1
@@ -413,7 +413,7 @@ def test_exit_position_histogram_matches_beta() -> None:
     ).sum("exit_bin")
     np.testing.assert_allclose(total.values, 1.0, rtol=RTOL_F64)
     with pytest.raises(ValueError, match="no wall or target named"):
-        stats.exit_position_histogram(ds, "z_high")
+        stats.exit_position_histogram(ds, "z_upper")
 
 
 def test_occupancy_density_garwood_coverage() -> None:

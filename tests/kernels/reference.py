@@ -58,7 +58,7 @@ def simulate_reference(
     time : float64 (n_walkers,)
         First-passage time; NaN when censored.
     wall : int16 (n_walkers,)
-        Absorbing face (x_low, x_high, y_low, ...); -1 when censored.
+        Absorbing face (x_lower, x_upper, y_lower, ...); -1 when censored.
     position : float64 (n_walkers, d)
         Position at absorption; NaN when censored.
     survival_count : int64 (m,)

@@ -86,7 +86,7 @@ class Domain:
 
     @property
     def n_walls(self) -> int:
-        """Wall indices in use: box faces x_low, x_high, y_low, ..., then the targets,
+        """Wall indices in use: box faces x_lower, x_upper, y_lower, ..., then the targets,
         then (ball) the ball surface; the first-passage histogram has one row each."""
         faces = 1 if self.is_ball else 2 * self.dimension
         return faces + len(self.target_radii)
