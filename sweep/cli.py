@@ -71,6 +71,24 @@ def build_parser() -> argparse.ArgumentParser:
         help="cores for the run-time estimate (default: this machine)",
     )
 
+    compare = sub.add_parser(
+        "compare",
+        help="which statistics of two stores of one study (dt and dt/2, N and 4N "
+        "walkers) differ beyond their intervals; exit 1 when any does",
+    )
+    compare.add_argument("store_a", help="store made first (e.g. at dt)")
+    compare.add_argument("store_b", help="store made after (e.g. at dt/2)")
+    compare.add_argument(
+        "--all", action="store_true", help="show every compared statistic"
+    )
+    compare.add_argument("--json", action="store_true", help="machine-readable output")
+    compare.add_argument(
+        "--alpha",
+        type=float,
+        default=0.05,  # sweep.compare.ALPHA (not imported: keeps startup fast)
+        help="family-wise false-alarm rate (default 0.05)",
+    )
+
     export = sub.add_parser("export", help="copy a store to an HDF5 file")
     export.add_argument("store")
     export.add_argument("out", help="HDF5 file to write")
@@ -148,6 +166,8 @@ def _dispatch(args: argparse.Namespace) -> int:
         return _bench(args)
     if args.command == "export":
         return _export(args)
+    if args.command == "compare":
+        return _compare(args)
     if args.command == "report":
         from sweep.report import write_report
 
@@ -155,6 +175,44 @@ def _dispatch(args: argparse.Namespace) -> int:
         print(f"wrote {page}")
         return 0
     raise AssertionError(args.command)  # argparse rejects unknown commands
+
+
+def _compare(args: argparse.Namespace) -> int:
+    import dataclasses
+    import json
+    import math
+
+    from sweep.compare import compare_stores, format_comparison
+
+    result = compare_stores(args.store_a, args.store_b, args.alpha)
+    if args.json:
+        rows = [
+            {
+                k: (None if isinstance(v, float) and not math.isfinite(v) else v)
+                for k, v in dataclasses.asdict(r).items()
+            }
+            for r in result.rows
+        ]
+        print(
+            json.dumps(
+                {
+                    "store_a": result.store_a,
+                    "store_b": result.store_b,
+                    "changed": result.changed,
+                    "alpha": result.alpha,
+                    "z_crit": result.z_crit,
+                    "compared": len(result.rows),
+                    "differ": len(result.flagged),
+                    "unmatched_a": result.unmatched_a,
+                    "unmatched_b": result.unmatched_b,
+                    "rows": rows,
+                },
+                indent=2,
+            )
+        )
+    else:
+        print(format_comparison(result, every=args.all))
+    return 1 if result.flagged else 0
 
 
 def _run(args: argparse.Namespace) -> int:

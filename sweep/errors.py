@@ -36,6 +36,10 @@ class StoreLockedError(StoreError):
     """Another runner holds the lock of a store."""
 
 
+class CompareError(SweepError, ValueError):
+    """Two stores cannot be compared point by point (not one study)."""
+
+
 class TaskError(SweepError, RuntimeError):
     """A task raised while simulating or writing; names the point and chunk."""
 
