@@ -22,7 +22,7 @@ time ``D t / L**2`` is below ``IMAGE_SWITCH`` (0.05, sheet section H) the method
 sums are used instead; they are summed until the last pair of images changes the result by
 less than ``SERIES_RTOL * 1e-2`` relative.
 
-Citation markers follow the shared reference sheet (``/work/shared/reference/analytic.md``):
+Citation markers follow the shared reference sheet (``docs/analytic-reference.md``):
 [seen] = bibliographic data and key statement seen; [memory] = chapter / section / equation
 number from memory, formula verified numerically; [derived] = derived (and verified) in the
 sheet or in this module, no published source checked.

@@ -1,7 +1,7 @@
 """Checks of ``sweep.analytic`` against independent computations.
 
 Every check names its source beside it: the published result as cited in the shared
-reference sheet (``/work/shared/reference/analytic.md``, section ids such as C2), keeping
+reference sheet (``docs/analytic-reference.md``, section ids such as C2), keeping
 the sheet's citation status ([seen] / [memory] / [derived]); the independent computation
 (``scipy.stats``, ``scipy.integrate.quad`` / ``quad_vec`` / ``solve_bvp``, image sums
 against eigen-series); or "check value from shared reference sheet" for the values the

@@ -3,7 +3,7 @@
 Balls (absorbing and reflecting surfaces), absorbing targets, uniform starts, the
 occupancy snapshots, the first-passage-time histogram and the time-step convergence of
 the absorption bias. Exact values come from ``sweep.analytic`` (vetted closed forms of
-``/work/shared/reference/analytic.md``) or scipy; each check names its published source
+``docs/analytic-reference.md``) or scipy; each check names its published source
 beside it, "[from memory]" where the sheet marks the citation so. Monte-Carlo checks are
 ``|estimate - exact| <= Z_STAT * SE`` or distribution tests with ``p >= P_MIN``, with fixed
 seeds; every statistic is printed (``pytest -s``) so the margins can be read off a run.

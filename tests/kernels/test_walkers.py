@@ -7,7 +7,7 @@ Three kinds of check:
   different orders;
 * determinism: same seed, same bits; the uncompiled step loop (``_simulate.py_func``) gives
   exactly the compiled kernel's output (numba's Generator methods reproduce NumPy's streams);
-* closed forms from ``/work/shared/reference/analytic.md`` (section named beside each
+* closed forms from ``docs/analytic-reference.md`` (section named beside each
   check), as z-scores ``|estimate - exact| <= Z_STAT * SE`` with fixed seeds.
 
 Every statistic is printed (``pytest -s``) so the margins can be read off a run.
