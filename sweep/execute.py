@@ -24,6 +24,8 @@ from typing import Any
 
 import numpy as np
 
+from kernels import spheres
+from kernels.rng import initial_state
 from kernels.walkers import simulate
 from sweep import store
 from sweep.errors import StoreError, SweepError, TaskError
@@ -145,6 +147,10 @@ def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
     out_fpt = np.zeros(
         (a.n_walls, a.fpt_bins) if a.fpt_bins else (0, 0), dtype=np.int64
     )
+    if a.scheme == "spheres":
+        return _simulate_spheres(
+            task, out_time, out_wall, out_position, out_survival, out_fpt
+        )
     steps = simulate(
         task.generator(),
         n,
@@ -196,6 +202,62 @@ def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
     return output, int(steps)
 
 
+def _simulate_spheres(
+    task: Task,
+    out_time: np.ndarray,
+    out_wall: np.ndarray,
+    out_position: np.ndarray,
+    out_survival: np.ndarray,
+    out_fpt: np.ndarray,
+) -> tuple[store.TaskOutput, int]:
+    """:func:`simulate_task` for the spheres scheme; the work returned counts jumps
+    and steps alike (moves)."""
+    a = task.args
+    moves = np.zeros(2, dtype=np.int64)
+    spheres.simulate(
+        initial_state(np.random.SeedSequence(task.entropy)),
+        task.n_walkers,
+        a.start,
+        a.uniform_start,
+        a.lower,
+        a.upper,
+        a.absorbing_low,
+        a.absorbing_high,
+        a.ball_center,
+        a.ball_radius,
+        a.ball_absorbing,
+        a.target_center,
+        a.target_radius,
+        a.diffusivity,
+        a.dt,
+        a.n_steps,
+        a.bridge,
+        a.handover,
+        a.exit_tau,
+        a.exit_dtau,
+        a.exit_s0,
+        a.exit_ds,
+        a.exit_slope,
+        a.survival_times,
+        out_time,
+        out_wall,
+        out_position,
+        out_survival,
+        a.fpt_bin_width,
+        out_fpt,
+        moves,
+    )
+    output = store.TaskOutput(
+        out_time,
+        out_wall,
+        out_position,
+        out_survival,
+        None,
+        out_fpt if a.fpt_bins else None,
+    )
+    return output, int(moves.sum())
+
+
 def run_task(
     store_path: str, task: Task, stop: threading.Event | None = None
 ) -> dict[str, Any]:
@@ -236,12 +298,12 @@ def run_task(
         }
 
 
-def warm_up() -> None:
-    """Compile the kernel once in the driver before tasks fan out."""
+def warm_up(scheme: str = "steps") -> None:
+    """Compile the kernel of ``scheme`` once in the driver before tasks fan out."""
     from sweep.spec import parse_spec
 
     tiny = parse_spec(
-        """
+        f"""
         [sweep]
         seed = 0
         walkers = 1
@@ -252,10 +314,11 @@ def warm_up() -> None:
         [time]
         dt = 0.1
         horizon = 0.2
+        scheme = "{scheme}"
         [domain]
         lower = 0.0
         upper = 1.0
-        walls = { x_lower = "absorbing", x_upper = "reflecting" }
+        walls = {{ x_lower = "absorbing", x_upper = "reflecting" }}
         """,
         source="<warm-up>",
     )
@@ -429,7 +492,8 @@ def _run_threads(
     from dask.callbacks import Callback
 
     n = options.threads or os.cpu_count() or 1
-    warm_up()
+    for scheme in sorted({t.args.scheme for t in pending}):
+        warm_up(scheme)
     stop = threading.Event()
     progress = Progress(summary.n_tasks, summary.already_done, options.progress, n)
 

@@ -11,12 +11,13 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
+from sweep.analytic import centre_exit_table
 from sweep.spec import PointSpec, Sweep, axis_names
 
 #: The bit generator of every task's stream. SFC64 (a small fast chaotic generator with
@@ -24,6 +25,14 @@ from sweep.spec import PointSpec, Sweep, axis_names
 #: normals inside numba kernels about 1.15-1.35x as fast as PCG64 on the development
 #: machines (DEVELOPERS.md, "Kernels"); streams come from SeedSequence as before.
 BIT_GENERATOR = np.random.SFC64
+
+#: The spheres scheme jumps while a walker's protective radius exceeds HANDOVER
+#: sqrt(2 D dt) and steps inside that layer. A jump of radius r advances the clock by
+#: r^2 / (2 d D) on average, i.e. HANDOVER^2 / d = 3 steps' worth (d = 3) at the
+#: layer's edge: below about sqrt(d) sigma a jump buys less time than a step, and jumps
+#: would pile up ever shorter against a surface. Three sigma keeps the layer (the only
+#: place with discretisation error) thin: a walker crosses it in about ten steps.
+HANDOVER = 3.0
 
 
 @dataclass(frozen=True)
@@ -55,6 +64,17 @@ class KernelArgs:
     n_walls: int
     fpt_bins: int
     fpt_bin_width: float
+    #: "steps" or "spheres" (then also the fields below).
+    scheme: str = "steps"
+    #: Protective radius below which the spheres scheme steps, length units.
+    handover: float = 0.0
+    #: The centre-exit inverse CDF of a d-ball (sweep.analytic.ExitTable): knot values,
+    #: slopes times the spacing, first knot, spacing, tail slope.
+    exit_tau: NDArray[np.float64] = field(default_factory=lambda: np.zeros(0))
+    exit_dtau: NDArray[np.float64] = field(default_factory=lambda: np.zeros(0))
+    exit_s0: float = 0.0
+    exit_ds: float = 1.0
+    exit_slope: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -131,6 +151,18 @@ def kernel_args(point: PointSpec) -> KernelArgs:
     targets = dom.targets
     occupancy_steps = snapshot_steps(point)
     order = np.argsort(occupancy_steps, kind="stable")
+    spheres: dict[str, Any] = {}
+    if tm.scheme == "spheres":
+        table = centre_exit_table(d)
+        spheres = dict(
+            scheme="spheres",
+            handover=HANDOVER * math.sqrt(2.0 * m.diffusivity * tm.dt),
+            exit_tau=table.tau,
+            exit_dtau=table.dtau,
+            exit_s0=table.s0,
+            exit_ds=table.ds,
+            exit_slope=table.slope,
+        )
     return KernelArgs(
         start=np.array(
             m.start if m.start is not None else [math.nan] * d, dtype=np.float64
@@ -165,6 +197,7 @@ def kernel_args(point: PointSpec) -> KernelArgs:
         n_walls=len(dom.wall_names()),
         fpt_bins=rec.fpt_bins,
         fpt_bin_width=tm.n_steps * tm.dt / max(rec.fpt_bins, 1),
+        **spheres,
     )
 
 

@@ -29,6 +29,9 @@ WALL_KINDS: tuple[str, ...] = ("absorbing", "reflecting")
 #: Box-wall suffixes of earlier versions, refused with a message naming the new one.
 _OLD_SIDES: dict[str, str] = {"low": "lower", "high": "upper"}
 MONITORING: tuple[str, ...] = ("bridge", "endpoint")
+#: Propagation schemes: fixed steps everywhere, or exact sphere jumps in the bulk with
+#: steps only near surfaces (kernels/spheres.py).
+SCHEMES: tuple[str, ...] = ("steps", "spheres")
 SHAPES: tuple[str, ...] = ("box", "ball")
 MAX_DIMENSION = 8
 #: At most this many points in one store (grid product x zip lengths).
@@ -45,7 +48,7 @@ DEFAULT_SURVIVAL_POINTS = 101
 SECTIONS: dict[str, tuple[str, ...]] = {
     "sweep": ("name", "seed", "walkers", "chunk", "description"),
     "motion": ("dimension", "diffusivity", "drift", "start"),
-    "time": ("dt", "horizon", "monitoring"),
+    "time": ("dt", "horizon", "monitoring", "scheme"),
     "domain": (
         "shape",
         "lower",
@@ -171,11 +174,16 @@ class Motion:
 
 @dataclass(frozen=True)
 class Timing:
-    """Time stepping: step ``dt`` and the censoring ``horizon`` (time units)."""
+    """Time stepping: step ``dt`` and the censoring ``horizon`` (time units).
+
+    ``scheme`` is "steps" (fixed steps everywhere) or "spheres" (exact jumps while a
+    walker is clear of every surface, steps of ``dt`` in a thin layer next to them).
+    """
 
     dt: float
     horizon: float
     monitoring: Literal["bridge", "endpoint"]
+    scheme: Literal["steps", "spheres"] = "steps"
 
     @property
     def n_steps(self) -> int:
@@ -215,10 +223,15 @@ class PointSpec:
 
     def canonical(self) -> dict[str, Any]:
         """A JSON-able dictionary of this point's parameters (used for seeding)."""
+        timing = dict(self.timing.__dict__)
+        if timing["scheme"] == "steps":
+            # The default is left out, so definitions written before the key existed
+            # keep their hash and their random streams.
+            del timing["scheme"]
         return _jsonable(
             {
                 "motion": self.motion.__dict__,
-                "time": self.timing.__dict__,
+                "time": timing,
                 "domain": {
                     **{k: v for k, v in self.domain.__dict__.items() if k != "targets"},
                     "targets": [t.__dict__ for t in self.domain.targets],
@@ -739,7 +752,27 @@ class _Parser:
         domain = self.domain(self.table(raw, "domain", ""), dimension)
         motion = self.motion(motion_raw, dimension, domain)
         record = self.record(self.table(raw, "record", ""), timing, domain)
+        if timing.scheme == "spheres":
+            self.spheres_allowed(motion, record)
         return PointSpec(motion=motion, timing=timing, domain=domain, record=record)
+
+    def spheres_allowed(self, motion: Motion, record: Record) -> None:
+        """Refuse what the sphere jumps cannot do: drift and occupancy snapshots."""
+        if any(v != 0.0 for v in motion.drift):
+            raise self.fail(
+                "motion.drift",
+                f'must be zero with time.scheme = "spheres": the jumps use the exit '
+                f"laws of free Brownian motion. Got {_toml(list(motion.drift))}; use "
+                f'time.scheme = "steps" for motion with drift.',
+            )
+        if record.occupancy_times:
+            raise self.fail(
+                "record.occupancy",
+                'is not available with time.scheme = "spheres": a walker\'s position '
+                "at a fixed time falls inside a jump, where only its exit is drawn. "
+                'Use time.scheme = "steps" for occupancy snapshots (or a second sweep '
+                "with it), or remove record.occupancy.",
+            )
 
     def timing(self, table: dict[str, Any]) -> Timing:
         self.keys(table, SECTIONS["time"], "time")
@@ -759,7 +792,8 @@ class _Parser:
         monitoring = self.choice(
             table.get("monitoring", "bridge"), "time.monitoring", MONITORING
         )
-        return Timing(dt=dt, horizon=horizon, monitoring=monitoring)  # type: ignore[arg-type]
+        scheme = self.choice(table.get("scheme", "steps"), "time.scheme", SCHEMES)
+        return Timing(dt=dt, horizon=horizon, monitoring=monitoring, scheme=scheme)  # type: ignore[arg-type]
 
     def domain(self, table: dict[str, Any], dimension: int) -> Domain:
         self.keys(table, SECTIONS["domain"], "domain")

@@ -48,6 +48,8 @@ ATTRS_KEY = "brownian_sweep"
 MARKER_DIR = "_tasks"
 LOCK_FILE = "_lock.json"
 KERNEL_FILE = Path(__file__).resolve().parent.parent / "kernels" / "walkers.py"
+#: The spheres scheme's kernel (time.scheme = "spheres").
+SPHERES_FILE = KERNEL_FILE.parent / "spheres.py"
 
 
 def tool_version() -> str:
@@ -65,6 +67,7 @@ def fingerprint() -> dict[str, str]:
 
     return {
         "kernel_sha256": hashlib.sha256(KERNEL_FILE.read_bytes()).hexdigest(),
+        "spheres_kernel_sha256": hashlib.sha256(SPHERES_FILE.read_bytes()).hexdigest(),
         "numpy": np.__version__,
         "numba": numba.__version__,
         "bit_generator": BIT_GENERATOR.__name__,
