@@ -65,7 +65,7 @@ def _exit_time(u, table, dtable, s0, ds, slope):  # type: ignore[no-untyped-def]
     ``ds``) at ``s = logit(u)``; below the first knot the first value (probability
     < 7e-13), beyond the last the slowest mode's straight line of slope ``slope``.
     """
-    s = math.log(u) - math.log1p(-u)
+    s = math.log(u / (1.0 - u))  # 1 - u is exact for u in (0, 1) on the 2^-54 grid
     pos = (s - s0) / ds
     n = table.shape[0]
     if pos <= 0.0:
@@ -129,6 +129,99 @@ def _radius(x, is_ball, ball_center, ball_radius, abs_lo, abs_hi, refl_lo, refl_
             s2 += gap * gap
         r = min(r, math.sqrt(s2) - target_radius[k])
     return r
+
+
+@njit(nogil=True, cache=True)
+def _jumps(  # type: ignore[no-untyped-def]
+    dim, x0, x1, x2, t, horizon, handover, diffusivity, is_ball, ball_center,
+    ball_radius, abs_lo, abs_hi, refl_lo, refl_hi, target_center, target_radius,
+    exit_table, exit_dtable, exit_s0, exit_ds, exit_slope, a, b, c, w,
+):  # fmt: skip
+    """Jumps of one walker in 1-3 dimensions with the position in scalars (unused axes
+    0, without faces), until its protective radius falls to the handover radius or a
+    jump passes the horizon. Same rules and draws in the same order as the array code
+    of :func:`simulate` (which handles d > 3). The scalars run three times as fast
+    (45 vs 130 ns per jump in the bench case, same run).
+
+    Returns (x0, x1, x2, t, censored, jumps, a, b, c, w).
+    """
+    n_targets = target_radius.shape[0]
+    al0, al1, al2 = _axes(abs_lo, -math.inf)
+    ah0, ah1, ah2 = _axes(abs_hi, math.inf)
+    rl0, rl1, rl2 = _axes(refl_lo, -math.inf)
+    rh0, rh1, rh2 = _axes(refl_hi, math.inf)
+    bc0, bc1, bc2 = _axes(ball_center, 0.0)
+    jumps = 0
+    while True:
+        # Protective radius (see _radius).
+        if is_ball:
+            r = ball_radius - math.sqrt(
+                (x0 - bc0) ** 2 + (x1 - bc1) ** 2 + (x2 - bc2) ** 2
+            )
+        else:
+            r = min(x0 - al0, ah0 - x0)
+            if dim >= 2:
+                r = min(r, x1 - al1, ah1 - x1)
+            if dim >= 3:
+                r = min(r, x2 - al2, ah2 - x2)
+        for k in range(n_targets):
+            c0 = target_center[k, 0]
+            g = abs(x0 - c0)
+            if not is_ball:
+                g = min(g, x0 + c0 - 2.0 * rl0, 2.0 * rh0 - c0 - x0)
+            s2 = g * g
+            if dim >= 2:
+                c1 = target_center[k, 1]
+                g = abs(x1 - c1)
+                if not is_ball:
+                    g = min(g, x1 + c1 - 2.0 * rl1, 2.0 * rh1 - c1 - x1)
+                s2 += g * g
+            if dim >= 3:
+                c2 = target_center[k, 2]
+                g = abs(x2 - c2)
+                if not is_ball:
+                    g = min(g, x2 + c2 - 2.0 * rl2, 2.0 * rh2 - c2 - x2)
+                s2 += g * g
+            r = min(r, math.sqrt(s2) - target_radius[k])
+        if r <= handover:
+            return x0, x1, x2, t, False, jumps, a, b, c, w
+        jumps += 1
+        u, a, b, c, w = uniform(a, b, c, w)
+        tau = _exit_time(
+            u + _HALF_ULP, exit_table, exit_dtable, exit_s0, exit_ds, exit_slope
+        )
+        t += tau * r * r / diffusivity
+        if t >= horizon:
+            return x0, x1, x2, t, True, jumps, a, b, c, w
+        z0, a, b, c, w = normal(a, b, c, w)
+        norm2 = z0 * z0
+        z1 = 0.0
+        z2 = 0.0
+        if dim >= 2:
+            z1, a, b, c, w = normal(a, b, c, w)
+            norm2 += z1 * z1
+        if dim >= 3:
+            z2, a, b, c, w = normal(a, b, c, w)
+            norm2 += z2 * z2
+        scale = r / math.sqrt(norm2)
+        x0 = x0 + scale * z0
+        if not is_ball and (x0 < rl0 or x0 > rh0):
+            x0 = _fold(x0, rl0, rh0)
+        if dim >= 2:
+            x1 = x1 + scale * z1
+            if not is_ball and (x1 < rl1 or x1 > rh1):
+                x1 = _fold(x1, rl1, rh1)
+        if dim >= 3:
+            x2 = x2 + scale * z2
+            if not is_ball and (x2 < rl2 or x2 > rh2):
+                x2 = _fold(x2, rl2, rh2)
+
+
+@njit(nogil=True, cache=True)
+def _axes(v, fill):  # type: ignore[no-untyped-def]
+    """The first three entries of ``v``, ``fill`` for those it lacks."""
+    n = v.shape[0]
+    return v[0], (v[1] if n > 1 else fill), (v[2] if n > 2 else fill)
 
 
 @njit(nogil=True, cache=True)
@@ -314,10 +407,28 @@ def simulate(  # type: ignore[no-untyped-def]
         t = 0.0
         hit_wall = -1
         while True:
-            r = _radius(
-                x, is_ball, ball_center, ball_radius, abs_lo, abs_hi, refl_lo,
-                refl_hi, target_center, target_radius,
-            )  # fmt: skip
+            if d <= 3:
+                x0, x1, x2, t, censored, n_jumps, a, b, c, w = _jumps(
+                    d, x[0], x[1] if d > 1 else 0.0, x[2] if d > 2 else 0.0, t,
+                    horizon, handover, diffusivity, is_ball, ball_center,
+                    ball_radius, abs_lo, abs_hi, refl_lo, refl_hi, target_center,
+                    target_radius, exit_table, exit_dtable, exit_s0, exit_ds,
+                    exit_slope, a, b, c, w,
+                )  # fmt: skip
+                jumps += n_jumps
+                if censored:
+                    break
+                x[0] = x0
+                if d > 1:
+                    x[1] = x1
+                if d > 2:
+                    x[2] = x2
+                r = 0.0  # inside the handover layer: step
+            else:
+                r = _radius(
+                    x, is_ball, ball_center, ball_radius, abs_lo, abs_hi, refl_lo,
+                    refl_hi, target_center, target_radius,
+                )  # fmt: skip
             if r > handover:
                 # 2. Jump to a uniform point of the sphere of radius r.
                 jumps += 1

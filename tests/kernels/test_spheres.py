@@ -179,10 +179,10 @@ def test_sampled_exit_time_law_matches_the_series(dimension: int) -> None:
 # --------------------------------------------------------------------------- closed forms
 
 
-@pytest.mark.parametrize("dimension", [2, 3])
+@pytest.mark.parametrize("dimension", [2, 3, 4])
 def test_mean_exit_time_from_a_ball_off_centre(dimension: int) -> None:
     # E[T] = (R^2 - r0^2) / (2 d D) (Dynkin's formula; Oksendal, Example 7.4.2, from
-    # memory; analytic.ball_mean_exit_time).
+    # memory; analytic.ball_mean_exit_time). d = 4 runs the kernel's array code.
     r0, diffusivity = 0.6, 0.5
     start = [r0] + [0.0] * (dimension - 1)
     out = run(40_000, start, ball_radius=1.0, diffusivity=diffusivity, dt=1e-5)
