@@ -362,6 +362,18 @@ def _plan(args: argparse.Namespace) -> int:
         f"  walker-steps:    about {sizing.walker_steps_expected:.3g} expected, at most "
         f"{sizing.walker_steps_bound:.3g} (no walker absorbed before the horizon)"
     )
+    spheres = [i for i, p in enumerate(sweep.points) if p.timing.scheme == "spheres"]
+    if spheres:
+        from sweep.sizing import JUMP_STEPS, PILOT_WALKERS, sphere_moves
+
+        moves = [sphere_moves(sweep.points[i]) for i in spheres]
+        jumps = sum(m[0] for m in moves) / len(moves)
+        steps = sum(m[1] for m in moves) / len(moves)
+        print(
+            f"  spheres scheme:  {len(spheres)} point(s), about {jumps:.3g} jumps and "
+            f"{steps:.3g} steps per walker (pilot of {PILOT_WALKERS} walkers per "
+            f"point); a jump counts as {JUMP_STEPS:g} walker-steps above"
+        )
     print(f"  disk:            at most {human_bytes(sizing.disk_bytes)} (uncompressed)")
     limit, where = memory_limit()
     allowed = f" ({where} allows {human_bytes(limit)})" if limit else ""

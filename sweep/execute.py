@@ -212,6 +212,21 @@ def _simulate_spheres(
 ) -> tuple[store.TaskOutput, int]:
     """:func:`simulate_task` for the spheres scheme; the work returned counts jumps
     and steps alike (moves)."""
+    output, moves = simulate_spheres_moves(
+        task, out_time, out_wall, out_position, out_survival, out_fpt
+    )
+    return output, int(moves.sum())
+
+
+def simulate_spheres_moves(
+    task: Task,
+    out_time: np.ndarray,
+    out_wall: np.ndarray,
+    out_position: np.ndarray,
+    out_survival: np.ndarray,
+    out_fpt: np.ndarray,
+) -> tuple[store.TaskOutput, np.ndarray]:
+    """Run the spheres kernel for ``task``; returns its output and (jumps, steps)."""
     a = task.args
     moves = np.zeros(2, dtype=np.int64)
     spheres.simulate(
@@ -255,7 +270,7 @@ def _simulate_spheres(
         None,
         out_fpt if a.fpt_bins else None,
     )
-    return output, int(moves.sum())
+    return output, moves
 
 
 def run_task(
