@@ -509,7 +509,9 @@ def simulate(  # type: ignore[no-untyped-def]
                 d1 = math.sqrt(r1) - target_radius[k]
                 d2 = math.sqrt(r2) - target_radius[k]
                 if d1 * d2 <= cut:
-                    f, a, b, c, w = _crossing(d1, d2, diffusivity, h, bridge, a, b, c, w)
+                    f, a, b, c, w = _crossing(
+                        d1, d2, diffusivity, h, bridge, a, b, c, w
+                    )
                     if f < frac:
                         frac = f
                         hit_wall = n_box_walls + k

@@ -122,6 +122,12 @@ def build_parser() -> argparse.ArgumentParser:
         help="rounds of further runs, at the end, for results below their target "
         "(0: none)",
     )
+    bench.add_argument(
+        "--spheres",
+        action="store_true",
+        help="instead: walkers per CPU-second of time.scheme = spheres over steps "
+        "(reflecting cube with a small target; about a minute)",
+    )
     return parser
 
 
@@ -388,6 +394,24 @@ def _plan(args: argparse.Namespace) -> int:
     return 0
 
 
+def _bench_spheres() -> int:
+    from sweep.bench_spheres import HEADER, NOTE, TARGETS, run_spheres_bench
+
+    print(NOTE)
+    print(HEADER)
+    rows = run_spheres_bench(lambda line: print(line, flush=True))
+    print("\ntargets:")
+    for row in rows:
+        target = TARGETS.get(row.radius, 0.0)
+        if target:
+            met = "met" if row.ratio >= target else "NOT met"
+            print(
+                f"  spheres / steps, a = {row.radius:g}: {row.ratio:,.0f}x "
+                f"(target >= {target:,.0f}x)  {met}"
+            )
+    return 0
+
+
 def _export(args: argparse.Namespace) -> int:
     from sweep.export import export_hdf5
 
@@ -417,6 +441,8 @@ def _index_list(text: str, option: str) -> list[int]:
 
 
 def _bench(args: argparse.Namespace) -> int:
+    if args.spheres:
+        return _bench_spheres()
     for option, value, least in (
         ("--repeats", args.repeats, 1),
         ("--walkers", args.walkers, 1),

@@ -145,3 +145,17 @@ def test_machine_note_only_when_the_generator_loop_also_misses() -> None:
     assert note is not None and f"{below - 0.05:.2f}x" in note and "machine" in note
     line = thread_line(_threads(1.7, 1.75))
     assert line.startswith("two threads / one thread: 1.70x") and "1.75x" in line
+
+
+def test_spheres_bench_rows() -> None:
+    # A smoke test of `sweep bench --spheres` with few walkers (speed is not asserted).
+    from sweep.bench_spheres import RADII, format_row, run_spheres_bench
+
+    lines: list[str] = []
+    rows = run_spheres_bench(lines.append, sphere_walkers=50, step_walkers=2)
+    assert [r.radius for r in rows] == list(RADII)
+    assert lines == [format_row(r) for r in rows]
+    for row in rows:
+        assert row.jumps > 1 and row.ratio > 0 and math.isfinite(row.sphere_mean)
+    parsed = build_parser().parse_args(["bench", "--spheres"])
+    assert parsed.spheres

@@ -96,7 +96,9 @@ def test_scheme_defaults_to_steps_and_keeps_the_hash() -> None:
     # Definitions written before the key existed keep their hash and their streams.
     assert plain.spec_hash == explicit.spec_hash
     spheres = parse_spec(
-        _spheres(SMALL_SPEC).replace("occupancy = { times = [0.2, 0.05], bins = 8 }", ""),
+        _spheres(SMALL_SPEC).replace(
+            "occupancy = { times = [0.2, 0.05], bins = 8 }", ""
+        ),
         source="a.toml",
     )
     assert spheres.points[0].timing.scheme == "spheres"
@@ -159,7 +161,9 @@ def test_both_schemes_agree_within_their_errors(tmp_path: Path) -> None:
     means = times.mean(axis=1)
     ses = times.std(axis=1, ddof=1) / math.sqrt(times.shape[1])
     z = (means[1] - means[0]) / math.hypot(*ses)
-    print(f"mean first-passage time: steps {means[0]:.5g}, spheres {means[1]:.5g}, z {z:+.2f}")
+    print(
+        f"mean first-passage time: steps {means[0]:.5g}, spheres {means[1]:.5g}, z {z:+.2f}"
+    )
     assert abs(z) <= Z_STAT
     # Splitting between the target (wall 4) and the absorbing top face (wall 3).
     p = (walls == 4).mean(axis=1)

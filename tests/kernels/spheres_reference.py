@@ -75,8 +75,13 @@ def simulate_reference(  # noqa: C901 - one rule after another, on purpose
     t = np.zeros(n_walkers)
     wall = np.full(n_walkers, -1, dtype=np.int64)
     alive = np.ones(n_walkers, dtype=bool)
-    refl_lo = [not is_ball and not absorbing_low[i] and np.isfinite(lower[i]) for i in range(d)]
-    refl_hi = [not is_ball and not absorbing_high[i] and np.isfinite(upper[i]) for i in range(d)]
+    refl_lo = [
+        not is_ball and not absorbing_low[i] and np.isfinite(lower[i]) for i in range(d)
+    ]
+    refl_hi = [
+        not is_ball and not absorbing_high[i] and np.isfinite(upper[i])
+        for i in range(d)
+    ]
 
     # Images of the targets: every combination of per-axis mirrors.
     images: list[tuple[int, NDArray[np.float64]]] = []
@@ -151,9 +156,11 @@ def simulate_reference(  # noqa: C901 - one rule after another, on purpose
                 out = rr > ball_radius
                 if not out.any():
                     break
-                y[out] = ball_center + (y[out] - ball_center) * (
-                    (2 * ball_radius - rr[out]) / rr[out]
-                )[:, None]
+                y[out] = (
+                    ball_center
+                    + (y[out] - ball_center)
+                    * ((2 * ball_radius - rr[out]) / rr[out])[:, None]
+                )
         frac = np.full(s.size, 2.0)
         hit = np.full(s.size, -1)
         surfaces = []  # (wall index, d1, d2)
@@ -162,7 +169,9 @@ def simulate_reference(  # noqa: C901 - one rule after another, on purpose
                 if absorbing_low[i]:
                     surfaces.append((2 * i, xo[:, i] - lower[i], y[:, i] - lower[i]))
                 if absorbing_high[i]:
-                    surfaces.append((2 * i + 1, upper[i] - xo[:, i], upper[i] - y[:, i]))
+                    surfaces.append(
+                        (2 * i + 1, upper[i] - xo[:, i], upper[i] - y[:, i])
+                    )
         elif ball_absorbing:
             surfaces.append(
                 (
@@ -180,7 +189,9 @@ def simulate_reference(  # noqa: C901 - one rule after another, on purpose
                 )
             )
         for index, d1, d2 in surfaces:
-            p = np.where(d2 <= 0, 1.0, np.exp(-np.maximum(d1, 0) * d2 / (diffusivity * h)))
+            p = np.where(
+                d2 <= 0, 1.0, np.exp(-np.maximum(d1, 0) * d2 / (diffusivity * h))
+            )
             crossed = rng.random(s.size) < p
             f = np.ones(s.size)
             for m in np.nonzero(crossed)[0]:

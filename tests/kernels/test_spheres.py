@@ -209,7 +209,9 @@ def test_splitting_between_concentric_spheres(dimension: int) -> None:
         exact = (1 / r0 - 1 / big) / (1 / small - 1 / big)
     assert abs(z_fraction(int((out.wall == 0).sum()), n, exact)) <= Z_STAT
     on_target = out.position[out.wall == 0]
-    np.testing.assert_allclose(np.linalg.norm(on_target, axis=1), small, rtol=RTOL_NUMERIC)
+    np.testing.assert_allclose(
+        np.linalg.norm(on_target, axis=1), small, rtol=RTOL_NUMERIC
+    )
 
 
 def test_mean_search_time_target_at_centre_of_reflecting_ball() -> None:
