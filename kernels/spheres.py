@@ -226,24 +226,25 @@ def _axes(v, fill):  # type: ignore[no-untyped-def]
 
 @njit(nogil=True, cache=True)
 def _crossing(d1, d2, diffusivity, h, bridge, a, b, c, w):  # type: ignore[no-untyped-def]
-    """Fraction (0, 1] of a step of duration ``h`` at which the surface was first
-    touched, or 2.0 if not; ``d1`` > 0 and ``d2`` are the start's and end's signed
-    distances (negative: beyond). An end inside is a crossing with probability
-    exp(-d1 d2 / (D h)); the hitting time is then tau = h U / (h + U), U inverse
+    """Fraction [0, 1] of a step of duration ``h`` at which the surface was first
+    touched, or 2.0 if not; ``d1`` and ``d2`` are the start's and end's signed
+    distances (negative: beyond). A start within ON_SURFACE sqrt(D h) is a hit at 0.
+    An end inside is a crossing with probability exp(-d1 d2 / (D h)); the hitting time is then tau = h U / (h + U), U inverse
     Gaussian(h d1 / |d2|, d1^2 / (2 D)) (Levy when d2 = 0); without the bridge the step
     end. As kernels.walkers._crossing and _hit_fraction."""
+    if d1 <= ON_SURFACE * math.sqrt(diffusivity * h):
+        # Started on the surface up to rounding: a jump's sphere touches the surface
+        # it is limited by (in 1-D one of its two points lies on it), so the walker
+        # reached it at the jump's end: a hit at once, with either monitoring. (The
+        # bridge's fraction would be of order d1^2 / (D h) < 1e-18, and its inverse-
+        # Gaussian draw loses all precision there: mean + x cancels to 0.)
+        return 0.0, a, b, c, w
     if d2 > 0.0:
         u, a, b, c, w = uniform(a, b, c, w)
         if u >= math.exp(-d1 * d2 / (diffusivity * h)):
             return 2.0, a, b, c, w
     if not bridge:
         return 1.0, a, b, c, w
-    if d1 <= ON_SURFACE * math.sqrt(diffusivity * h):
-        # Started on the surface up to rounding (a jump's sphere touches it; in 1-D
-        # one of its two points lies on it): hit at once. The exact fraction would be
-        # of order (d1^2 / (D h)) < 1e-18, and the inverse-Gaussian draw loses all
-        # precision there (mean + x cancels to 0).
-        return 0.0, a, b, c, w
     shape = d1 * d1 / (2.0 * diffusivity)
     g = abs(d2)
     if g > 0.0:
@@ -458,6 +459,8 @@ def simulate(  # type: ignore[no-untyped-def]
             steps += 1
             sigma = math.sqrt(2.0 * diffusivity * h)
             cut = BRIDGE_CUTOFF * diffusivity * h if bridge else 0.0
+            # A step starting on a surface is examined whatever the monitoring.
+            on = ON_SURFACE * math.sqrt(diffusivity * h)
             for i in range(d):
                 zi, a, b, c, w = normal(a, b, c, w)
                 xo[i] = x[i]
@@ -475,7 +478,7 @@ def simulate(  # type: ignore[no-untyped-def]
                             continue
                         d1 = xo[i] - face if side == 0 else face - xo[i]
                         d2 = x[i] - face if side == 0 else face - x[i]
-                        if d1 * d2 <= cut:
+                        if d1 <= on or d1 * d2 <= cut:
                             f, a, b, c, w = _crossing(
                                 d1, d2, diffusivity, h, bridge, a, b, c, w
                             )
@@ -493,7 +496,7 @@ def simulate(  # type: ignore[no-untyped-def]
                         r2 += (x[i] - ball_center[i]) ** 2
                     d1 = ball_radius - math.sqrt(r1)
                     d2 = ball_radius - math.sqrt(r2)
-                    if d1 * d2 <= cut:
+                    if d1 <= on or d1 * d2 <= cut:
                         f, a, b, c, w = _crossing(
                             d1, d2, diffusivity, h, bridge, a, b, c, w
                         )
@@ -508,7 +511,7 @@ def simulate(  # type: ignore[no-untyped-def]
                     r2 += (x[i] - target_center[k, i]) ** 2
                 d1 = math.sqrt(r1) - target_radius[k]
                 d2 = math.sqrt(r2) - target_radius[k]
-                if d1 * d2 <= cut:
+                if d1 <= on or d1 * d2 <= cut:
                     f, a, b, c, w = _crossing(
                         d1, d2, diffusivity, h, bridge, a, b, c, w
                     )

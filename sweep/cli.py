@@ -370,9 +370,10 @@ def _plan(args: argparse.Namespace) -> int:
     )
     spheres = [i for i, p in enumerate(sweep.points) if p.timing.scheme == "spheres"]
     if spheres:
-        from sweep.sizing import JUMP_STEPS, PILOT_WALKERS, sphere_moves
+        from sweep.sizing import JUMP_STEPS, PILOT_POINTS, PILOT_WALKERS, sphere_moves
 
-        moves = [sphere_moves(sweep.points[i]) for i in spheres]
+        stride = max(1, -(-len(spheres) // PILOT_POINTS))
+        moves = [sphere_moves(sweep.points[i]) for i in spheres[::stride]]
         jumps = sum(m[0] for m in moves) / len(moves)
         steps = sum(m[1] for m in moves) / len(moves)
         print(

@@ -7,6 +7,7 @@ kernel speed, cached by ``sweep bench`` or measured here in about a second.
 
 from __future__ import annotations
 
+import functools
 import json
 import math
 import os
@@ -103,6 +104,12 @@ PILOT_WALKERS = 64
 JUMP_STEPS = 4.0
 
 
+#: At most this many points of one sweep get a pilot run; the others of the spheres
+#: scheme are priced at the mean of those.
+PILOT_POINTS = 100
+
+
+@functools.lru_cache(maxsize=4096)
 def sphere_moves(point: PointSpec) -> tuple[float, float]:
     """Mean (jumps, steps) per walker of a spheres point, from a pilot run of
     :data:`PILOT_WALKERS` walkers with a fixed seed (no closed form predicts them)."""
@@ -149,6 +156,23 @@ def expected_steps(point: PointSpec) -> float:
     except (NotImplementedError, ValueError):
         return float(horizon_steps)
     return float(min(mean / point.timing.dt, horizon_steps))
+
+
+def _expected_per_point(sweep: Sweep) -> list[float]:
+    """:func:`expected_steps` of every point; spheres points beyond
+    :data:`PILOT_POINTS` (evenly spaced) are priced at the mean of those piloted."""
+    spheres = [i for i, p in enumerate(sweep.points) if p.timing.scheme == "spheres"]
+    stride = max(1, math.ceil(len(spheres) / PILOT_POINTS))
+    piloted = set(spheres[::stride])
+    skipped = set(spheres) - piloted
+    out = [
+        math.nan if i in skipped else expected_steps(p)
+        for i, p in enumerate(sweep.points)
+    ]
+    if piloted:
+        mean = sum(out[i] for i in piloted) / len(piloted)
+        out = [mean if math.isnan(v) else v for v in out]
+    return out
 
 
 def _narrow_escape_time(point: PointSpec) -> float | None:
@@ -305,7 +329,7 @@ def _axes(dimension: int) -> list[str]:
 def size(plan: Plan) -> Sizing:
     """Everything ``sweep plan`` prints about ``plan``."""
     sweep = plan.sweep
-    expected = sum(expected_steps(p) for p in sweep.points) * sweep.walkers
+    expected = sum(_expected_per_point(sweep)) * sweep.walkers
     warnings: list[str] = []
     for i, point in enumerate(sweep.points):
         warnings += point_warnings(i, point)

@@ -59,8 +59,8 @@ SLOW_SPHERES = """
 [sweep]
 name = "slow-spheres"
 seed = 5
-walkers = 240000
-chunk = 20000
+walkers = 120000
+chunk = 10000
 
 [motion]
 dimension = 3
@@ -266,3 +266,31 @@ def test_plan_estimates_sphere_sweeps(tmp_path: Path) -> None:
     assert result.returncode == 0, result.stderr
     assert "spheres scheme:  1 point(s), about" in result.stdout
     assert "jumps and" in result.stdout
+    # The spheres point is priced by its pilot: jumps (weighted) plus layer steps.
+    from sweep.sizing import JUMP_STEPS, _expected_per_point, sphere_moves
+
+    parsed = parse_spec(BOTH_SCHEMES, source="both.toml")
+    jumps, steps = sphere_moves(parsed.points[1])
+    assert jumps >= 1 and steps >= 0
+    assert _expected_per_point(parsed)[1] == JUMP_STEPS * jumps + steps
+
+
+def test_compare_finds_no_difference_between_the_schemes(tmp_path: Path) -> None:
+    # The same study with steps and with spheres, in two stores: `sweep compare`
+    # pairs the points and names the scheme as what changed.
+    text = BOTH_SCHEMES.split("[grid]")[0]
+    stores = []
+    for scheme in ("steps", "spheres"):
+        spec = tmp_path / f"{scheme}.toml"
+        spec.write_text(text.replace("[time]\n", f'[time]\nscheme = "{scheme}"\n'))
+        out = tmp_path / f"{scheme}.zarr"
+        assert run(spec, out, RunOptions(threads=2, progress=False)).complete
+        stores.append(str(out))
+    result = subprocess.run(
+        [*sweep_command(), "compare", *stores],
+        capture_output=True,
+        text=True,
+        timeout=PATIENCE,
+    )
+    assert result.returncode == 0, result.stdout + result.stderr
+    assert "scheme" in result.stdout and "no statistic differs" in result.stdout
