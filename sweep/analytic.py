@@ -1874,8 +1874,8 @@ def centre_exit_survival(tau: ArrayLike, dimension: int) -> FloatArray:
         ``nu = d/2 - 1``, ``w_n = j_n**(nu-1) / (2**(nu-1) Gamma(nu+1) J_{nu+1}(j_n))``.
         d = 1: ``(4/pi) sum (-1)**n/(2n+1) exp(-(2n+1)**2 pi**2 tau/4)``; d = 2:
         ``sum 2/(j_n J1(j_n)) exp(-j_n**2 tau)``; d = 3: ``2 sum (-1)**(n+1)
-        exp(-n**2 pi**2 tau)`` ([derived] from the d-dimensional radial heat equation;
-        the d = 1, 2, 3 cases agree with :func:`ball_survival` at r0 = 0).
+        exp(-n**2 pi**2 tau)`` (sheet E2 at r0 = 0 and J11; the d = 1, 2, 3 cases
+        agree with :func:`ball_survival` at r0 = 0).
         Values for ``tau < 1e-3`` (exit probability below 1e-30) are returned as 1.
 
     Notes

@@ -19,7 +19,7 @@ from numpy.typing import NDArray
 from scipy import special, stats
 
 from kernels.rng import initial_state
-from kernels.spheres import simulate
+from kernels.spheres import _exit_time, simulate
 from sweep import analytic
 from sweep.plan import HANDOVER
 from tests.kernels.spheres_reference import simulate_reference
@@ -132,17 +132,18 @@ def test_exit_table_error_is_far_below_statistical_resolution(dimension: int) ->
     table = analytic.centre_exit_table(dimension)
     print(f"d = {dimension}: Kolmogorov distance of the table {table.error:.2e}")
     assert table.error < TABLE_ERROR_MAX
-    # An independent check of the knots: the series of ball_survival (Carslaw & Jaeger
-    # Ch. VII and IX; Redner 2001 Ch. 6; interval: analytic.interval_survival) at the
-    # knots' times returns the knots' probabilities.
+    # An independent check of the knots: the series of ball_survival
+    # (docs/analytic-reference.md E2, with its short-time image form for d = 3;
+    # interval: C1, analytic.interval_survival) at the knots' times returns the knots'
+    # probabilities.
     s = table.s0 + table.ds * np.arange(table.tau.size)
     if dimension == 1:
         surv = analytic.interval_survival(table.tau, 1.0, 2.0, 1.0)
     else:
         surv = analytic.ball_survival(table.tau, 0.0, 1.0, 1.0, dimension)
     assert np.max(np.abs((1.0 - surv) - special.expit(s))) < TABLE_ERROR_MAX
-    # Mean centre-exit time 1 / (2 d) (Dynkin; analytic.ball_mean_exit_time, E1), by
-    # quadrature of the interpolant over u.
+    # Mean centre-exit time 1 / (2 d) (docs/analytic-reference.md E1), by quadrature of
+    # the interpolant over u.
     u = (np.arange(400_000) + 0.5) / 400_000
     tau = analytic.hermite(
         np.log(u) - np.log1p(-u), table.s0, table.tau, table.dtau / table.ds
@@ -151,11 +152,36 @@ def test_exit_table_error_is_far_below_statistical_resolution(dimension: int) ->
 
 
 @pytest.mark.parametrize("dimension", [1, 2, 3])
+def test_kernel_interpolates_the_table_as_its_error_was_measured(
+    dimension: int,
+) -> None:
+    # The table's error is measured on analytic.hermite; the kernel's _exit_time must
+    # be the same interpolant (and continue it beyond the knots as documented).
+    table = analytic.centre_exit_table(dimension)
+    u = np.concatenate([np.linspace(1e-6, 1 - 1e-6, 2001), [1e-14, 1 - 1e-14]])
+    got = np.array(
+        [
+            _exit_time(v, table.tau, table.dtau, table.s0, table.ds, table.slope)
+            for v in u
+        ]
+    )
+    s = np.log(u / (1 - u))
+    want = analytic.hermite(s[:-2], table.s0, table.tau, table.dtau / table.ds)
+    np.testing.assert_allclose(got[:-2], want, rtol=RTOL_NUMERIC)
+    assert got[-2] == table.tau[0]
+    last = table.s0 + table.ds * (table.tau.size - 1)
+    np.testing.assert_allclose(
+        got[-1], table.tau[-1] + (s[-1] - last) * table.slope, rtol=RTOL_NUMERIC
+    )
+
+
+@pytest.mark.parametrize("dimension", [1, 2, 3])
 def test_sampled_exit_time_law_matches_the_series(dimension: int) -> None:
     # From the centre of an absorbing ball (d = 1: the interval [-1, 1]) the first jump
     # reaches the surface: the first-passage time is one draw of the table. KS against
-    # S(t) from the eigenfunction series (Redner 2001, Ch. 1-2 and 6; Carslaw & Jaeger
-    # 1959, Ch. VII and IX; analytic.ball_survival / interval_survival).
+    # S(t) from the eigenfunction series (docs/analytic-reference.md E2 with r0 = 0 and
+    # J11; Redner 2001, Ch. 1-2 and 6, and Carslaw & Jaeger 1959, Ch. VII and IX, from
+    # memory; analytic.ball_survival / interval_survival).
     n = 20_000
     if dimension == 1:
         out = run(n, [0.0], lower=[-1.0], upper=[1.0], absorbing_low=[True],
@@ -196,8 +222,8 @@ def test_a_jump_onto_a_surface_is_a_hit_with_either_monitoring() -> None:
 
 @pytest.mark.parametrize("dimension", [2, 3, 4])
 def test_mean_exit_time_from_a_ball_off_centre(dimension: int) -> None:
-    # E[T] = (R^2 - r0^2) / (2 d D) (Dynkin's formula; Oksendal, Example 7.4.2, from
-    # memory; analytic.ball_mean_exit_time). d = 4 runs the kernel's array code.
+    # E[T] = (R^2 - r0^2) / (2 d D) (docs/analytic-reference.md E1: Dynkin's formula;
+    # Oksendal, Example 7.4.2, from memory; analytic.ball_mean_exit_time). d = 4 runs the kernel's array code.
     r0, diffusivity = 0.6, 0.5
     start = [r0] + [0.0] * (dimension - 1)
     out = run(40_000, start, ball_radius=1.0, diffusivity=diffusivity, dt=1e-5)
@@ -211,8 +237,8 @@ def test_mean_exit_time_from_a_ball_off_centre(dimension: int) -> None:
 @pytest.mark.parametrize("dimension", [2, 3])
 def test_splitting_between_concentric_spheres(dimension: int) -> None:
     # Absorbing ball wall R and absorbing target a at its centre; P(target | r0):
-    # d = 2: ln(R/r0) / ln(R/a); d = 3: (1/r0 - 1/R) / (1/a - 1/R) (Redner 2001, Ch. 6,
-    # from memory: the harmonic function of the annulus / shell).
+    # d = 2: ln(R/r0) / ln(R/a); d = 3: (1/r0 - 1/R) / (1/a - 1/R)
+    # (docs/analytic-reference.md J6; Redner 2001, Ch. 6, from memory).
     big, small, r0 = 1.0, 0.2, 0.5
     start = [r0] + [0.0] * (dimension - 1)
     n = 40_000
@@ -231,8 +257,8 @@ def test_splitting_between_concentric_spheres(dimension: int) -> None:
 
 def test_mean_search_time_target_at_centre_of_reflecting_ball() -> None:
     # Reflecting ball R, absorbing target a at the centre, d = 3:
-    # E[T] = (a^2 - r0^2) / (6 D) + R^3 (1/a - 1/r0) / (3 D) (Redner 2001, Ch. 6, from
-    # memory; /work/shared/reference/analytic.md, narrow escape from the centre).
+    # E[T] = (a^2 - r0^2) / (6 D) + R^3 (1/a - 1/r0) / (3 D) (docs/analytic-reference.md
+    # J3 with kappa -> inf: the radial backward equation, derived there).
     big, small, r0, diffusivity = 1.0, 0.2, 0.6, 1.0
     # A reflecting ball wall keeps walkers stepping in a shell of 3 sqrt(2 D dt) along
     # it, so this case takes the most steps of all: dt = 5e-5 keeps it short.
@@ -246,8 +272,8 @@ def test_mean_search_time_target_at_centre_of_reflecting_ball() -> None:
 
 
 def test_half_line_survival() -> None:
-    # S(t) = erf(x0 / sqrt(4 D t)) (Redner 2001, Ch. 2, from memory;
-    # analytic.halfline_survival). Survival counts at every grid time.
+    # S(t) = erf(x0 / sqrt(4 D t)) (docs/analytic-reference.md B1; Redner 2001, Ch. 2,
+    # from memory; analytic.halfline_survival). Survival counts at every grid time.
     x0, diffusivity, n = 1.0, 0.5, 40_000
     times = [0.0, 0.25, 0.5, 1.0, 2.0, 4.0, 8.0]
     out = run(n, [x0], lower=[0.0], upper=[math.inf], absorbing_low=[True],
@@ -262,10 +288,10 @@ def test_half_line_survival() -> None:
             assert abs(z_fraction(int(out.survival[k]), n, float(exact[k]))) <= Z_STAT
 
 
-def test_interval_survival_and_splitting() -> None:
+def test_interval_survival_and_censoring_at_the_horizon() -> None:
     # Interval [0, 1], both ends absorbing: S(t) from the eigen-series
-    # (Carslaw & Jaeger 1959, Sec. 3.3, from memory; analytic.interval_survival), and
-    # P(x_lower) = 1 - x0 (Redner 2001, Ch. 2, from memory).
+    # (docs/analytic-reference.md C1; Carslaw & Jaeger 1959, Sec. 3.3, from memory;
+    # analytic.interval_survival).
     x0, diffusivity, n = 0.3, 1.0, 40_000
     times = [0.01, 0.05, 0.1, 0.2, 0.4]
     out = run(n, [x0], lower=[0.0], upper=[1.0], absorbing_low=[True],
