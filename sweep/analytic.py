@@ -30,6 +30,7 @@ sheet or in this module, no published source checked.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -1841,8 +1842,10 @@ def _bessel_zeros(order: float, n: int) -> FloatArray:
     )
 
 
+@functools.lru_cache(maxsize=16)
 def _centre_exit_modes(dimension: int) -> tuple[FloatArray, FloatArray]:
-    """Rates ``j_n**2`` and weights of the centre-exit series of the unit d-ball."""
+    """Rates ``j_n**2`` and weights of the centre-exit series of the unit d-ball
+    (computed once per dimension; callers must not modify them)."""
     nu = dimension / 2.0 - 1.0
     zeros = _bessel_zeros(nu, _CENTRE_TERMS)
     # log of j^(nu-1) / (2^(nu-1) Gamma(nu+1) J_{nu+1}(j)) with the sign kept apart:

@@ -127,6 +127,30 @@ def z_fraction(hits: int, n: int, exact: float) -> float:
 # --------------------------------------------------------------------------- the table
 
 
+@pytest.mark.parametrize("dimension", range(1, 9))
+def test_centre_exit_series_in_any_dimension(dimension: int) -> None:
+    # The general-d series of analytic.centre_exit_survival (docs/analytic-reference.md
+    # E2 at r0 = 0): its integral is the mean exit time 1 / (2 d) (E1), and for d <= 3
+    # it equals ball_survival / interval_survival (written independently).
+    from scipy import integrate
+
+    mean, _ = integrate.quad(
+        lambda x: float(analytic.centre_exit_survival(x, dimension)), 0.0, 60.0,
+        points=[0.01, 0.1, 1.0], limit=200,
+    )  # fmt: skip
+    assert abs(mean - 1 / (2 * dimension)) < RTOL_NUMERIC
+    tau = np.array([0.005, 0.02, 0.1, 0.5, 2.0])
+    if dimension == 1:
+        exact = analytic.interval_survival(tau, 1.0, 2.0, 1.0)
+    elif dimension <= 3:
+        exact = analytic.ball_survival(tau, 0.0, 1.0, 1.0, dimension)
+    else:
+        return
+    np.testing.assert_allclose(
+        analytic.centre_exit_survival(tau, dimension), exact, atol=1e-14
+    )
+
+
 @pytest.mark.parametrize("dimension", [1, 2, 3])
 def test_exit_table_error_is_far_below_statistical_resolution(dimension: int) -> None:
     table = analytic.centre_exit_table(dimension)
