@@ -40,6 +40,14 @@ class CompareError(SweepError, ValueError):
     """Two stores cannot be compared point by point (not one study)."""
 
 
+class StoreDamagedError(StoreError):
+    """A file of a store no longer holds what was written there (checksums, counts)."""
+
+
+class StaleStoreError(StoreError):
+    """A task's store was deleted or replaced after the task was planned."""
+
+
 class TaskError(SweepError, RuntimeError):
     """A task raised while simulating or writing; names the point and chunk."""
 

@@ -9,6 +9,7 @@ bit-identical whichever is used.
 
 from __future__ import annotations
 
+import contextlib
 import errno
 import logging
 import math
@@ -274,9 +275,16 @@ def simulate_spheres_moves(
 
 
 def run_task(
-    store_path: str, task: Task, stop: threading.Event | None = None
+    store_path: str,
+    task: Task,
+    store_id: str,
+    stop: threading.Event | None = None,
 ) -> dict[str, Any]:
     """Simulate and store one task; never raises (errors come back in the summary).
+
+    ``store_id`` is the id of the store the task was planned for: a task whose store
+    was deleted or replaced meanwhile (a driver killed, its store removed and made
+    again by another run) stops before writing and writes no marker.
 
     Returns
     -------
@@ -288,6 +296,8 @@ def run_task(
     if stop is not None and stop.is_set():
         return {"point": task.point, "chunk": task.chunk, "skipped": True}
     try:
+        # Before the work too: a queued task of a dead driver stops at once.
+        store.check_store_id(Path(store_path), store_id, task)
         start = time.perf_counter()
         output, steps = simulate_task(task)
         summary = {
@@ -302,7 +312,7 @@ def run_task(
             "pid": os.getpid(),
             "thread": threading.current_thread().name,
         }
-        store.write_task(store_path, task, output, summary)
+        store.write_task(store_path, task, output, summary, store_id)
         return summary
     except Exception as err:  # reported per task; the other tasks go on
         return {
@@ -449,9 +459,9 @@ def run(
         removed = store.clean_partials(path)
         if removed:
             log.warning(
-                "%s: removed %d partial files left by a killed writer.", path, removed
+                "%s: removed %d temporary files left by a killed writer.", path, removed
             )
-        done = store.done_tasks(path)
+        store_id, done = store.resume_state(path)
         pending = [t for t in plan.tasks if (t.point, t.chunk) not in done]
         summary = RunSummary(
             store=path, n_tasks=plan.n_tasks, already_done=plan.n_tasks - len(pending)
@@ -465,9 +475,9 @@ def run(
         start = time.monotonic()
         try:
             if options.kind == "threads":
-                _run_threads(path, pending, options, summary)
+                _run_threads(path, store_id, pending, options, summary)
             else:
-                _run_distributed(path, pending, options, summary)
+                _run_distributed(path, store_id, pending, options, summary)
         finally:
             summary.seconds = time.monotonic() - start
             _log_run(
@@ -501,45 +511,65 @@ def _handle(
 
 
 def _run_threads(
-    path: Path, pending: list[Task], options: RunOptions, summary: RunSummary
+    path: Path,
+    store_id: str,
+    pending: list[Task],
+    options: RunOptions,
+    summary: RunSummary,
 ) -> None:
-    import dask
-    from dask.callbacks import Callback
+    """Run tasks on local threads, keeping a window of them submitted.
+
+    A window (WINDOW_PER_WORKER per thread), not the whole list: building a Dask
+    graph of every task first took seconds per 10^4 tasks before the first one
+    started. The threads are a plain pool: the kernel releases the GIL.
+    """
+    from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
 
     n = options.threads or os.cpu_count() or 1
     for scheme in sorted({t.args.scheme for t in pending}):
         warm_up(scheme)
     stop = threading.Event()
     progress = Progress(summary.n_tasks, summary.already_done, options.progress, n)
-
-    # Tasks running now: on Ctrl-C dask returns at once, but the threads run on, so
-    # the run waits for them (holding the store's lock) before it returns.
+    # Tasks running now: on Ctrl-C the pool's threads run on (a running kernel cannot
+    # be stopped), so the run waits for them (holding the store's lock) before it
+    # returns.
     running = _Counter()
 
-    def posttask(key: Any, result: Any, dsk: Any, state: Any, worker_id: Any) -> None:
-        if isinstance(result, dict) and "point" in result:
-            _handle(result, summary, progress, stop)
-
-    def counted(store_path: str, task: Task) -> dict[str, Any]:
+    def counted(task: Task) -> dict[str, Any]:
         with running:
-            return run_task(store_path, task, stop)
+            return run_task(str(path), task, store_id, stop)
 
-    tasks = [dask.delayed(counted, pure=False)(str(path), t) for t in pending]
+    pool = ThreadPoolExecutor(max_workers=n, thread_name_prefix="sweep-task")
+    queue = iter(pending)
+    window = max(2, WINDOW_PER_WORKER * n)
+    in_flight: set[Any] = set()
     try:
-        with Callback(posttask=posttask):
-            dask.compute(*tasks, scheduler="threads", num_workers=n)
-    except KeyboardInterrupt:
-        stop.set()
-        summary.interrupted = True
-        sys.stderr.write(
-            f"\ninterrupted: waiting for {running.value} running task(s) to finish "
-            "(they are kept); Ctrl-C again stops at once and loses them.\n"
-        )
         try:
-            running.wait_for_zero()
+            in_flight = {pool.submit(counted, t) for t in _take(queue, window)}
+            while in_flight:
+                finished, in_flight = wait(in_flight, return_when=FIRST_COMPLETED)
+                for future in finished:
+                    _handle(future.result(), summary, progress, stop)
+                if not stop.is_set():
+                    in_flight |= {
+                        pool.submit(counted, t) for t in _take(queue, len(finished))
+                    }
         except KeyboardInterrupt:
-            summary.abandoned = running.value
+            stop.set()
+            for future in in_flight:
+                future.cancel()
+            summary.interrupted = True
+            sys.stderr.write(
+                f"\ninterrupted: waiting for {running.value} running task(s) to "
+                "finish (they are kept); Ctrl-C again stops at once and loses them.\n"
+            )
+            try:
+                running.wait_for_zero()
+            except KeyboardInterrupt:
+                summary.abandoned = running.value
     finally:
+        stop.set()
+        pool.shutdown(wait=False, cancel_futures=True)
         progress.close()
 
 
@@ -572,7 +602,11 @@ class _Counter:
 
 
 def _run_distributed(
-    path: Path, pending: list[Task], options: RunOptions, summary: RunSummary
+    path: Path,
+    store_id: str,
+    pending: list[Task],
+    options: RunOptions,
+    summary: RunSummary,
 ) -> None:
     import dask
     from distributed import Client, LocalCluster, as_completed
@@ -617,6 +651,7 @@ def _run_distributed(
                     run_task,
                     str(path),
                     t,
+                    store_id,
                     key=f"{prefix}-p{t.point}-c{t.chunk}",
                     pure=False,
                 )
@@ -642,6 +677,13 @@ def _run_distributed(
                 "\ninterrupted: finished tasks are kept; rerun the same command to resume.\n"
             )
         finally:
+            # Tasks not started yet must not start once this driver is gone (running
+            # ones cannot be stopped; their store id check keeps them out of another
+            # run's store).
+            outstanding = [f for f in list(futures.futures) if not f.done()]
+            if outstanding:
+                with contextlib.suppress(Exception):
+                    client.cancel(outstanding, force=True)
             progress.close()
     finally:
         client.close()

@@ -11,7 +11,13 @@ The only module that imports zarr. Rules it keeps (see DEVELOPERS.md, "Store"):
   files (zarr does not write chunks that are all fill value);
 * one runner at a time holds ``_lock.json``; a lock left by a dead process on this host
   is taken over with a notice;
-* a store made by another definition is refused with the differences listed.
+* a store made by another definition is refused with the differences listed;
+* nothing is read as numbers without proof: ``_seal.json`` (written at creation) holds
+  the store's random id and the checksum of every file the driver wrote, each marker
+  the store's id and the size and checksum of every chunk file its task wrote (or
+  "absent": zarr writes no all-fill chunk); a task checks the id on disk before it
+  writes and again right before its marker is committed, so a writer left over from
+  a deleted store cannot mark its data done in a new one.
 """
 
 from __future__ import annotations
@@ -23,8 +29,10 @@ import hashlib
 import json
 import logging
 import os
+import re
 import socket
 import sys
+import time
 import uuid
 import warnings
 from collections.abc import Iterator, Mapping
@@ -37,16 +45,34 @@ import xarray as xr
 import zarr
 from numpy.typing import NDArray
 
-from sweep.errors import StoreError, StoreLockedError, StoreMismatchError
+from sweep.errors import (
+    StaleStoreError,
+    StoreDamagedError,
+    StoreError,
+    StoreLockedError,
+    StoreMismatchError,
+)
 from sweep.plan import BIT_GENERATOR, Plan, Task, coordinate_columns, snapshot_steps
 from sweep.spec import Sweep, axis_names, parse_spec
 
 log = logging.getLogger(__name__)
 
-STORE_FORMAT = 1
+#: 2: the store id and ``_seal.json``; markers list their chunk files' checksums.
+STORE_FORMAT = 2
 ATTRS_KEY = "brownian_sweep"
 MARKER_DIR = "_tasks"
 LOCK_FILE = "_lock.json"
+SEAL_FILE = "_seal.json"
+#: Every temporary file the tool writes inside a store starts so (markers being
+#: written, a lock being taken); cleaning deletes nothing else of the user's.
+OWN_TMP = ".sweep-tmp-"
+#: zarr's LocalStore writes ``<key minus suffix>.<uuid4 hex>.partial`` then renames it.
+ZARR_PARTIAL = re.compile(r".+\.[0-9a-f]{32}\.partial")
+MARKER_NAME = re.compile(r"p(\d+)-c(\d+)\.json")
+#: The state of a chunk file its task did not write (all fill value).
+ABSENT = "absent"
+#: A store is built as ``.<name>.creating-<pid>-<random>`` beside it, then renamed.
+CREATING = ".creating-"
 KERNEL_FILE = Path(__file__).resolve().parent.parent / "kernels" / "walkers.py"
 #: The spheres scheme's kernel (time.scheme = "spheres").
 SPHERES_FILE = KERNEL_FILE.parent / "spheres.py"
@@ -120,6 +146,7 @@ def prepare(path: str | Path, plan: Plan) -> Path:
         The path exists but is not a store, or cannot be created.
     """
     path = Path(path).expanduser().absolute()
+    clean_creating(path)
     if path.exists():
         check_matches(path, plan)
         return path.resolve()
@@ -135,7 +162,7 @@ def prepare(path: str | Path, plan: Plan) -> Path:
             f"Choose another --store path."
         )
     # Build under a temporary name and rename: a killed creation leaves no half store.
-    tmp = parent / f".{path.name}.creating-{uuid.uuid4().hex[:8]}"
+    tmp = parent / f".{path.name}{CREATING}{os.getpid()}-{uuid.uuid4().hex[:8]}"
     try:
         _create(tmp, plan)
         os.rename(tmp, path)
@@ -157,6 +184,7 @@ def _create(path: Path, plan: Plan) -> None:
     first = sweep.points[0]
     rec = first.record
     domain = first.domain
+    store_id = uuid.uuid4().hex
     root = zarr.open_group(
         str(path),
         mode="w-",
@@ -164,6 +192,7 @@ def _create(path: Path, plan: Plan) -> None:
         attributes={
             ATTRS_KEY: {
                 "format": STORE_FORMAT,
+                "store_id": store_id,
                 "spec": sweep.canonical,
                 "spec_hash": sweep.spec_hash,
                 "fingerprint": fingerprint(),
@@ -367,14 +396,108 @@ def _create(path: Path, plan: Plan) -> None:
                 long_name=f"{side} edge of the occupancy histogram per axis",
             )
     (path / MARKER_DIR).mkdir()
+    _write_seal(path, store_id)
+
+
+def _write_seal(path: Path, store_id: str) -> None:
+    """Record the store id and the size and checksum of every file made so far."""
+    files: dict[str, Any] = {}
+    for folder, _, names in os.walk(path):
+        for name in names:
+            full = Path(folder) / name
+            files[full.relative_to(path).as_posix()] = _file_state(full, digest=True)
+    _atomic_json(path / SEAL_FILE, {"store_id": store_id, "files": files})
+
+
+def _digest(data: bytes) -> str:
+    # blake2b: in the standard library, about as fast as reading from the page cache,
+    # and unlike a CRC it also tells apart a chunk copied from another task on purpose.
+    return hashlib.blake2b(data, digest_size=16).hexdigest()
+
+
+def _file_state(file: Path, digest: bool) -> Any:
+    """``"absent"``, or ``[size in bytes, blake2b hex digest]`` (digest None if not asked)."""
+    try:
+        if not digest:
+            return [os.stat(file).st_size, None]
+        data = file.read_bytes()
+    except (FileNotFoundError, NotADirectoryError):
+        return ABSENT
+    return [len(data), _digest(data)]
+
+
+def _atomic_json(target: Path, value: Any) -> None:
+    """Write JSON under a temporary name of ours, flush it to disk, rename it."""
+    tmp = target.with_name(
+        f"{OWN_TMP}{target.name}-{os.getpid()}-{uuid.uuid4().hex[:8]}"
+    )
+    try:
+        with open(tmp, "w") as f:
+            json.dump(value, f)
+            f.flush()
+            os.fsync(f.fileno())
+        os.replace(tmp, target)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
+    _fsync_dir(target.parent)
 
 
 # --------------------------------------------------------------------------- checks
 
 
+#: What to do about a damaged file the driver wrote once, at creation.
+STORE_HINT = (
+    "This file is written once, when the store is created, and no result can be read "
+    "without it: restore the store from a copy, or move it away and run its definition "
+    "again into a new store."
+)
+
+
+@dataclass(frozen=True)
+class Damage:
+    """One file of a store that does not hold what was written there."""
+
+    file: Path
+    what: str
+    #: (point, chunk) of the task whose results it spoils, if any.
+    task: tuple[int, int] | None = None
+
+    def __str__(self) -> str:
+        return f"{self.file}: {self.what}"
+
+
+def damaged(found: list[Damage], hint: str) -> StoreDamagedError:
+    """One message for every damaged file found: the first, then up to nine more."""
+    lines = [f"store damaged: {found[0]}."]
+    lines += [f"  also damaged: {d}." for d in found[1:10]]
+    if len(found) > 10:
+        lines.append(f"  ... and {len(found) - 10} more damaged files.")
+    lines.append(hint)
+    return StoreDamagedError("\n".join(lines))
+
+
+def _task_hint(path: Path, attrs: Mapping[str, Any]) -> str:
+    return (
+        f"Rerun `sweep run {attrs.get('source', 'SPEC')} --store {path}`: it checks "
+        f"every finished task and recomputes the damaged ones; the other results are "
+        f"intact."
+    )
+
+
 def read_attrs(path: str | Path) -> dict[str, Any]:
-    """The store's provenance attributes; StoreError if ``path`` is not a store."""
-    path = Path(path)
+    """The store's provenance attributes, after checking the files made at creation.
+
+    Raises
+    ------
+    StoreError
+        ``path`` is not a store, or of another store format.
+    StoreDamagedError
+        A file written at creation (``zarr.json`` files, coordinates, ``_seal.json``)
+        changed or went missing, or ``_tasks`` is not a folder.
+    """
+    path = Path(path).expanduser()
     meta = path / "zarr.json"
     if path.exists() and not path.is_dir():
         raise StoreError(
@@ -385,19 +508,78 @@ def read_attrs(path: str | Path) -> dict[str, Any]:
         raise StoreError(
             f"{path}: no such store (expected a directory made by `sweep run`)."
         )
+    ours = (path / SEAL_FILE).exists()
     try:
         attrs = json.loads(meta.read_text())["attributes"][ATTRS_KEY]
-    except (OSError, ValueError, KeyError, TypeError):
+        if not isinstance(attrs, dict):
+            raise TypeError
+    except (OSError, ValueError, KeyError, TypeError) as err:
+        if ours:
+            what = (
+                "missing"
+                if isinstance(err, FileNotFoundError)
+                else "not readable as the store's metadata (not JSON, or no "
+                f"'{ATTRS_KEY}' attributes)"
+            )
+            raise damaged([Damage(meta, what)], STORE_HINT) from None
         raise StoreError(
             f"{path}: exists but is not a brownian-sweep store (no readable zarr.json with "
             f"'{ATTRS_KEY}' attributes). Choose another --store path; nothing was changed."
         ) from None
     if attrs.get("format") != STORE_FORMAT:
+        older = isinstance(attrs.get("format"), int) and attrs["format"] < STORE_FORMAT
         raise StoreError(
             f"{path}: store format {attrs.get('format')!r}; this version of the tool reads "
             f"format {STORE_FORMAT}."
+            + (
+                " Earlier formats kept no checksums of their results: run the "
+                "definition again into a new store."
+                if older
+                else ""
+            )
         )
+    seal_file = path / SEAL_FILE
+    seal = _read_json(seal_file)
+    if seal is None or not isinstance(seal.get("files"), dict):
+        what = "missing" if not ours else "not readable (expected JSON with 'files')"
+        raise damaged([Damage(seal_file, what)], STORE_HINT)
+    found = []
+    for rel, state in seal["files"].items():
+        now = _file_state(path / rel, digest=True)
+        if now != state:
+            found.append(
+                Damage(path / rel, _difference(state, now, "the store was created"))
+            )
+    if not found and seal.get("store_id") != attrs.get("store_id"):
+        found.append(
+            Damage(seal_file, "belongs to another store (its store id differs)")
+        )
+    tasks = path / MARKER_DIR
+    if not tasks.is_dir() or tasks.is_symlink():
+        found.append(
+            Damage(
+                tasks,
+                "missing, so no completion marker can be read"
+                if not tasks.exists()
+                else "not a folder (it holds the completion markers)",
+            )
+        )
+    if found:
+        raise damaged(found, STORE_HINT)
     return dict(attrs)
+
+
+def _difference(was: Any, now: Any, since: str) -> str:
+    if now == ABSENT:
+        return f"missing (written when {since}, {was[0]} bytes)"
+    if was == ABSENT:
+        return f"exists, but nothing was written there when {since} (all fill value)"
+    if now[0] != was[0]:
+        return (
+            f"{now[0]} bytes where {was[0]} were written when {since} (truncated or "
+            "replaced)"
+        )
+    return f"its content changed since {since} (checksum differs)"
 
 
 def load_sweep(path: str | Path) -> Sweep:
@@ -452,10 +634,18 @@ def _short(value: Any) -> str:
 def runner_lock(path: Path) -> Iterator[None]:
     """Hold the store's runner lock; take over a stale one left by a dead process.
 
+    The lock appears complete or not at all: it is written under a temporary name
+    and hard-linked to ``_lock.json`` (which fails if a lock exists). So a full disk
+    leaves no empty lock behind, and an empty or unreadable lock (left by an older
+    version, or by a file system without hard links, stopped while writing it) is
+    taken over, with a notice, once it is two seconds old.
+
     Raises
     ------
     StoreLockedError
         Another live process (or a process on another host) holds the lock.
+    StoreError
+        The lock cannot be written (full disk, read-only store).
     """
     lock = path / LOCK_FILE
     token = uuid.uuid4().hex
@@ -466,20 +656,40 @@ def runner_lock(path: Path) -> Iterator[None]:
         "token": token,
         "command": " ".join(sys.argv),
     }
-    for _ in range(3):
+    for _ in range(20):
         try:
-            fd = os.open(lock, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
+            _create_lock(lock, mine, token)
+            break
         except FileExistsError:
-            holder = _read_json(lock)
-            if holder is None:
-                continue  # vanished or half-written: try again
-            if not _is_stale(holder):
-                raise StoreLockedError(
-                    f"{path}: another `sweep run` is using this store (pid "
-                    f"{holder.get('pid')} on {holder.get('host')}, since "
-                    f"{holder.get('started')}). Wait for it to finish, or stop it; "
-                    f"if you are sure it is gone, delete {lock}."
-                ) from None
+            pass
+        except OSError as err:
+            raise os_error(path, "take the runner lock", err) from err
+        try:
+            seen = os.stat(lock)
+        except FileNotFoundError:
+            continue  # released meanwhile
+        holder = _read_json(lock)
+        if holder is None:
+            age = datetime.datetime.now().timestamp() - seen.st_mtime
+            if age < UNREADABLE_LOCK_AGE:
+                time.sleep(0.2)  # may be a lock being written right now
+                continue
+            log.warning(
+                "%s: the runner lock %s is empty or unreadable (%d bytes), as a run "
+                "stopped while writing it leaves it (a full disk, a killed process); "
+                "no runner can be identified by it, so it is taken over.",
+                path,
+                lock,
+                seen.st_size,
+            )
+        elif not _is_stale(holder):
+            raise StoreLockedError(
+                f"{path}: another `sweep run` is using this store (pid "
+                f"{holder.get('pid')} on {holder.get('host')}, since "
+                f"{holder.get('started')}). Wait for it to finish, or stop it; "
+                f"if you are sure it is gone, delete {lock}."
+            ) from None
+        else:
             log.warning(
                 "%s: taking over a stale lock left by pid %s on %s (started %s); "
                 "the process no longer exists.",
@@ -488,19 +698,11 @@ def runner_lock(path: Path) -> Iterator[None]:
                 holder.get("host"),
                 holder.get("started"),
             )
-            stale = lock.with_name(f"{LOCK_FILE}.stale-{token}")
-            with contextlib.suppress(FileNotFoundError):
-                os.rename(lock, stale)
-                os.unlink(stale)
-            continue
-        except OSError as err:
-            raise os_error(path, "take the runner lock", err) from err
-        with os.fdopen(fd, "w") as f:
-            json.dump(mine, f)
-        break
+        _remove_lock(lock, seen, token)
     else:
         raise StoreLockedError(
-            f"{path}: could not take the runner lock {lock}; try again."
+            f"{path}: could not take the runner lock {lock}: other runners kept "
+            f"taking and releasing it; try again."
         )
     try:
         yield
@@ -509,6 +711,54 @@ def runner_lock(path: Path) -> Iterator[None]:
         if holder is not None and holder.get("token") == token:
             with contextlib.suppress(FileNotFoundError):
                 os.unlink(lock)
+
+
+#: Seconds after which an unreadable lock is no longer a lock being written.
+UNREADABLE_LOCK_AGE = 2.0
+
+
+def _create_lock(lock: Path, content: Mapping[str, Any], token: str) -> None:
+    """Make ``lock`` appear with its full content; FileExistsError if it exists."""
+    tmp = lock.with_name(f"{OWN_TMP}lock-{token}")
+    try:
+        with open(tmp, "x") as f:
+            json.dump(content, f)
+            f.flush()
+        try:
+            os.link(tmp, lock)
+        except FileExistsError:
+            raise
+        except OSError as err:
+            if err.errno not in (errno.EPERM, errno.ENOTSUP, errno.EOPNOTSUPP):
+                raise
+            # No hard links here: create exclusively and write (not atomic; an
+            # unreadable lock younger than UNREADABLE_LOCK_AGE is waited for).
+            fd = os.open(lock, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
+            try:
+                with os.fdopen(fd, "w") as f:
+                    json.dump(content, f)
+            except BaseException:
+                with contextlib.suppress(OSError):
+                    os.unlink(lock)
+                raise
+    finally:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+
+
+def _remove_lock(lock: Path, seen: os.stat_result, token: str) -> None:
+    """Remove the lock judged stale, unless another runner replaced it meanwhile."""
+    away = lock.with_name(f"{OWN_TMP}lock-stale-{token}")
+    try:
+        os.rename(lock, away)
+    except FileNotFoundError:
+        return
+    now = os.stat(away)
+    if (now.st_ino, now.st_dev) != (seen.st_ino, seen.st_dev):
+        # A fresh lock of another runner: put it back (unless a third took the name).
+        with contextlib.suppress(FileExistsError):
+            os.link(away, lock)
+    os.unlink(away)
 
 
 def lock_holder(path: Path) -> dict[str, Any] | None:
@@ -537,7 +787,7 @@ def _is_stale(holder: Mapping[str, Any]) -> bool:
 def _read_json(path: Path) -> dict[str, Any] | None:
     try:
         value = json.loads(path.read_text())
-    except (OSError, ValueError):
+    except (OSError, ValueError, RecursionError):
         return None
     return value if isinstance(value, dict) else None
 
@@ -546,78 +796,350 @@ def _read_json(path: Path) -> dict[str, Any] | None:
 
 
 def clean_partials(path: Path) -> int:
-    """Delete leftover temporary files of killed writers inside the store.
+    """Delete the temporary files killed writers left inside the store.
 
-    Only regular files strictly inside ``path`` are touched; symbolic links are
-    neither followed nor deleted, so nothing outside the store can be reached.
+    Only files the tool or zarr names are touched: ``.sweep-tmp-*`` files in the
+    store folder and in ``_tasks``, and zarr's ``*.<32 hex>.partial`` files inside the
+    store's own array folders (those listed in ``_seal.json``). A user's files, even
+    ones named ``*.partial`` or ``*.tmp-*``, are never deleted; symbolic links are
+    neither followed nor deleted. Call it while holding the runner lock.
 
     Returns
     -------
     int
         Number of files removed.
     """
-    root = path.resolve()
     removed = 0
-    for folder, dirs, files in os.walk(root, followlinks=False):
-        dirs[:] = [d for d in dirs if not os.path.islink(os.path.join(folder, d))]
-        for name in files:
-            if not (name.endswith(".partial") or ".tmp-" in name):
-                continue
-            full = os.path.join(folder, name)
-            if os.path.islink(full) or not os.path.realpath(full).startswith(
-                str(root) + os.sep
-            ):
-                continue
+
+    def remove(entry: os.DirEntry[str]) -> None:
+        nonlocal removed
+        if entry.is_file(follow_symlinks=False):
             with contextlib.suppress(FileNotFoundError):
-                os.unlink(full)
+                os.unlink(entry.path)
                 removed += 1
+
+    for folder in (path, path / MARKER_DIR):
+        with contextlib.suppress(OSError), os.scandir(folder) as entries:
+            for entry in entries:
+                if entry.name.startswith(OWN_TMP):
+                    remove(entry)
+    seal = _read_json(path / SEAL_FILE) or {}
+    arrays = {rel.split("/")[0] for rel in seal.get("files", {}) if rel.count("/") == 1}
+    for name in sorted(arrays):
+        for folder, dirs, _ in os.walk(path / name, followlinks=False):
+            dirs[:] = [d for d in dirs if not os.path.islink(os.path.join(folder, d))]
+            with os.scandir(folder) as entries:
+                for entry in entries:
+                    if ZARR_PARTIAL.fullmatch(entry.name):
+                        remove(entry)
     return removed
 
 
-def done_tasks(path: Path) -> set[tuple[int, int]]:
-    """(point, chunk) of every task whose completion marker exists."""
-    done: set[tuple[int, int]] = set()
+def clean_creating(path: Path) -> int:
+    """Delete ``.<name>.creating-<pid>-*`` folders beside ``path`` left by dead creators.
+
+    A store is built under such a name and renamed when complete; a creation killed
+    midway leaves the folder. Only folders of this store's name whose creating
+    process no longer exists on this host are deleted.
+    """
+    prefix = f".{path.name}{CREATING}"
+    removed = 0
     try:
-        entries = os.scandir(path / MARKER_DIR)
-    except FileNotFoundError:
-        return done
-    with entries:
-        for entry in entries:
-            name = entry.name
-            if name.startswith("p") and name.endswith(".json") and "-c" in name:
-                p, _, c = name[1:-5].partition("-c")
-                if p.isdigit() and c.isdigit():
-                    done.add((int(p), int(c)))
-    return done
+        entries = list(os.scandir(path.parent))
+    except OSError:
+        return 0
+    for entry in entries:
+        if not entry.name.startswith(prefix) or not entry.is_dir(follow_symlinks=False):
+            continue
+        pid, _, _ = entry.name[len(prefix) :].partition("-")
+        if not pid.isdigit() or _pid_alive(int(pid)):
+            continue
+        _remove_tree(Path(entry.path))
+        removed += 1
+    if removed:
+        log.warning(
+            "%s: removed %d unfinished store folder(s) %s* left by a creation that was "
+            "stopped.",
+            path,
+            removed,
+            prefix,
+        )
+    return removed
 
 
-def done_array(path: Path, n_points: int, n_chunks: int) -> NDArray[np.bool_]:
-    """Boolean (point, chunk) array of completed tasks, from the markers."""
-    done = np.zeros((n_points, n_chunks), dtype=bool)
-    for p, c in done_tasks(path):
-        if p < n_points and c < n_chunks:
-            done[p, c] = True
-    return done
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except (PermissionError, OverflowError):
+        return True
+    return True
+
+
+def task_chunk_keys(attrs: Mapping[str, Any], point: int, chunk: int) -> list[str]:
+    """The zarr chunk keys task (point, chunk) writes, as its marker lists them."""
+    p, c = point, chunk
+    keys = []
+    if attrs["per_walker"]:
+        keys += [
+            f"first_passage_time/c/{p}/{c}",
+            f"absorbing_wall/c/{p}/{c}",
+            f"exit_position/c/{p}/{c}/0",
+        ]
+    keys.append(f"survival_count/c/{p}/{c}/0")
+    if attrs.get("fpt_bins"):
+        keys.append(f"first_passage_count/c/{p}/{c}/0/0")
+    if attrs["occupancy"]:
+        zeros = ["0"] * (1 + len(attrs["axis_names"]))
+        keys.append(f"occupancy_count/c/{p}/{c}/" + "/".join(zeros))
+    return keys
+
+
+def scan_markers(
+    path: Path, attrs: Mapping[str, Any], digests: bool = False
+) -> tuple[dict[tuple[int, int], dict[str, Any]], list[Damage]]:
+    """Read every completion marker and check it against the store.
+
+    Always (cheap: one small read per marker and one ``stat`` per chunk file): the
+    marker is a JSON object of this store (its store id), of the task its name says,
+    with walker counts that match the task and add up, and every chunk file it lists
+    has the size its task wrote (or is absent, if the task wrote none). With
+    ``digests``, every chunk file is also read and its checksum compared.
+
+    Returns
+    -------
+    done : dict
+        (point, chunk) → marker, for every task whose marker and data check out.
+    damage : list of Damage
+        Everything that did not.
+    """
+    n_p, n_c = attrs["n_points"], attrs["n_chunks"]
+    folder = path / MARKER_DIR
+    done: dict[tuple[int, int], dict[str, Any]] = {}
+    found: list[Damage] = []
+    try:
+        with os.scandir(folder) as entries:
+            names = sorted(e.name for e in entries)
+    except OSError:
+        names = []
+    for name in names:
+        match = MARKER_NAME.fullmatch(name)
+        if match is None:
+            continue  # ours being written (.sweep-tmp-*), or not ours
+        p, c = int(match.group(1)), int(match.group(2))
+        file = folder / name
+        if p >= n_p or c >= n_c:
+            found.append(
+                Damage(
+                    file,
+                    f"a marker of point {p}, chunk {c}, but the store has {n_p} "
+                    f"points of {n_c} chunks",
+                    (p, c),
+                )
+            )
+            continue
+        problem = _marker_problem(path, file, attrs, p, c)
+        if problem is not None:
+            found.append(problem)
+            continue
+        done[(p, c)] = _read_json(file) or {}
+    if digests and done:
+        from concurrent.futures import ThreadPoolExecutor
+
+        def digest_problem(task: tuple[int, int]) -> Damage | None:
+            for key, state in done[task]["chunks"].items():
+                if state == ABSENT:
+                    continue
+                now = _file_state(path / key, digest=True)
+                if now != state:
+                    return Damage(
+                        path / key,
+                        _difference(state, now, "its task finished")
+                        + f" (point {task[0]}, chunk {task[1]})",
+                        task,
+                    )
+            return None
+
+        # hashlib releases the GIL on large buffers: chunk files hash in parallel.
+        with ThreadPoolExecutor(min(8, os.cpu_count() or 1)) as pool:
+            problems = list(pool.map(digest_problem, sorted(done)))
+            for problem in problems:
+                if problem is not None:
+                    found.append(problem)
+                    del done[problem.task]  # type: ignore[arg-type]
+    return done, found
+
+
+def _marker_problem(
+    path: Path, file: Path, attrs: Mapping[str, Any], p: int, c: int
+) -> Damage | None:
+    """What is wrong with the marker of task (p, c) or its chunk files (sizes only)."""
+    try:
+        text = file.read_text()
+    except OSError as err:
+        return Damage(file, f"cannot be read ({err.strerror})", (p, c))
+    if not text.strip():
+        return Damage(
+            file, "empty (a completion marker holds the task's counts)", (p, c)
+        )
+    try:
+        marker = json.loads(text)
+    except ValueError:
+        return Damage(file, "not valid JSON (a completion marker is JSON)", (p, c))
+    if not isinstance(marker, dict):
+        return Damage(file, "not a completion marker (expected a JSON object)", (p, c))
+    if marker.get("store_id") != attrs["store_id"]:
+        return Damage(
+            file,
+            "written for another store (its store id differs): a task of an earlier "
+            "store at this path, or a copied file",
+            (p, c),
+        )
+    if marker.get("point") != p or marker.get("chunk") != c:
+        return Damage(
+            file,
+            f"says point {marker.get('point')}, chunk {marker.get('chunk')}, but is "
+            f"the marker of point {p}, chunk {c}",
+            (p, c),
+        )
+    walkers = min(attrs["chunk"], attrs["walkers"] - c * attrs["chunk"])
+    absorbed = marker.get("absorbed_by")
+    counts_ok = (
+        marker.get("walkers") == walkers
+        and isinstance(marker.get("censored"), int)
+        and isinstance(absorbed, list)
+        and all(isinstance(n, int) and n >= 0 for n in absorbed)
+        and 0 <= marker["censored"] <= walkers
+        and marker["censored"] + sum(absorbed) == walkers
+    )
+    if not counts_ok:
+        return Damage(
+            file,
+            f"its counts do not fit the task of {walkers} walkers (walkers "
+            f"{marker.get('walkers')!r}, censored {marker.get('censored')!r}, "
+            f"absorbed {absorbed!r})",
+            (p, c),
+        )
+    chunks = marker.get("chunks")
+    if not isinstance(chunks, dict) or sorted(chunks) != sorted(
+        task_chunk_keys(attrs, p, c)
+    ):
+        return Damage(file, "does not list the chunk files of its task", (p, c))
+    for key, state in chunks.items():
+        now = _file_state(path / key, digest=False)
+        if state == ABSENT or now == ABSENT:
+            if state != now:
+                return Damage(
+                    path / key,
+                    _difference(state, now, "its task finished")
+                    + f" (point {p}, chunk {c})",
+                    (p, c),
+                )
+        elif not (isinstance(state, list) and len(state) == 2 and now[0] == state[0]):
+            return Damage(
+                path / key,
+                _difference(state, now, "its task finished")
+                + f" (point {p}, chunk {c})",
+                (p, c),
+            )
+    return None
+
+
+def verified_markers(
+    path: str | Path, digests: bool = False
+) -> tuple[dict[str, Any], dict[tuple[int, int], dict[str, Any]]]:
+    """The store's attributes and the markers of its finished tasks, all checked.
+
+    Raises
+    ------
+    StoreDamagedError
+        Any file is damaged; the message names them and says what to do.
+    """
+    path = Path(path).expanduser()
+    attrs = read_attrs(path)
+    done, found = scan_markers(path, attrs, digests)
+    if found:
+        raise damaged(found, _task_hint(path, attrs))
+    return attrs, done
+
+
+def done_tasks(path: Path) -> set[tuple[int, int]]:
+    """(point, chunk) of every finished task (markers checked; damage raises)."""
+    return set(verified_markers(path)[1])
 
 
 def read_markers(path: Path) -> list[dict[str, Any]]:
-    """The summaries written in every completion marker."""
-    out = []
-    for p, c in sorted(done_tasks(path)):
-        summary = _read_json(path / MARKER_DIR / f"p{p}-c{c}.json")
-        if summary is not None:
-            out.append(summary)
-    return out
+    """The summaries written in every completion marker (checked; damage raises)."""
+    done = verified_markers(path)[1]
+    return [done[task] for task in sorted(done)]
+
+
+def resume_state(path: Path) -> tuple[str, set[tuple[int, int]]]:
+    """For a run: the store id and the finished tasks, all checksums verified.
+
+    A task whose marker or data is damaged is reported (a warning naming the file)
+    and its marker removed, so the run recomputes it.
+    """
+    attrs = read_attrs(path)
+    done, found = scan_markers(path, attrs, digests=True)
+    for problem in found:
+        where = (
+            f"; recomputing point {problem.task[0]}, chunk {problem.task[1]}"
+            if problem.task
+            and problem.task[0] < attrs["n_points"]
+            and problem.task[1] < attrs["n_chunks"]
+            else "; its marker is removed"
+        )
+        log.warning("store damaged: %s%s.", problem, where)
+        if problem.task is not None:
+            p, c = problem.task
+            with contextlib.suppress(FileNotFoundError):
+                os.unlink(path / MARKER_DIR / f"p{p}-c{c}.json")
+    return attrs["store_id"], set(done)
+
+
+def check_store_id(path: Path, store_id: str, task: Task) -> None:
+    """Raise StaleStoreError unless the store at ``path`` is the one of ``store_id``.
+
+    Read from disk each time: the store may have been deleted and made again by
+    another run while this task was queued or running.
+    """
+    seal = _read_json(path / SEAL_FILE)
+    now = None if seal is None else seal.get("store_id")
+    if now == store_id:
+        return
+    state = (
+        "no longer exists" if seal is None else f"was replaced by another (id {now})"
+    )
+    raise StaleStoreError(
+        f"{path}: point {task.point}, chunk {task.chunk} was planned for the store "
+        f"with id {store_id}, which {state}; the task stops without marking "
+        f"anything done."
+    )
 
 
 def write_task(
-    path: str, task: Task, output: TaskOutput, summary: dict[str, Any]
-) -> None:
+    path: str,
+    task: Task,
+    output: TaskOutput,
+    summary: dict[str, Any],
+    store_id: str,
+) -> dict[str, Any]:
     """Write one task's chunks, flush them, then its completion marker.
 
     Called inside tasks (threads or worker processes); opens the store read-write
-    without touching metadata.
+    without touching metadata. The store id is checked on disk before the chunks are
+    written and again right before the marker is renamed into place.
+
+    Returns
+    -------
+    dict
+        The marker written: ``summary`` with ``store_id`` and ``chunks`` (chunk key →
+        ``[size, blake2b]`` or ``"absent"``).
     """
+    base = Path(path)
+    check_store_id(base, store_id, task)
     root = zarr.open_group(path, mode="r+")
     p, c = task.point, task.chunk
     a, b = task.first_walker, task.first_walker + task.n_walkers
@@ -641,17 +1163,28 @@ def write_task(
         written.append(
             f"occupancy_count/c/{p}/{c}/" + "/".join(["0"] * (output.occupancy.ndim))
         )
-    base = Path(path)
+    chunks = {}
     for key in written:
         _fsync(base / key)
+        chunks[key] = _file_state(base / key, digest=True)
+    marker_doc = {**summary, "store_id": store_id, "chunks": chunks}
     marker = base / MARKER_DIR / f"p{p}-c{c}.json"
-    tmp = marker.with_name(f"{marker.name}.tmp-{os.getpid()}-{uuid.uuid4().hex[:6]}")
-    with open(tmp, "w") as f:
-        json.dump(summary, f)
-        f.flush()
-        os.fsync(f.fileno())
-    os.replace(tmp, marker)
+    tmp = marker.with_name(
+        f"{OWN_TMP}{marker.name}-{os.getpid()}-{uuid.uuid4().hex[:6]}"
+    )
+    try:
+        with open(tmp, "w") as f:
+            json.dump(marker_doc, f)
+            f.flush()
+            os.fsync(f.fileno())
+        check_store_id(base, store_id, task)
+        os.replace(tmp, marker)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
     _fsync_dir(marker.parent)
+    return marker_doc
 
 
 def _fsync(file: Path) -> None:
@@ -677,13 +1210,17 @@ def _fsync_dir(folder: Path) -> None:
 # --------------------------------------------------------------------------- read
 
 
-def open_dataset(path: str | Path) -> xr.Dataset:
+def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
     """Open a store lazily as the design's xarray Dataset.
 
     Parameters
     ----------
     path : str or Path
-        A store made by ``sweep run``.
+        A store made by ``sweep run`` (``~`` is expanded).
+    verify : bool
+        Also compare the checksum of every finished task's chunk files with its
+        marker (reads all the data once). Without it, the files written at creation,
+        the markers' counts and the chunk files' sizes are still checked.
 
     Returns
     -------
@@ -694,16 +1231,24 @@ def open_dataset(path: str | Path) -> xr.Dataset:
         in-memory ``done`` (point, chunk). Every swept parameter is a coordinate along
         ``point``. Values of unfinished tasks read as NaN / -1, and aggregates count
         finished tasks only.
+
+    Raises
+    ------
+    StoreDamagedError
+        A file of the store does not hold what was written there; the message names
+        it and says what to do.
     """
-    path = Path(path)
-    attrs = read_attrs(path)
+    path = Path(path).expanduser()
+    attrs, markers = verified_markers(path, digests=verify)
     with warnings.catch_warnings():
         # The marker directory, lock and run log live inside the store directory;
         # zarr notes them as "not a component of a Zarr hierarchy" when listing.
         warnings.filterwarnings("ignore", message="Object at _", category=UserWarning)
         raw = xr.open_zarr(path, consolidated=False, chunks={}, mask_and_scale=True)
     n_p, n_c = attrs["n_points"], attrs["n_chunks"]
-    done = done_array(path, n_p, n_c)
+    done = np.zeros((n_p, n_c), dtype=bool)
+    for p, c in markers:
+        done[p, c] = True
     swept_coords = [
         name
         for name in raw.variables
