@@ -58,11 +58,15 @@ def run(spec: Any, store: Any = None, **options: Any) -> Any:
     return _run(spec, store, RunOptions(**options))
 
 
-def open(path: Any) -> xr.Dataset:  # noqa: A001 - the public name the design fixes
-    """Open a store lazily as an xarray Dataset; see :func:`sweep.store.open_dataset`."""
+def open(path: Any, verify: bool = False) -> xr.Dataset:  # noqa: A001 - the design's name
+    """Open a store lazily as an xarray Dataset; see :func:`sweep.store.open_dataset`.
+
+    ``verify=True`` also compares every finished task's chunk checksums with its
+    marker (reads the data once); sizes and counts are always checked.
+    """
     from sweep.store import open_dataset
 
-    return open_dataset(path)
+    return open_dataset(path, verify=verify)
 
 
 def select(ds: xr.Dataset, **values: Any) -> xr.Dataset:

@@ -87,7 +87,7 @@ class CheckReport:
 
 def check_store(path: str | Path) -> CheckReport:
     """Compare every point of the store at ``path`` with its analytic results."""
-    ds = store.open_dataset(path)
+    ds = store.open_dataset(path, verify=True)
     sweep = store.load_sweep(path)
     return check_dataset(ds, sweep, str(path))
 

@@ -50,6 +50,12 @@ def build_parser() -> argparse.ArgumentParser:
     status = sub.add_parser("status", help="progress of a store, per point")
     status.add_argument("store")
 
+    verify = sub.add_parser(
+        "verify",
+        help="compare every finished task's data with the checksums in its marker",
+    )
+    verify.add_argument("store")
+
     summary = sub.add_parser(
         "summary",
         help="headline numbers per point: censoring, mean first-passage time, "
@@ -164,6 +170,8 @@ def _dispatch(args: argparse.Namespace) -> int:
         return _status(args)
     if args.command == "summary":
         return _summary(args)
+    if args.command == "verify":
+        return _verify(args)
     if args.command == "check":
         return _check(args)
     if args.command == "plan":
@@ -324,12 +332,28 @@ def _status(args: argparse.Namespace) -> int:
     return 0
 
 
+def _verify(args: argparse.Namespace) -> int:
+    from sweep import store
+
+    path = Path(args.store)
+    attrs, done = store.verified_markers(path, digests=True)
+    files = sum(
+        1 for m in done.values() for state in m["chunks"].values() if state != "absent"
+    )
+    total = attrs["n_points"] * attrs["n_chunks"]
+    print(
+        f"{path}: intact: the files made at creation, and {len(done)}/{total} finished "
+        f"tasks ({files} chunk files) match their checksums."
+    )
+    return 0
+
+
 def _summary(args: argparse.Namespace) -> int:
     from sweep.report import headline_table
     from sweep.store import load_sweep, open_dataset
 
     sweep = load_sweep(args.store)
-    print(headline_table(open_dataset(args.store), sweep))
+    print(headline_table(open_dataset(args.store, verify=True), sweep))
     return 0
 
 

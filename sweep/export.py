@@ -71,7 +71,7 @@ def export_hdf5(
     Path
         ``out``.
     """
-    ds = store.open_dataset(path)
+    ds = store.open_dataset(path, verify=True)
     attrs = store.read_attrs(path)
     n_points = ds.sizes["point"]
     if points is not None:

@@ -43,7 +43,7 @@ def write_report(path: str | Path, out: str | Path) -> Path:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as err:
         raise store.os_error(out, "create the report directory", err) from err
-    ds = store.open_dataset(path)
+    ds = store.open_dataset(path, verify=True)
     sweep = store.load_sweep(path)
     report = check.check_dataset(ds, sweep, str(path))
     figures: list[tuple[str, str]] = []

@@ -449,8 +449,8 @@ def _atomic_json(target: Path, value: Any) -> None:
 
 #: What to do about a damaged file the driver wrote once, at creation.
 STORE_HINT = (
-    "This file is written once, when the store is created, and no result can be read "
-    "without it: restore the store from a copy, or move it away and run its definition "
+    "Files made when the store is created are never rewritten, and no result can be "
+    "read without them: restore the store from a copy, or move it away and run its definition "
     "again into a new store."
 )
 
