@@ -217,3 +217,60 @@ def test_slurm_job_script_runs_the_sweep(
         job.wait()
     assert job.returncode == 0, output
     assert_stores_identical(reference, out)
+
+
+def _executing(client: object) -> int:
+    """Tasks running on the cluster's workers, cancelled ones (orphans) included."""
+    counts = client.run(lambda dask_worker: dask_worker.state.executing_count)  # type: ignore[attr-defined]
+    return sum(counts.values())
+
+
+def test_orphaned_tasks_of_a_deleted_store_cannot_write_into_its_successor(
+    tmp_path: Path, cluster: Path
+) -> None:
+    """Driver A killed mid-run, its store deleted, B run into the same path: A's tasks
+    still running on the workers must leave nothing B counts as done."""
+    from distributed import Client
+
+    # A: tasks of several seconds each (dt small), so they outlive their driver.
+    slow = tmp_path / "a.toml"
+    slow.write_text(SMALL_SPEC.replace("dt = 1e-3", "dt = 1e-6"))
+    # B differs from A by D and by chunk, so A's tasks would land in B's chunks.
+    other = tmp_path / "b.toml"
+    other.write_text(
+        SMALL_SPEC.replace("chunk = 500", "chunk = 1000").replace(
+            '"motion.diffusivity" = [0.5, 1.0]', '"motion.diffusivity" = [0.25, 1.0]'
+        )
+    )
+    clean_b = tmp_path / "clean-b.zarr"
+    assert run(other, clean_b, RunOptions(threads=2, progress=False)).complete
+
+    out = tmp_path / "s.zarr"
+    driver = subprocess.Popen(
+        [sys.executable, "-m", "sweep.cli", "run", str(slow), "--store", str(out),
+         "--scheduler-file", str(cluster), "--quiet"],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )  # fmt: skip
+    with Client(scheduler_file=str(cluster), timeout="60s") as client:
+        deadline = time.monotonic() + PATIENCE
+        while time.monotonic() < deadline and _executing(client) < 2:
+            time.sleep(0.05)
+        assert _executing(client) == 2, "A's tasks never started"
+        driver.send_signal(signal.SIGKILL)
+        driver.wait()
+        import shutil
+
+        shutil.rmtree(out)
+        assert run(other, out, RunOptions(threads=2, progress=False)).complete
+        # The case this test is about: A's tasks still run after B is complete.
+        assert _executing(client) > 0, "A's tasks ended before B: make them longer"
+        deadline = time.monotonic() + PATIENCE
+        while time.monotonic() < deadline and _executing(client) > 0:
+            time.sleep(0.1)
+        assert _executing(client) == 0, "A's orphaned tasks did not end"
+    # Every marker is B's, every checksum holds, and the data are a clean B's.
+    attrs, done = store.verified_markers(out, digests=True)
+    assert len(done) == 6
+    assert {m["store_id"] for m in done.values()} == {attrs["store_id"]}
+    assert_stores_identical(clean_b, out)
