@@ -46,7 +46,7 @@ def test_run_is_identical_for_any_task_order(small_spec: Path, tmp_path: Path) -
     tasks = list(plan.tasks)
     random.Random(3).shuffle(tasks)
     for task in tasks:
-        assert "error" not in run_task(str(path), task)
+        assert "error" not in run_task(str(path), task, store.read_attrs(path)["store_id"])
     assert_stores_identical(tmp_path / "ordered.zarr", path)
 
 
