@@ -395,6 +395,14 @@ def _create(path: Path, plan: Plan) -> None:
                 ),
                 long_name=f"{side} edge of the occupancy histogram per axis",
             )
+    with warnings.catch_warnings():
+        # "Consolidated metadata is currently not part in the Zarr format 3
+        # specification": zarr-python reads it, and readers that do not simply list.
+        warnings.filterwarnings("ignore", message="Consolidated metadata")
+        # Metadata never changes after creation, so one consolidated copy is exact;
+        # readers then never list the folder, whose other entries (markers, lock, a
+        # user's notes) zarr would otherwise try to read as arrays.
+        zarr.consolidate_metadata(str(path))
     (path / MARKER_DIR).mkdir()
     _write_seal(path, store_id)
 
@@ -1140,7 +1148,7 @@ def write_task(
     """
     base = Path(path)
     check_store_id(base, store_id, task)
-    root = zarr.open_group(path, mode="r+")
+    root = zarr.open_group(path, mode="r+", use_consolidated=True)
     p, c = task.point, task.chunk
     a, b = task.first_walker, task.first_walker + task.n_walkers
     written = []
@@ -1244,7 +1252,7 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
         # The marker directory, lock and run log live inside the store directory;
         # zarr notes them as "not a component of a Zarr hierarchy" when listing.
         warnings.filterwarnings("ignore", message="Object at _", category=UserWarning)
-        raw = xr.open_zarr(path, consolidated=False, chunks={}, mask_and_scale=True)
+        raw = xr.open_zarr(path, consolidated=True, chunks={}, mask_and_scale=True)
     n_p, n_c = attrs["n_points"], attrs["n_chunks"]
     done = np.zeros((n_p, n_c), dtype=bool)
     for p, c in markers:

@@ -167,6 +167,11 @@ def edit_attrs(name: str, change: Callable[[dict[str, object]], None]) -> Setup:
         doc = json.loads(meta.read_text())
         change(doc["attributes"][store.ATTRS_KEY])
         meta.write_text(json.dumps(doc, indent=2))
+        # As the tool that made it would have sealed it (not damage, another version).
+        seal_file = ws / name / store.SEAL_FILE
+        seal = json.loads(seal_file.read_text())
+        seal["files"]["zarr.json"] = store._file_state(meta, digest=True)
+        seal_file.write_text(json.dumps(seal))
 
     return setup
 
@@ -724,8 +729,8 @@ CASES: list[Case] = [
     Case(
         id="store-of-newer-format",
         argv=RUN_SMALL,
-        expect=("{ws}/s.zarr", "store format 2", "reads format 1"),
-        setup=(copy_store(), SMALL, edit_attrs("s.zarr", lambda a: a.update(format=2))),
+        expect=("{ws}/s.zarr", "store format 3", "reads format 2"),
+        setup=(copy_store(), SMALL, edit_attrs("s.zarr", lambda a: a.update(format=3))),
         store="s.zarr",
     ),
     # ----- paths that are not stores
@@ -1165,6 +1170,39 @@ def test_full_disk_stops_cleanly_keeps_finished_tasks_and_resumes(
     assert f"{len(done)}/12 tasks done" in status.stdout
     # Free space: the same command resumes and ends bit-identical to the reference.
     subprocess.run(["mount", "-o", "remount,size=8m", str(out.parent)], check=True)
+    resumed = cli(*args)
+    assert resumed.returncode == 0, resumed.stderr
+    assert_stores_identical(reference_store, out)
+
+
+def test_full_disk_at_the_lock_leaves_no_lock_and_resumes(
+    workspace: Path, reference_store: Path, cleanup: contextlib.ExitStack
+) -> None:
+    """Resuming on a disk that is already full: the disk-full message, no lock left
+    behind (an empty ``_lock.json`` used to block every later run), then a resume."""
+    folder = workspace / "full-disk-lock"
+    folder.mkdir()
+    small_spec = folder / "small.toml"
+    small_spec.write_text(SMALL_SPEC)
+    try:
+        mount_tmpfs(folder / "disk", "8m", cleanup)
+    except Unavailable as why:
+        pytest.skip(str(why))
+    out = folder / "disk" / "s.zarr"
+    shutil.copytree(reference_store, out)
+    for marker in sorted((out / store.MARKER_DIR).iterdir())[:3]:
+        marker.unlink()
+    filler = folder / "disk" / "filler"
+    with contextlib.suppress(OSError), filler.open("wb") as f:
+        while True:
+            f.write(b"\0" * 4096)
+            f.flush()
+    args = ("run", small_spec, "--store", out, "--threads", "1", "--quiet")
+    result = cli(*args)
+    assert_one_error(result.returncode, result.stderr, [str(out), "the disk is full"])
+    assert not (out / store.LOCK_FILE).exists()
+    assert not [p for p in out.iterdir() if p.name.startswith(store.OWN_TMP)]
+    filler.unlink()
     resumed = cli(*args)
     assert resumed.returncode == 0, resumed.stderr
     assert_stores_identical(reference_store, out)

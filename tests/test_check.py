@@ -53,7 +53,9 @@ def test_check_fails_on_mis_scaled_diffusivity(
             task,
             args=dataclasses.replace(task.args, diffusivity=2 * task.args.diffusivity),
         )
-        assert "error" not in run_task(str(path), wrong, store.read_attrs(path)["store_id"])
+        assert "error" not in run_task(
+            str(path), wrong, store.read_attrs(path)["store_id"]
+        )
     report = check_store(path)
     assert not report.passed
     worst = max(abs(r.z) for r in report.rows)

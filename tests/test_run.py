@@ -46,7 +46,9 @@ def test_run_is_identical_for_any_task_order(small_spec: Path, tmp_path: Path) -
     tasks = list(plan.tasks)
     random.Random(3).shuffle(tasks)
     for task in tasks:
-        assert "error" not in run_task(str(path), task, store.read_attrs(path)["store_id"])
+        assert "error" not in run_task(
+            str(path), task, store.read_attrs(path)["store_id"]
+        )
     assert_stores_identical(tmp_path / "ordered.zarr", path)
 
 
@@ -263,16 +265,58 @@ def test_partial_files_are_cleaned_and_never_read(
     path = store.prepare(out, make_plan(load_spec(small_spec)))
     chunk_dir = path / "first_passage_time" / "c" / "0"
     chunk_dir.mkdir(parents=True)
-    leftover = chunk_dir / "0.1234abcd.partial"
+    # As zarr's LocalStore names a chunk being written: <key>.<uuid4 hex>.partial.
+    leftover = chunk_dir / f"0.{'ab12' * 8}.partial"
     leftover.write_bytes(os.urandom(64))
+    marker_tmp = path / store.MARKER_DIR / f"{store.OWN_TMP}p0-c0.json-1-abcdef"
+    marker_tmp.write_text("{")
     outside = tmp_path / "victim.partial"
     outside.write_text("not the store's")
     (path / "link.partial").symlink_to(outside)
     _run(small_spec, out)
-    assert not leftover.exists()
+    assert not leftover.exists() and not marker_tmp.exists()
     assert outside.read_text() == "not the store's"
     (path / "link.partial").unlink()
     assert_stores_identical(tmp_path / "ref.zarr", out)
+
+
+def test_user_files_in_the_store_folder_are_never_deleted(
+    small_spec: Path, tmp_path: Path
+) -> None:
+    """Only files the tool (or zarr, in the store's array folders) names are cleaned."""
+    out = tmp_path / "s.zarr"
+    path = store.prepare(out, make_plan(load_spec(small_spec)))
+    user_files = [
+        path / "analysis.tmp-v2.ipynb",
+        path / "notes" / "draft.partial",
+        path / "notes" / f"0.{'ab12' * 8}.partial",
+        path / "_tasks" / "p0-c0.json.tmp-mine",
+        path / "_tasks" / "readme.partial",
+    ]
+    for f in user_files:
+        f.parent.mkdir(exist_ok=True)
+        f.write_text("the user's")
+    _run(small_spec, out)
+    assert all(f.read_text() == "the user's" for f in user_files)
+    sweep.open(out, verify=True)
+
+
+def test_killed_creation_leftovers_of_this_store_are_cleaned(
+    small_spec: Path, tmp_path: Path
+) -> None:
+    """A creation killed midway leaves ``.NAME.creating-<pid>-*``; the next run
+    removes those of dead processes, and nothing of other stores or live ones."""
+    dead = subprocess.Popen(["true"])
+    dead.wait()
+    left = tmp_path / f".s.zarr{store.CREATING}{dead.pid}-0badf00d"
+    (left / "survival_count").mkdir(parents=True)
+    live = tmp_path / f".s.zarr{store.CREATING}{os.getpid()}-0badf00d"
+    live.mkdir()
+    other = tmp_path / f".t.zarr{store.CREATING}{dead.pid}-0badf00d"
+    other.mkdir()
+    _run(small_spec, tmp_path / "s.zarr")
+    assert not left.exists()
+    assert live.exists() and other.exists()
 
 
 def test_cli_run_and_status(
@@ -516,3 +560,20 @@ def test_failing_task_is_named_and_others_are_kept(
     blocker.unlink()
     _run(small_spec, out)
     assert_stores_identical(reference, out)
+
+
+def test_empty_lock_is_explained_and_taken_over(
+    small_spec: Path, tmp_path: Path, caplog: pytest.LogCaptureFixture
+) -> None:
+    """An empty lock (left by a run that stopped while writing it) names no runner:
+    it is taken over with a notice instead of blocking every run."""
+    out = tmp_path / "s.zarr"
+    path = store.prepare(out, make_plan(load_spec(small_spec)))
+    lock = path / store.LOCK_FILE
+    lock.write_text("")
+    old = time.time() - 60
+    os.utime(lock, (old, old))
+    with caplog.at_level("WARNING"):
+        _run(small_spec, out)
+    assert "empty or unreadable" in caplog.text and "taken over" in caplog.text
+    assert not lock.exists()
