@@ -11,10 +11,12 @@ import argparse
 import logging
 import os
 import sys
+import warnings
 from collections.abc import Sequence
 from pathlib import Path
+from typing import Any
 
-from sweep.errors import SweepError
+from sweep.errors import SweepError, SweepWarning
 
 MAX_TABLE_POINTS = 20
 
@@ -143,6 +145,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     logging.basicConfig(
         level=logging.WARNING, format="sweep: %(message)s", stream=sys.stderr
     )
+    warnings.showwarning = _show_warning
     try:
         code = _dispatch(args)
         sys.stdout.flush()  # a closed pipe shows here, not at the interpreter's exit
@@ -161,6 +164,17 @@ def main(argv: Sequence[str] | None = None) -> int:
         # not fail again; 141 is the shell's code for a writer stopped by SIGPIPE.
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 141
+
+
+_python_show_warning = warnings.showwarning
+
+
+def _show_warning(message: Warning | str, category: type[Warning], *rest: Any) -> None:
+    """The tool's own warnings as one line ``sweep: warning: ...``, others as Python's."""
+    if issubclass(category, SweepWarning):
+        print(f"sweep: warning: {message}", file=sys.stderr)
+    else:
+        _python_show_warning(message, category, *rest)
 
 
 def _dispatch(args: argparse.Namespace) -> int:

@@ -17,12 +17,13 @@ import math
 import random
 import re
 import tomllib
+import warnings
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Literal
 
-from sweep.errors import SpecError
+from sweep.errors import SpecError, SweepWarning
 
 WallKind = Literal["absorbing", "reflecting"]
 WALL_KINDS: tuple[str, ...] = ("absorbing", "reflecting")
@@ -34,8 +35,25 @@ MONITORING: tuple[str, ...] = ("bridge", "endpoint")
 SCHEMES: tuple[str, ...] = ("steps", "spheres")
 SHAPES: tuple[str, ...] = ("box", "ball")
 MAX_DIMENSION = 8
-#: At most this many points in one store (grid product x zip lengths).
-MAX_POINTS = 1_000_000
+#: At most this many points in one store (grid product x zip lengths): each point is
+#: validated on its own (about 0.1 ms), so 10^5 points take seconds to check.
+MAX_POINTS = 100_000
+#: At most this many tasks (points x chunks): one completion marker file each, and a
+#: plan of 10^6 tasks takes seconds to build. Larger sweeps need a larger sweep.chunk.
+MAX_TASKS = 2_000_000
+#: At most this many walkers per point (the per-walker arrays' length).
+MAX_WALKERS = 10**12
+#: Tables and lists nest at most this deep in a definition (the deepest legal use,
+#: a list of points in a grid of a vector key, nests 4).
+MAX_NESTING = 16
+#: Every finite number of a point (coordinates, lengths, D, drift, dt, horizon) lies
+#: within +-MAGNITUDE, and lengths, D and dt are at least TINY: then squares and
+#: products of them stay finite and nonzero in double precision.
+MAGNITUDE = 1e100
+TINY = 1e-100
+#: The step sqrt(2 D dt) must exceed this fraction of the largest coordinate, or
+#: positions would round the steps away.
+RESOLUTION = 1e-12
 #: At most this many occupancy bins in all (bins ** dimension), so each task's histogram
 #: stays below 80 MB per snapshot.
 MAX_OCCUPANCY_BINS = 10**7
@@ -336,8 +354,15 @@ def load_spec(path: str | Path) -> Sweep:
 
 def parse_spec(text: str, source: str = "<string>") -> Sweep:
     """Validate the TOML ``text`` of a sweep definition (see :func:`load_spec`)."""
+    too_deep = SpecError(
+        f"{source}: tables or lists are nested too deeply (more than {MAX_NESTING} "
+        f"levels); a sweep definition nests at most a few (a list of points inside "
+        f"[grid]). Check for runaway brackets or braces."
+    )
     try:
         raw = tomllib.loads(text)
+    except RecursionError:  # the TOML parser itself recurses per level
+        raise too_deep from None
     except tomllib.TOMLDecodeError as err:
         where = ""
         found = re.search(r"line (\d+)", str(err))
@@ -347,8 +372,51 @@ def parse_spec(text: str, source: str = "<string>") -> Sweep:
             if 0 < number <= len(lines):
                 where = f"\n  line {number}: {lines[number - 1].strip()}"
         raise SpecError(f"{source}: not valid TOML: {err}.{where}") from None
+    if _nesting(raw) > MAX_NESTING:
+        raise too_deep
     sweep = _Parser(source).sweep(raw)
+    _warn_duplicates(sweep)
     return dataclasses.replace(sweep, text=text)
+
+
+def _nesting(value: Any) -> int:
+    """How deep lists and tables nest in ``value`` (without recursion)."""
+    deepest = 0
+    stack = [(value, 0)]
+    while stack:
+        item, depth = stack.pop()
+        deepest = max(deepest, depth)
+        if depth > MAX_NESTING:
+            break
+        if isinstance(item, dict):
+            stack += [(v, depth + 1) for v in item.values()]
+        elif isinstance(item, list):
+            stack += [(v, depth + 1) for v in item]
+    return deepest
+
+
+def _warn_duplicates(sweep: Sweep) -> None:
+    """Warn when grid points repeat: they simulate bit-identical walkers."""
+    first: dict[str, int] = {}
+    repeats: list[tuple[int, int]] = []
+    for index, values in enumerate(sweep.canonical["values"]):
+        key = json.dumps(values)
+        if key in first:
+            repeats.append((first[key], index))
+        else:
+            first.setdefault(key, index)
+    if not repeats:
+        return
+    shown = ", ".join(f"{b} repeats {a}" for a, b in repeats[:5])
+    more = f" and {len(repeats) - 5} more" if len(repeats) > 5 else ""
+    warnings.warn(
+        f"{sweep.source}: [grid] {len(repeats)} point(s) repeat an earlier point "
+        f"({shown}{more}); a repeated point simulates bit-identical walkers (its "
+        f"random stream depends only on its parameters), so it adds no information. "
+        f"Remove the repeated values.",
+        SweepWarning,
+        stacklevel=3,
+    )
 
 
 class _Parser:
@@ -486,7 +554,10 @@ class _Parser:
             self.required(head, "seed", "sweep"), "sweep.seed", minimum=0
         )
         walkers = self.integer(
-            self.required(head, "walkers", "sweep"), "sweep.walkers", minimum=1
+            self.required(head, "walkers", "sweep"),
+            "sweep.walkers",
+            minimum=1,
+            maximum=MAX_WALKERS,
         )
         if "chunk" in head:
             chunk = self.integer(
@@ -503,6 +574,15 @@ class _Parser:
                 "grid",
                 f"gives {n_points:,} points ({lengths}); at most {MAX_POINTS:,} fit in "
                 f"one store. Split the sweep into several definitions.",
+            )
+        n_tasks = n_points * -(-walkers // chunk)
+        if n_tasks > MAX_TASKS:
+            raise self.fail(
+                "sweep.chunk",
+                f"{walkers:,} walkers per point in tasks of {chunk:,} over {n_points:,} "
+                f"point(s) make {n_tasks:,} tasks; at most {MAX_TASKS:,} fit in one "
+                f"store (one completion marker each). Raise sweep.chunk to at least "
+                f"{-(-walkers * n_points // MAX_TASKS):,}, or split the sweep.",
             )
         base = {
             k: copy.deepcopy(raw[k])
@@ -751,6 +831,7 @@ class _Parser:
         timing = self.timing(self.table(raw, "time", ""))
         domain = self.domain(self.table(raw, "domain", ""), dimension)
         motion = self.motion(motion_raw, dimension, domain)
+        self.scales(motion, timing, domain)
         record = self.record(self.table(raw, "record", ""), timing, domain)
         if timing.scheme == "spheres":
             self.spheres_allowed(motion, record)
@@ -772,6 +853,77 @@ class _Parser:
                 "at a fixed time falls inside a jump, where only its exit is drawn. "
                 'Use time.scheme = "steps" for occupancy snapshots (or a second sweep '
                 "with it), or remove record.occupancy.",
+            )
+
+    def scales(self, motion: Motion, timing: Timing, domain: Domain) -> None:
+        """Refuse numbers whose squares or products leave double precision."""
+        why = (
+            "so that squares and products of lengths, times and rates stay finite "
+            "and nonzero in double precision"
+        )
+        box = domain.shape == "box"
+        coordinates: list[tuple[str, float]] = [
+            *(
+                (f"domain.{'lower' if box else 'center'}", v)
+                for v in (domain.lower if box else domain.center)
+            ),
+            *(("domain.upper", v) for v in (domain.upper if box else ())),
+            *(("motion.start", v) for v in (motion.start or ())),
+            *(("motion.drift", v) for v in motion.drift),
+            *(
+                (f"domain.targets.{i}.center", v)
+                for i, t in enumerate(domain.targets)
+                for v in t.center
+            ),
+            ("motion.diffusivity", motion.diffusivity),
+            ("time.horizon", timing.horizon),
+        ]
+        for key, value in coordinates:
+            if math.isfinite(value) and abs(value) > MAGNITUDE:
+                raise self.fail(
+                    key, f"must lie within +-{MAGNITUDE:g} ({why}); got {value!r}."
+                )
+        lengths: list[tuple[str, float]] = [
+            ("motion.diffusivity", motion.diffusivity),
+            ("time.dt", timing.dt),
+            *(
+                (f"domain.targets.{i}.radius", t.radius)
+                for i, t in enumerate(domain.targets)
+            ),
+        ]
+        if box:
+            lengths += [
+                ("domain.upper", hi - lo)
+                for lo, hi in zip(domain.lower, domain.upper)
+                if math.isfinite(lo) and math.isfinite(hi)
+            ]
+        else:
+            lengths.append(("domain.radius", domain.radius))
+        for key, value in lengths:
+            if value < TINY or value > MAGNITUDE:
+                what = (
+                    "domain width upper - lower" if key == "domain.upper" else "value"
+                )
+                raise self.fail(
+                    key,
+                    f"the {what} must lie within {TINY:g} .. {MAGNITUDE:g} ({why}); "
+                    f"got {value!r}.",
+                )
+        step = math.sqrt(2.0 * motion.diffusivity * timing.dt)
+        scale = max(
+            (
+                abs(v)
+                for key, v in coordinates
+                if key.startswith(("domain", "motion.start")) and math.isfinite(v)
+            ),
+            default=0.0,
+        )
+        if not (math.isfinite(step) and step > RESOLUTION * scale):
+            raise self.fail(
+                "time.dt",
+                f"the step sqrt(2 D dt) = {step!r} is below the resolution of positions "
+                f"as large as {scale!r} (at least {RESOLUTION:g} of them): steps would "
+                f"round away. Raise dt or D, or move the domain nearer the origin.",
             )
 
     def timing(self, table: dict[str, Any]) -> Timing:

@@ -1073,7 +1073,12 @@ def verified_markers(
 
 
 def done_tasks(path: Path) -> set[tuple[int, int]]:
-    """(point, chunk) of every finished task (markers checked; damage raises)."""
+    """(point, chunk) of every finished task (markers checked; damage raises).
+
+    Empty while the store does not exist yet (a run is still creating it).
+    """
+    if not Path(path).expanduser().exists():
+        return set()
     return set(verified_markers(path)[1])
 
 
