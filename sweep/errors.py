@@ -48,6 +48,10 @@ class StaleStoreError(StoreError):
     """A task's store was deleted or replaced after the task was planned."""
 
 
+class UsageError(SweepError, TypeError):
+    """A library function was given something it cannot use (e.g. a DataArray)."""
+
+
 class TaskError(SweepError, RuntimeError):
     """A task raised while simulating or writing; names the point and chunk."""
 

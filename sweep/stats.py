@@ -33,7 +33,7 @@ from numpy.typing import ArrayLike, NDArray
 from scipy import special
 from scipy import stats as scipy_stats
 
-from sweep.errors import SweepWarning
+from sweep.errors import SweepWarning, UsageError
 
 #: Default confidence level of every interval.
 LEVEL = 0.95
@@ -1481,7 +1481,25 @@ def summary(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
         ``mean_fpt_stderr``, ``mean_fpt_lower``, ``mean_fpt_upper``, ``splitting``,
         ``splitting_stderr``, ``splitting_lower``, ``splitting_upper``,
         ``survival_end``. Select one point with ``.isel(point=p)``.
+
+    Raises
+    ------
+    UsageError
+        ``ds`` is not a Dataset (for example one variable of it).
     """
+    if not isinstance(ds, xr.Dataset):
+        name = getattr(ds, "name", None)
+        got = (
+            f"a DataArray ({name!r})"
+            if isinstance(ds, xr.DataArray)
+            else type(ds).__name__
+        )
+        raise UsageError(
+            f"stats.summary needs a store's whole Dataset, as sweep.open(path) returns it "
+            f"(or a selection such as ds.isel(point=0)): it reads walkers_done, "
+            f"first_passage_time, absorbing_wall and survival together; got {got}. "
+            f"Pass the Dataset, not one of its variables."
+        )
     out = _result(ds, ("point",), {"walkers": _walkers(ds)})
     if "first_passage_time" in ds or "fpt_histogram" in ds:
         mean = mean_first_passage_time(ds, level)

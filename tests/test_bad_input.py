@@ -652,6 +652,109 @@ CASES: list[Case] = [
         "1,000,000,000 points",
         memory_limit=PLAN_LIMIT,
     ),
+    # ----- hostile definitions: nesting, magnitudes, sizes (answered at once)
+    spec_case(
+        "start-nested-5000-deep",
+        base(("start = [0.3]", "start = " + "[" * 5000 + "0.3" + "]" * 5000)),
+        "nested too deeply",
+        command="run",
+    ),
+    spec_case(
+        "inline-table-nested-3000-deep",
+        base(("[record]", "[record]\nx = " + "{ a = " * 3000 + "1" + " }" * 3000)),
+        "nested too deeply",
+    ),
+    spec_case(
+        "start-nested-40-deep",
+        base(("start = [0.3]", "start = " + "[" * 40 + "0.3" + "]" * 40)),
+        "nested too deeply",
+    ),
+    spec_case(
+        "box-of-1e308",
+        base(
+            ("lower = [0.0]", "lower = [-1e308]"),
+            ("upper = [1.0]", "upper = [1e308]"),
+            ("start = [0.3]", "start = [0.0]"),
+        ),
+        "[domain.lower]",
+        "within +-1e+100",
+        "-1e+308",
+    ),
+    spec_case(
+        "box-of-width-1e-300",
+        base(
+            ("upper = [1.0]", "upper = [1e-300]"), ("start = [0.3]", "start = [5e-301]")
+        ),
+        "[domain.upper]",
+        "domain width",
+        "1e-300",
+    ),
+    spec_case(
+        "drift-of-1e308",
+        base(("start = [0.3]", "start = [0.3]\ndrift = [-1e308]")),
+        "[motion.drift]",
+        "-1e+308",
+        command="run",
+    ),
+    spec_case(
+        "diffusivity-1e308",
+        base(("diffusivity = 0.5", "diffusivity = 1e308")),
+        "[motion.diffusivity]",
+        "1e+308",
+        command="run",
+    ),
+    spec_case(
+        "diffusivity-5e-324",
+        base(("diffusivity = 0.5", "diffusivity = 5e-324")),
+        "[motion.diffusivity]",
+        "5e-324",
+        command="run",
+    ),
+    spec_case(
+        "step-below-the-resolution-of-positions",
+        base(
+            ("lower = [0.0]", "lower = [1e20]"),
+            ("upper = [1.0]", "upper = [2e20]"),
+            ("start = [0.3]", "start = [1.5e20]"),
+        ),
+        "[time.dt]",
+        "resolution of positions",
+    ),
+    spec_case(
+        "walkers-2-to-the-63-minus-1",
+        base(
+            ("walkers = 3000", "walkers = 9223372036854775807"), ("chunk = 500\n", "")
+        ),
+        "[sweep.walkers]",
+        "1000000000000",
+        command="run",
+        memory_limit=RUN_LIMIT,
+    ),
+    spec_case(
+        "ten-million-tasks",
+        base(("walkers = 3000", "walkers = 10_000_000"), ("chunk = 500", "chunk = 1")),
+        "[sweep.chunk]",
+        "10,000,000 tasks",
+        "at most 2,000,000",
+        memory_limit=PLAN_LIMIT,
+    ),
+    spec_case(
+        "million-grid-points",
+        with_grid(
+            "[grid]\n"
+            + "\n".join(
+                f'"{key}" = [{", ".join(str(v) for v in values)}]'
+                for key, values in (
+                    ("motion.diffusivity", [0.1 + i / 1000 for i in range(1000)]),
+                    ("time.horizon", [2.0 + i / 1000 for i in range(1000)]),
+                )
+            )
+        ),
+        "[grid]",
+        "1,000,000 points",
+        "at most 100,000",
+        memory_limit=PLAN_LIMIT,
+    ),
     # ----- the definition file itself
     Case(
         id="spec-file-missing",

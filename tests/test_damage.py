@@ -247,3 +247,19 @@ def test_every_command_gives_the_same_verdict(
         if p.is_file() and p.name != "_runs.log"
     }
     assert after == {p: b for p, b in before.items() if p.name != "_runs.log"}
+
+
+def test_open_expands_the_home_folder(
+    reference: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setenv("HOME", str(reference.parent))
+    ds = sweep.open(f"~/{reference.name}", verify=True)
+    assert int(ds.attrs["complete"]) == 1
+
+
+def test_summary_of_a_data_array_says_what_it_needs(reference: Path) -> None:
+    from sweep.errors import UsageError
+
+    ds = sweep.open(reference)
+    with pytest.raises(UsageError, match="needs a store's whole Dataset"):
+        sweep.stats.summary(ds["first_passage_time"])

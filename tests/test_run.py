@@ -577,3 +577,38 @@ def test_empty_lock_is_explained_and_taken_over(
         _run(small_spec, out)
     assert "empty or unreadable" in caplog.text and "taken over" in caplog.text
     assert not lock.exists()
+
+
+def test_a_million_tasks_start_at_once_on_threads(
+    tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    """The threads executor submits a window of tasks: the first of 10^6 tasks ends
+    long before a graph of all of them could be built (which took minutes)."""
+    spec = tmp_path / "many.toml"
+    spec.write_text(
+        SMALL_SPEC.replace("walkers = 3000", "walkers = 1_000_000")
+        .replace("chunk = 500", "chunk = 1")
+        .replace('"motion.diffusivity" = [0.5, 1.0]', '"motion.diffusivity" = [0.5]')
+        .replace("occupancy = { times = [0.2, 0.05], bins = 8 }", "")
+    )
+    out = tmp_path / "many.zarr"
+    log = tmp_path / "stderr.txt"
+    with log.open("w") as err:
+        proc = subprocess.Popen(
+            [*sweep_command(), "run", str(spec), "--store", str(out), "--quiet"],
+            env=cli_env,
+            stdout=subprocess.DEVNULL,
+            stderr=err,
+        )
+    try:
+        deadline = time.monotonic() + PATIENCE
+        markers = out / store.MARKER_DIR
+        while time.monotonic() < deadline and proc.poll() is None:
+            if markers.is_dir() and any(markers.glob("p0-c*.json")):
+                break
+            time.sleep(0.1)
+        assert proc.poll() is None, log.read_text()
+        assert any(markers.glob("p0-c*.json")), "no task of 10^6 finished in time"
+    finally:
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()

@@ -2477,3 +2477,14 @@ def test_spec_hash_swept_inf_spellings_hash_equal() -> None:
         for u in ("inf", "+inf", " inf", math.inf)
     }
     assert len(swept) == 1
+
+
+def test_repeated_grid_points_warn() -> None:
+    """1, 1.0 and 1.0 are one point three times: two repeats, bit-identical walkers."""
+    from sweep.errors import SweepWarning
+    from sweep.spec import parse_spec
+    from tests.conftest import SMALL_SPEC
+
+    text = SMALL_SPEC.replace("[0.5, 1.0]", "[0.5, 1, 1.0, 1.0]")
+    with pytest.warns(SweepWarning, match=r"2 point\(s\) repeat an earlier point"):
+        parse_spec(text, source="dup.toml")
