@@ -526,8 +526,6 @@ def _run_threads(
     from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
 
     n = options.threads or os.cpu_count() or 1
-    for scheme in sorted({t.args.scheme for t in pending}):
-        warm_up(scheme)
     stop = threading.Event()
     progress = Progress(summary.n_tasks, summary.already_done, options.progress, n)
     # Tasks running now: on Ctrl-C the pool's threads run on (a running kernel cannot
@@ -545,6 +543,9 @@ def _run_threads(
     in_flight: set[Any] = set()
     try:
         try:
+            # Inside: a Ctrl-C while compiling is an interruption too.
+            for scheme in sorted({t.args.scheme for t in pending}):
+                warm_up(scheme)
             in_flight = {pool.submit(counted, t) for t in _take(queue, window)}
             while in_flight:
                 finished, in_flight = wait(in_flight, return_when=FIRST_COMPLETED)
