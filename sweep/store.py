@@ -924,6 +924,7 @@ def scan_markers(
     """
     n_p, n_c = attrs["n_points"], attrs["n_chunks"]
     folder = path / MARKER_DIR
+    root = str(path) + os.sep  # plain strings: pathlib costs more than the stat
     done: dict[tuple[int, int], dict[str, Any]] = {}
     found: list[Damage] = []
     try:
@@ -947,11 +948,11 @@ def scan_markers(
                 )
             )
             continue
-        problem = _marker_problem(path, file, attrs, p, c)
+        marker, problem = _check_marker(root, file, attrs, p, c)
         if problem is not None:
             found.append(problem)
             continue
-        done[(p, c)] = _read_json(file) or {}
+        done[(p, c)] = marker
     if digests and done:
         from concurrent.futures import ThreadPoolExecutor
 
@@ -979,37 +980,36 @@ def scan_markers(
     return done, found
 
 
-def _marker_problem(
-    path: Path, file: Path, attrs: Mapping[str, Any], p: int, c: int
-) -> Damage | None:
-    """What is wrong with the marker of task (p, c) or its chunk files (sizes only)."""
+def _check_marker(
+    root: str, file: Path, attrs: Mapping[str, Any], p: int, c: int
+) -> tuple[dict[str, Any], Damage | None]:
+    """The marker of task (p, c), and what is wrong with it or its chunk files' sizes."""
+
+    def bad(what: str, where: Path = file) -> tuple[dict[str, Any], Damage]:
+        return {}, Damage(where, what, (p, c))
+
     try:
-        text = file.read_text()
+        with open(file) as f:
+            text = f.read()
     except OSError as err:
-        return Damage(file, f"cannot be read ({err.strerror})", (p, c))
+        return bad(f"cannot be read ({err.strerror})")
     if not text.strip():
-        return Damage(
-            file, "empty (a completion marker holds the task's counts)", (p, c)
-        )
+        return bad("empty (a completion marker holds the task's counts)")
     try:
         marker = json.loads(text)
-    except ValueError:
-        return Damage(file, "not valid JSON (a completion marker is JSON)", (p, c))
+    except (ValueError, RecursionError):
+        return bad("not valid JSON (a completion marker is JSON)")
     if not isinstance(marker, dict):
-        return Damage(file, "not a completion marker (expected a JSON object)", (p, c))
+        return bad("not a completion marker (expected a JSON object)")
     if marker.get("store_id") != attrs["store_id"]:
-        return Damage(
-            file,
+        return bad(
             "written for another store (its store id differs): a task of an earlier "
-            "store at this path, or a copied file",
-            (p, c),
+            "store at this path, or a copied file"
         )
     if marker.get("point") != p or marker.get("chunk") != c:
-        return Damage(
-            file,
+        return bad(
             f"says point {marker.get('point')}, chunk {marker.get('chunk')}, but is "
-            f"the marker of point {p}, chunk {c}",
-            (p, c),
+            f"the marker of point {p}, chunk {c}"
         )
     walkers = min(attrs["chunk"], attrs["walkers"] - c * attrs["chunk"])
     absorbed = marker.get("absorbed_by")
@@ -1022,36 +1022,36 @@ def _marker_problem(
         and marker["censored"] + sum(absorbed) == walkers
     )
     if not counts_ok:
-        return Damage(
-            file,
+        return bad(
             f"its counts do not fit the task of {walkers} walkers (walkers "
             f"{marker.get('walkers')!r}, censored {marker.get('censored')!r}, "
-            f"absorbed {absorbed!r})",
-            (p, c),
+            f"absorbed {absorbed!r})"
         )
     chunks = marker.get("chunks")
     if not isinstance(chunks, dict) or sorted(chunks) != sorted(
         task_chunk_keys(attrs, p, c)
     ):
-        return Damage(file, "does not list the chunk files of its task", (p, c))
+        return bad("does not list the chunk files of its task")
     for key, state in chunks.items():
-        now = _file_state(path / key, digest=False)
-        if state == ABSENT or now == ABSENT:
-            if state != now:
-                return Damage(
-                    path / key,
-                    _difference(state, now, "its task finished")
-                    + f" (point {p}, chunk {c})",
-                    (p, c),
-                )
-        elif not (isinstance(state, list) and len(state) == 2 and now[0] == state[0]):
-            return Damage(
-                path / key,
+        if state != ABSENT and not (
+            isinstance(state, list)
+            and len(state) == 2
+            and isinstance(state[0], int)
+            and isinstance(state[1], str)
+        ):
+            return bad(f"lists {key} as {state!r}, not as a size and a checksum")
+        try:
+            now: Any = [os.stat(root + key).st_size, None]
+        except (FileNotFoundError, NotADirectoryError):
+            now = ABSENT
+        same = state == now if ABSENT in (state, now) else now[0] == state[0]
+        if not same:
+            return bad(
                 _difference(state, now, "its task finished")
                 + f" (point {p}, chunk {c})",
-                (p, c),
+                Path(root + key),
             )
-    return None
+    return marker, None
 
 
 def verified_markers(
