@@ -554,11 +554,14 @@ class _Parser:
             self.required(head, "seed", "sweep"), "sweep.seed", minimum=0
         )
         walkers = self.integer(
-            self.required(head, "walkers", "sweep"),
-            "sweep.walkers",
-            minimum=1,
-            maximum=MAX_WALKERS,
+            self.required(head, "walkers", "sweep"), "sweep.walkers", minimum=1
         )
+        if walkers > MAX_WALKERS:
+            raise self.fail(
+                "sweep.walkers",
+                f"must be at most {MAX_WALKERS:,} per point (the per-walker arrays "
+                f"alone would hold {walkers * 26 / 1e12:.3g} TB); got {walkers:,}.",
+            )
         if "chunk" in head:
             chunk = self.integer(
                 head["chunk"], "sweep.chunk", minimum=1, maximum=walkers

@@ -726,7 +726,7 @@ CASES: list[Case] = [
             ("walkers = 3000", "walkers = 9223372036854775807"), ("chunk = 500\n", "")
         ),
         "[sweep.walkers]",
-        "1000000000000",
+        "at most 1,000,000,000,000",
         command="run",
         memory_limit=RUN_LIMIT,
     ),
@@ -847,7 +847,10 @@ CASES: list[Case] = [
     Case(
         id="store-with-corrupt-metadata",
         argv=RUN_SMALL,
-        expect=("{ws}/s.zarr", "is not a brownian-sweep store"),
+        expect=(
+            "store damaged: {ws}/s.zarr/zarr.json",
+            "restore the store from a copy",
+        ),
         setup=(copy_store(), SMALL, write("s.zarr/zarr.json", '{"attributes": {')),
         store="s.zarr",
     ),

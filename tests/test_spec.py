@@ -2284,10 +2284,13 @@ def test_number_huge_integer_raises_spec_error(value: int) -> None:
     )
 
 
-def test_number_largest_float_integer_accepted_where_allowed() -> None:
-    # 2**1023 converts to a float; only values that overflow are refused.
+def test_number_largest_float_integer_refused_by_the_magnitude_limit() -> None:
+    # 2**1023 converts to a float, but its square would not: the limit is named.
     text = spec(LINE, motion__diffusivity=2**1023)
-    assert parse(text).points[0].motion.diffusivity == float(2**1023)
+    with pytest.raises(
+        SpecError, match=re.escape("[motion.diffusivity] must lie within +-1e+100")
+    ):
+        parse(text)
 
 
 def test_grid_date_value_raises_spec_error() -> None:
@@ -2394,14 +2397,18 @@ def test_ball_far_start_raises_spec_error(start: list[float]) -> None:
 
 
 def test_far_start_outside_far_target_raises_spec_error() -> None:
-    # Huge coordinates in the target distance check as well as the ball check.
+    # Huge coordinates pass the target distance check and the ball check without an
+    # overflow, then meet the magnitude limit: one message.
     text = spec(
         PLANE,
         domain__upper=[1e308, 1e308],
         motion__start=[1e307, 1e307],
         domain__targets=[{"center": [9e307, 9e307], "radius": 1e300}],
     )
-    assert parse(text).points[0].motion.start == (1e307, 1e307)
+    with pytest.raises(
+        SpecError, match=re.escape("[domain.upper] must lie within +-1e+100")
+    ):
+        parse(text)
 
 
 def test_uniform_start_with_domain_covered_by_target_rejected() -> None:
