@@ -127,7 +127,8 @@ def compare_stores(
         raise CompareError(
             f"alpha must be a probability strictly between 0 and 1; got {alpha!r}."
         )
-    ds_a, ds_b = open_dataset(path_a), open_dataset(path_b)
+    ds_a = open_dataset(path_a, verify=True)
+    ds_b = open_dataset(path_b, verify=True)
     name_a, name_b = str(path_a), str(path_b)
     walls_a, walls_b = list(ds_a.attrs["wall_names"]), list(ds_b.attrs["wall_names"])
     if walls_a != walls_b:
