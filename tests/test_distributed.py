@@ -232,9 +232,10 @@ def test_orphaned_tasks_of_a_deleted_store_cannot_write_into_its_successor(
     still running on the workers must leave nothing B counts as done."""
     from distributed import Client
 
-    # A: tasks of several seconds each (dt small), so they outlive their driver.
+    # A: tasks of about 5e8 walker-steps (seconds each), so they outlive their driver
+    # and the whole of B.
     slow = tmp_path / "a.toml"
-    slow.write_text(SMALL_SPEC.replace("dt = 1e-3", "dt = 1e-6"))
+    slow.write_text(SMALL_SPEC.replace("dt = 1e-3", "dt = 2e-7"))
     # B differs from A by D and by chunk, so A's tasks would land in B's chunks.
     other = tmp_path / "b.toml"
     other.write_text(
