@@ -263,3 +263,60 @@ def test_summary_of_a_data_array_says_what_it_needs(reference: Path) -> None:
     ds = sweep.open(reference)
     with pytest.raises(UsageError, match="needs a store's whole Dataset"):
         sweep.stats.summary(ds["first_passage_time"])
+
+
+STORE_LEVEL = [d for d in DAMAGES if d.level == "store"]
+
+
+@pytest.mark.parametrize("damage", STORE_LEVEL, ids=[d.id for d in STORE_LEVEL])
+def test_rerun_refuses_damage_to_the_files_made_at_creation(
+    reference: Path, tmp_path: Path, damage: Damage
+) -> None:
+    """No result can be trusted without them: refused before any task runs (a missing
+    `_tasks` used to make a rerun compute every task, then fail)."""
+    out, file = _damaged_copy(reference, tmp_path, damage)
+    before = {p: p.read_bytes() for p in out.rglob("*") if p.is_file()}
+    with pytest.raises(StoreDamagedError, match=f"store damaged: {file}: "):
+        run(tmp_path / "small.toml", out, RunOptions(threads=2, progress=False))
+    assert {p: p.read_bytes() for p in out.rglob("*") if p.is_file()} == before
+
+
+def test_chunks_zarr_did_not_write_are_part_of_the_proof(
+    tmp_path: Path, caplog: pytest.LogCaptureFixture
+) -> None:
+    """Every walker still free at a 2-step horizon: zarr writes no per-walker chunk
+    (all fill value). The markers say "absent", reads accept it, and a file that
+    appears there later (here another store's chunk) is damage."""
+    spec = tmp_path / "short.toml"
+    spec.write_text(
+        SMALL_SPEC.replace("horizon = 3.0", "horizon = 0.002")
+        .replace("survival = { stop = 1.0, points = 11 }", "")
+        .replace("occupancy = { times = [0.2, 0.05], bins = 8 }", "")
+    )
+    out = tmp_path / "short.zarr"
+    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
+    attrs, done = store.verified_markers(out, digests=True)
+    key = "first_passage_time/c/0/1"
+    assert done[(0, 1)]["chunks"][key] == store.ABSENT
+    assert not (out / key).exists()
+    reference = tmp_path / "reference.zarr"
+    shutil.copytree(out, reference)
+    other = tmp_path / "other.zarr"
+    assert run(_small(tmp_path), other, RunOptions(threads=2, progress=False)).complete
+    (out / key).parent.mkdir(parents=True, exist_ok=True)
+    shutil.copyfile(other / key, out / key)
+    with pytest.raises(
+        StoreDamagedError, match="exists, but nothing was written there"
+    ):
+        sweep.open(out)
+    with caplog.at_level("WARNING"):
+        run(spec, out, RunOptions(threads=2, progress=False))
+    assert "recomputing point 0, chunk 1" in caplog.text
+    assert not (out / key).exists()
+    assert_stores_identical(reference, out)
+
+
+def _small(folder: Path) -> Path:
+    spec = folder / "small.toml"
+    spec.write_text(SMALL_SPEC)
+    return spec
