@@ -1096,20 +1096,35 @@ def resume_state(path: Path) -> tuple[str, set[tuple[int, int]]]:
     """
     attrs = read_attrs(path)
     done, found = scan_markers(path, attrs, digests=True)
-    for problem in found:
-        where = (
-            f"; recomputing point {problem.task[0]}, chunk {problem.task[1]}"
-            if problem.task
-            and problem.task[0] < attrs["n_points"]
-            and problem.task[1] < attrs["n_chunks"]
-            else "; its marker is removed"
-        )
-        log.warning("store damaged: %s%s.", problem, where)
+    for n, problem in enumerate(found):
+        p, c = problem.task or (-1, -1)
+        inside = 0 <= p < attrs["n_points"] and 0 <= c < attrs["n_chunks"]
+        if n < MAX_WARNINGS:
+            where = (
+                f"recomputing point {p}, chunk {c}"
+                if inside
+                else "its marker is removed"
+            )
+            log.warning("store damaged: %s; %s.", problem, where)
+        elif n == MAX_WARNINGS:
+            log.warning(
+                "store damaged: %d more damaged tasks, recomputed as well.",
+                len(found) - MAX_WARNINGS,
+            )
         if problem.task is not None:
-            p, c = problem.task
-            with contextlib.suppress(FileNotFoundError):
+            try:
                 os.unlink(path / MARKER_DIR / f"p{p}-c{c}.json")
+            except FileNotFoundError:
+                pass
+            except OSError as err:
+                raise os_error(
+                    path, "remove the marker of a damaged task", err
+                ) from err
     return attrs["store_id"], set(done)
+
+
+#: Damaged tasks named one by one in a run's warnings; the rest are counted.
+MAX_WARNINGS = 20
 
 
 def check_store_id(path: Path, store_id: str, task: Task) -> None:
