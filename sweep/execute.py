@@ -1,7 +1,8 @@
 """Running a plan: Dask fans tasks out, numba kernels simulate, the store keeps results.
 
-The only module that imports dask. Local threads use Dask's threaded scheduler (the
-kernel releases the GIL); ``--processes`` starts a ``distributed.LocalCluster`` (a dead
+The only module that imports dask. Local threads are a plain thread pool fed a window
+of tasks (the kernel releases the GIL; a Dask graph of every task took minutes to
+build for 10^5 tasks); ``--processes`` starts a ``distributed.LocalCluster`` (a dead
 worker's task is rerun elsewhere); ``--scheduler`` / ``--scheduler-file`` connect to an
 existing cluster. Every path submits the same task function, so results are
 bit-identical whichever is used.
