@@ -38,6 +38,8 @@ from numba.np.random._constants import (
 )
 from numba.np.random.generator_core import next_double, next_uint64
 
+from kernels.inputs import Geometry, Motion, Outputs, Recording
+
 
 @njit(nogil=True, cache=True)
 def _normal(bits):  # type: ignore[no-untyped-def]
@@ -160,39 +162,17 @@ def _hit_fraction(bits, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[
     return u / (dt + u)
 
 
-def simulate(  # type: ignore[no-untyped-def]
-    rng,
-    n_walkers,
-    start,
-    uniform_start,
-    lower,
-    upper,
-    absorbing_low,
-    absorbing_high,
-    ball_center,
-    ball_radius,
-    ball_absorbing,
-    target_center,
-    target_radius,
-    diffusivity,
-    drift,
-    dt,
-    n_steps,
-    bridge,
-    survival_times,
-    occupancy_steps,
-    occupancy_lower,
-    occupancy_upper,
-    occupancy_bins,
-    out_time,
-    out_wall,
-    out_position,
-    out_survival,
-    out_occupancy,
-    out_final,
-    fpt_bin_width,
-    out_fpt_hist,
-):
+# --------------------------------------------------------------------------- kernel
+
+
+def simulate(
+    rng: np.random.Generator,
+    n_walkers: int,
+    geometry: Geometry,
+    motion: Motion,
+    recording: Recording,
+    out: Outputs,
+) -> int:
     """Simulate ``n_walkers`` walkers to absorption or the horizon.
 
     Parameters
@@ -200,55 +180,10 @@ def simulate(  # type: ignore[no-untyped-def]
     rng : numpy.random.Generator
         This task's own generator; it is advanced.
     n_walkers : int
-    start : float64 (d,)
-        Start point (ignored when ``uniform_start``).
-    uniform_start : bool
-        Start uniformly over the domain outside targets (bounded domains only).
-    lower, upper : float64 (d,)
-        Box extent per axis (+-inf allowed); for a ball, its bounding box.
-    absorbing_low, absorbing_high : bool (d,)
-        Kind of each box face (finite faces only; ignored for a ball).
-    ball_center : float64 (d,), ball_radius : float
-        The ball domain; ``ball_radius = inf`` means a box domain.
-    ball_absorbing : bool
-    target_center : float64 (k, d), target_radius : float64 (k,)
-        Absorbing balls inside the domain.
-    diffusivity : float
-        D, length^2 / time; each axis' variance grows as 2 D t.
-    drift : float64 (d,)
-        Constant velocity, length / time.
-    dt : float
-        Time step.
-    n_steps : int
-        Steps to the horizon; walkers still free then are censored.
-    bridge : bool
-        Brownian-bridge monitoring of absorbing walls between steps.
-    survival_times : float64 (m,)
-        Ascending times at which survivors are counted.
-    occupancy_steps : int64 (s,)
-        Ascending step numbers at which free walkers are binned.
-    occupancy_lower, occupancy_upper : float64 (d,)
-        Histogram range per axis.
-    occupancy_bins : int
-        Bins per axis.
-    out_time : float64 (n_walkers,)
-        First-passage time; NaN when censored.
-    out_wall : int16 (n_walkers,)
-        Index of the absorbing wall (box faces x_lower, x_upper, y_lower, ..., then targets,
-        then the ball surface); -1 when censored.
-    out_position : float64 (n_walkers, d)
-        Position at absorption; NaN when censored.
-    out_survival : int64 (m,)
-        Incremented by the number of walkers with first-passage time > t_k.
-    out_occupancy : int64 (s, occupancy_bins ** d)
-        Incremented by the binned positions of free walkers at each snapshot.
-    out_final : float64 (n_walkers, d)
-        Position at the horizon of walkers still free then; NaN for absorbed ones.
-    fpt_bin_width : float
-        Width of the first-passage-time histogram's bins, time units.
-    out_fpt_hist : int64 (n_walls, n_bins)
-        Incremented at [wall, floor(time / fpt_bin_width)] per absorbed walker; pass
-        shape (0, 0) to skip.
+    geometry, motion, recording : Geometry, Motion, Recording
+        Made by :mod:`kernels.inputs` (``geometry``, ``motion``, ``recording``).
+    out : Outputs
+        Preallocated by ``kernels.inputs.allocate``; written and incremented in place.
 
     Returns
     -------
@@ -260,22 +195,16 @@ def simulate(  # type: ignore[no-untyped-def]
     # loop even when unused), and one to three axes keep the position in registers.
     # A plain-Python dispatcher: an njit one would compile all twelve loops at its
     # first call.
-    a = (
-        rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
-        absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
-        target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
-        occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins, out_time,
-        out_wall, out_position, out_survival, out_occupancy, out_final, fpt_bin_width,
-        out_fpt_hist,
-    )  # fmt: skip
-    if ball_radius < math.inf:
+    if geometry.ball_radius < math.inf:
         shape = BALL
-    elif target_radius.shape[0] > 0:
+    elif geometry.target_radius.shape[0] > 0:
         shape = BOX_TARGETS
     else:
         shape = BOX
-    d = start.shape[0]
-    return _LOOPS[shape, d if d <= 3 else 0](*a)
+    d = geometry.lower.shape[0]
+    return _LOOPS[shape, d if d <= 3 else 0](
+        rng, n_walkers, geometry, motion, recording, out
+    )  # type: ignore[no-any-return]
 
 
 #: Kinds of domain, each stepped by its own compiled loop (the literal ``shape`` of
@@ -284,21 +213,33 @@ BOX, BOX_TARGETS, BALL = 0, 1, 2
 
 
 @njit(nogil=True, cache=True)
-def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
-    """:func:`simulate` with its arguments packed in ``a``, compiled once per literal
-    ``shape`` (:data:`BOX`, :data:`BOX_TARGETS` or :data:`BALL`) and ``dim`` (1-3: the
-    step loop keeps the position in scalar registers; 0: any dimension, positions in
-    arrays)."""
+def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # type: ignore[no-untyped-def]
+    """:func:`simulate`, compiled once per literal ``shape`` (:data:`BOX`,
+    :data:`BOX_TARGETS` or :data:`BALL`) and ``dim`` (1-3: the step loop keeps the
+    position in scalar registers; 0: any dimension, positions in arrays)."""
     numba.literally(shape)
     numba.literally(dim)
-    (
-        rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
-        absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
-        target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
-        occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins, out_time,
-        out_wall, out_position, out_survival, out_occupancy, out_final, fpt_bin_width,
-        out_fpt_hist,
-    ) = a  # fmt: skip
+    lower, upper = geometry.lower, geometry.upper
+    absorbing_low, absorbing_high = geometry.absorbing_lower, geometry.absorbing_upper
+    ball_center, ball_radius = geometry.ball_center, geometry.ball_radius
+    ball_absorbing = geometry.ball_absorbing
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    start, uniform_start = motion.start, motion.uniform_start
+    diffusivity, drift, dt = motion.diffusivity, motion.drift, motion.dt
+    n_steps, bridge = motion.n_steps, motion.bridge
+    survival_times, occupancy_steps = (
+        recording.survival_times,
+        recording.occupancy_steps,
+    )
+    occupancy_lower, occupancy_upper = (
+        recording.occupancy_lower,
+        recording.occupancy_upper,
+    )
+    occupancy_bins, fpt_bin_width = recording.occupancy_bins, recording.fpt_bin_width
+    out_time, out_wall, out_position = out.time, out.wall, out.position
+    out_survival, out_occupancy, out_final = out.survival, out.occupancy, out.final
+    out_fpt_hist = out.fpt_hist
+    record_final = out_final.shape[0] > 0
     d = start.shape[0]
     n_targets = target_radius.shape[0]
     bits = rng.bit_generator  # every draw below comes from it (_normal, next_double)
@@ -666,7 +607,8 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
             out_time[w] = hit_time
             for i in range(d):
                 out_position[w, i] = x[i]
-                out_final[w, i] = math.nan
+                if record_final:
+                    out_final[w, i] = math.nan
             if n_fpt_bins > 0:
                 b = int(hit_time / fpt_bin_width)
                 out_fpt_hist[hit_wall, min(b, n_fpt_bins - 1)] += 1
@@ -676,7 +618,8 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
             out_time[w] = math.nan
             for i in range(d):
                 out_position[w, i] = math.nan
-                out_final[w, i] = x[i]
+                if record_final:
+                    out_final[w, i] = x[i]
             hist[n_survival] += 1
 
     above = 0
@@ -688,34 +631,12 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
 
 def _loop(shape, dim):  # type: ignore[no-untyped-def]
     """The compiled step loop for one kind of domain and number of axes (see
-    :func:`_simulate`), taking :func:`simulate`'s arguments one by one.
-
-    One by one, not packed in a tuple (nor as ``*args``, which numba packs the same
-    way): numba types a tuple argument in Python, one element at a time, which cost
-    0.3 ms per call (20 arrays), 1-2 % of a bench run of the 1-D kernel and time
-    under the GIL, on which two threads serialise; single arguments take its fast
-    path (30 us). Each loop is its own function for numba's on-disk cache, whose
-    index tells them apart by ``shape`` and ``dim`` (the closure's values).
-    """
+    :func:`_simulate`). Each loop is its own function for numba's on-disk cache, whose
+    index tells them apart by ``shape`` and ``dim`` (the closure's values)."""
 
     @njit(nogil=True, cache=True)
-    def loop(  # type: ignore[no-untyped-def]
-        rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
-        absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
-        target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
-        occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins, out_time,
-        out_wall, out_position, out_survival, out_occupancy, out_final, fpt_bin_width,
-        out_fpt_hist,
-    ):  # fmt: skip
-        a = (
-            rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
-            absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
-            target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
-            occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins,
-            out_time, out_wall, out_position, out_survival, out_occupancy, out_final,
-            fpt_bin_width, out_fpt_hist,
-        )  # fmt: skip
-        return _simulate(a, shape, dim)
+    def loop(rng, n_walkers, geometry, motion, recording, out):  # type: ignore[no-untyped-def]
+        return _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim)
 
     return loop
 

@@ -151,19 +151,20 @@ def numpy_walk(
     targets, ball surface, occupancy snapshots) without its bookkeeping of exit points
     and hitting times, which would only slow numpy further.
     """
-    x = np.tile(args.start, (n_walkers, 1))
-    sigma = math.sqrt(2 * args.diffusivity * args.dt)
-    cutoff = 20.0 * args.diffusivity * args.dt
-    drift = args.drift * args.dt
-    lo, hi = args.lower, args.upper
-    refl_lo = np.where(args.absorbing_low, -np.inf, lo)
-    refl_hi = np.where(args.absorbing_high, np.inf, hi)
-    abs_lo = np.where(args.absorbing_low, lo, -np.inf)
-    abs_hi = np.where(args.absorbing_high, hi, np.inf)
-    ball = math.isfinite(args.ball_radius)
-    snapshots = set(args.occupancy_steps.tolist())
+    g, m, r = args.geometry, args.motion, args.recording
+    x = np.tile(m.start, (n_walkers, 1))
+    sigma = math.sqrt(2 * m.diffusivity * m.dt)
+    cutoff = 20.0 * m.diffusivity * m.dt
+    drift = m.drift * m.dt
+    lo, hi = g.lower, g.upper
+    refl_lo = np.where(g.absorbing_lower, -np.inf, lo)
+    refl_hi = np.where(g.absorbing_upper, np.inf, hi)
+    abs_lo = np.where(g.absorbing_lower, lo, -np.inf)
+    abs_hi = np.where(g.absorbing_upper, hi, np.inf)
+    ball = math.isfinite(g.ball_radius)
+    snapshots = set(r.occupancy_steps.tolist())
     steps = 0
-    for step in range(1, args.n_steps + 1):
+    for step in range(1, m.n_steps + 1):
         if x.shape[0] == 0 or steps >= budget:
             break
         steps += x.shape[0]
@@ -175,48 +176,47 @@ def numpy_walk(
             y = np.where(below, 2 * refl_lo - y, y)
             y = np.where(above, 2 * refl_hi - y, y)
         dead = ((y <= abs_lo) | (y >= abs_hi)).any(axis=1)
-        if args.bridge:
+        if m.bridge:
             for a, sign in ((abs_lo, 1.0), (abs_hi, -1.0)):
                 d1, d2 = sign * (x - a), sign * (y - a)
                 prod = np.where(d2 > 0, d1 * d2, np.inf)
                 near = prod < cutoff
                 if near.any():
-                    p = np.exp(-np.where(near, prod, 0) / (args.diffusivity * args.dt))
+                    p = np.exp(-np.where(near, prod, 0) / (m.diffusivity * m.dt))
                     dead |= (near & (rng.random(x.shape) < p)).any(axis=1)
         if ball:
-            r1 = np.linalg.norm(x - args.ball_center, axis=1)
-            r2 = np.linalg.norm(y - args.ball_center, axis=1)
-            if args.ball_absorbing:
-                dead |= r2 >= args.ball_radius
-                if args.bridge:
-                    prod = (args.ball_radius - r1) * (args.ball_radius - r2)
+            r1 = np.linalg.norm(x - g.ball_center, axis=1)
+            r2 = np.linalg.norm(y - g.ball_center, axis=1)
+            if g.ball_absorbing:
+                dead |= r2 >= g.ball_radius
+                if m.bridge:
+                    prod = (g.ball_radius - r1) * (g.ball_radius - r2)
                     near = (prod > 0) & (prod < cutoff)
                     dead |= near & (
-                        rng.random(len(x))
-                        < np.exp(-prod / (args.diffusivity * args.dt))
+                        rng.random(len(x)) < np.exp(-prod / (m.diffusivity * m.dt))
                     )
             else:
-                out = r2 > args.ball_radius
+                out = r2 > g.ball_radius
                 y[out] = (
-                    args.ball_center
-                    + (y[out] - args.ball_center)
-                    * ((2 * args.ball_radius - r2[out]) / r2[out])[:, None]
+                    g.ball_center
+                    + (y[out] - g.ball_center)
+                    * ((2 * g.ball_radius - r2[out]) / r2[out])[:, None]
                 )
-        for center, radius in zip(args.target_center, args.target_radius):
+        for center, radius in zip(g.target_center, g.target_radius):
             r1 = np.linalg.norm(x - center, axis=1) - radius
             r2 = np.linalg.norm(y - center, axis=1) - radius
             dead |= r2 <= 0
-            if args.bridge:
+            if m.bridge:
                 prod = r1 * r2
                 near = (prod > 0) & (prod < cutoff)
                 dead |= near & (
-                    rng.random(len(x)) < np.exp(-prod / (args.diffusivity * args.dt))
+                    rng.random(len(x)) < np.exp(-prod / (m.diffusivity * m.dt))
                 )
         x = y[~dead]
         if step in snapshots:
             edges = [
-                np.linspace(a, b, args.occupancy_bins + 1)
-                for a, b in zip(args.occupancy_lower, args.occupancy_upper)
+                np.linspace(a, b, r.occupancy_bins + 1)
+                for a, b in zip(r.occupancy_lower, r.occupancy_upper)
             ]
             np.histogramdd(x, bins=edges)
     return steps
@@ -279,7 +279,7 @@ class _Runs:
     def measure_pairs(self, first_seed: int) -> None:
         """:data:`PAIRS` kernel runs, each followed by a ceiling run of as many
         walker-steps."""
-        d = self.task.args.start.shape[0]
+        d = self.task.args.geometry.dimension
         for pair in range(PAIRS):
             k, steps = _kernel_rate(self.task)
             self.kernel.append(k)
@@ -387,7 +387,7 @@ class ThreadRuns:
         """``repeats`` more of each of the four timings."""
         if not self.steps:
             _, self.steps = simulate_task(self.task)  # also a warm-up, untimed
-        steps, d = self.steps, self.task.args.start.shape[0]
+        steps, d = self.steps, self.task.args.geometry.dimension
 
         def draws(seed: int) -> None:
             draw_normals(np.random.Generator(BIT_GENERATOR(seed)), steps, d)

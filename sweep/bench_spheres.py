@@ -119,7 +119,7 @@ def measure(
         out_time,
         np.empty(n, dtype=np.int16),
         np.empty((n, 3)),
-        np.zeros(task.args.survival_times.shape[0], dtype=np.int64),
+        np.zeros(task.args.recording.survival_times.shape[0], dtype=np.int64),
         np.zeros((0, 0), dtype=np.int64),
     )
     sphere_cpu = time.process_time() - start

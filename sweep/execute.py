@@ -27,6 +27,7 @@ from typing import Any
 import numpy as np
 
 from kernels import spheres
+from kernels.inputs import allocate
 from kernels.rng import initial_state
 from kernels.walkers import simulate
 from sweep import store
@@ -137,69 +138,28 @@ class RunSummary:
 def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
     """Run the kernel for one task; returns its output and the walker-steps done."""
     a = task.args
-    n, d = task.n_walkers, a.start.shape[0]
-    out_time = np.empty(n, dtype=np.float64)
-    out_wall = np.empty(n, dtype=np.int16)
-    out_position = np.empty((n, d), dtype=np.float64)
-    out_survival = np.zeros(a.survival_times.shape[0], dtype=np.int64)
-    n_snap = a.occupancy_steps.shape[0]
-    out_occupancy = np.zeros(
-        (n_snap, a.occupancy_bins**d if n_snap else 0), dtype=np.int64
-    )
-    out_fpt = np.zeros(
-        (a.n_walls, a.fpt_bins) if a.fpt_bins else (0, 0), dtype=np.int64
-    )
+    n, d = task.n_walkers, a.geometry.dimension
+    out = allocate(n, a.geometry, a.recording)
     if a.scheme == "spheres":
         return _simulate_spheres(
-            task, out_time, out_wall, out_position, out_survival, out_fpt
+            task, out.time, out.wall, out.position, out.survival, out.fpt_hist
         )
-    steps = simulate(
-        task.generator(),
-        n,
-        a.start,
-        a.uniform_start,
-        a.lower,
-        a.upper,
-        a.absorbing_low,
-        a.absorbing_high,
-        a.ball_center,
-        a.ball_radius,
-        a.ball_absorbing,
-        a.target_center,
-        a.target_radius,
-        a.diffusivity,
-        a.drift,
-        a.dt,
-        a.n_steps,
-        a.bridge,
-        a.survival_times,
-        a.occupancy_steps,
-        a.occupancy_lower,
-        a.occupancy_upper,
-        a.occupancy_bins,
-        out_time,
-        out_wall,
-        out_position,
-        out_survival,
-        out_occupancy,
-        np.empty((n, d), dtype=np.float64),
-        a.fpt_bin_width,
-        out_fpt,
-    )
+    steps = simulate(task.generator(), n, a.geometry, a.motion, a.recording, out)
+    n_snap = out.occupancy.shape[0]
     occupancy = None
     if n_snap:
         # The kernel visits snapshots in ascending step order (see plan.kernel_args);
         # undo that sort so rows follow the user's list of times.
-        occupancy = np.empty_like(out_occupancy)
-        occupancy[a.occupancy_order] = out_occupancy
-        occupancy = occupancy.reshape((n_snap, *(a.occupancy_bins,) * d))
+        occupancy = np.empty_like(out.occupancy)
+        occupancy[a.occupancy_order] = out.occupancy
+        occupancy = occupancy.reshape((n_snap, *(a.recording.occupancy_bins,) * d))
     output = store.TaskOutput(
-        out_time,
-        out_wall,
-        out_position,
-        out_survival,
+        out.time,
+        out.wall,
+        out.position,
+        out.survival,
         occupancy,
-        out_fpt if a.fpt_bins else None,
+        out.fpt_hist if a.recording.fpt_bins else None,
     )
     return output, int(steps)
 
@@ -230,37 +190,38 @@ def simulate_spheres_moves(
 ) -> tuple[store.TaskOutput, np.ndarray]:
     """Run the spheres kernel for ``task``; returns its output and (jumps, steps)."""
     a = task.args
+    g, m, r = a.geometry, a.motion, a.recording
     moves = np.zeros(2, dtype=np.int64)
     spheres.simulate(
         initial_state(np.random.SeedSequence(task.entropy)),
         task.n_walkers,
-        a.start,
-        a.uniform_start,
-        a.lower,
-        a.upper,
-        a.absorbing_low,
-        a.absorbing_high,
-        a.ball_center,
-        a.ball_radius,
-        a.ball_absorbing,
-        a.target_center,
-        a.target_radius,
-        a.diffusivity,
-        a.dt,
-        a.n_steps,
-        a.bridge,
+        m.start,
+        m.uniform_start,
+        g.lower,
+        g.upper,
+        g.absorbing_lower,
+        g.absorbing_upper,
+        g.ball_center,
+        g.ball_radius,
+        g.ball_absorbing,
+        g.target_center,
+        g.target_radius,
+        m.diffusivity,
+        m.dt,
+        m.n_steps,
+        m.bridge,
         a.handover,
         a.exit_tau,
         a.exit_dtau,
         a.exit_s0,
         a.exit_ds,
         a.exit_slope,
-        a.survival_times,
+        r.survival_times,
         out_time,
         out_wall,
         out_position,
         out_survival,
-        a.fpt_bin_width,
+        r.fpt_bin_width,
         out_fpt,
         moves,
     )
@@ -270,7 +231,7 @@ def simulate_spheres_moves(
         out_position,
         out_survival,
         None,
-        out_fpt if a.fpt_bins else None,
+        out_fpt if r.fpt_bins else None,
     )
     return output, moves
 

@@ -17,6 +17,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
+from kernels import inputs
 from sweep.analytic import centre_exit_table
 from sweep.spec import PointSpec, Sweep, axis_names
 
@@ -37,33 +38,15 @@ HANDOVER = 3.0
 
 @dataclass(frozen=True)
 class KernelArgs:
-    """Everything the kernel needs for one point, as arrays (see kernels.walkers)."""
+    """Everything the kernel needs for one point (see kernels.walkers), plus how the
+    executor puts its occupancy rows back in the user's order."""
 
-    start: NDArray[np.float64]
-    uniform_start: bool
-    lower: NDArray[np.float64]
-    upper: NDArray[np.float64]
-    absorbing_low: NDArray[np.bool_]
-    absorbing_high: NDArray[np.bool_]
-    ball_center: NDArray[np.float64]
-    ball_radius: float
-    ball_absorbing: bool
-    target_center: NDArray[np.float64]
-    target_radius: NDArray[np.float64]
-    diffusivity: float
-    drift: NDArray[np.float64]
-    dt: float
-    n_steps: int
-    bridge: bool
-    survival_times: NDArray[np.float64]
-    occupancy_steps: NDArray[np.int64]
+    geometry: inputs.Geometry
+    motion: inputs.Motion
+    recording: inputs.Recording
+    #: The kernel walks snapshots in ascending step order; row k of its histogram is
+    #: the user's snapshot occupancy_order[k].
     occupancy_order: NDArray[np.int64]
-    occupancy_lower: NDArray[np.float64]
-    occupancy_upper: NDArray[np.float64]
-    occupancy_bins: int
-    n_walls: int
-    fpt_bins: int
-    fpt_bin_width: float
     #: "steps" or "spheres" (then also the fields below).
     scheme: str = "steps"
     #: Protective radius below which the spheres scheme steps, length units.
@@ -121,7 +104,7 @@ class Plan:
 
     def walker_steps_bound(self) -> int:
         """Walker-steps if no walker is ever absorbed (an upper bound on the work)."""
-        return sum(t.n_walkers * t.args.n_steps for t in self.tasks)
+        return sum(t.n_walkers * t.args.motion.n_steps for t in self.tasks)
 
 
 def point_digest(point: PointSpec) -> tuple[int, ...]:
@@ -145,7 +128,7 @@ def snapshot_steps(point: PointSpec) -> NDArray[np.int64]:
 
 
 def kernel_args(point: PointSpec) -> KernelArgs:
-    """Translate one point's parameters into the kernel's array arguments."""
+    """Translate one point's parameters into the kernel's named inputs."""
     m, tm, dom, rec = point.motion, point.timing, point.domain, point.record
     d = m.dimension
     targets = dom.targets
@@ -163,40 +146,41 @@ def kernel_args(point: PointSpec) -> KernelArgs:
             exit_ds=table.ds,
             exit_slope=table.slope,
         )
+    ball = dom.shape == "ball"
     return KernelArgs(
-        start=np.array(
-            m.start if m.start is not None else [math.nan] * d, dtype=np.float64
+        geometry=inputs.geometry(
+            dom.lower,
+            dom.upper,
+            dom.absorbing_low,
+            dom.absorbing_high,
+            ball_center=dom.center if ball else None,
+            ball_radius=dom.radius if ball else math.inf,
+            ball_absorbing=dom.surface_absorbing,
+            target_center=[t.center for t in targets],
+            target_radius=[t.radius for t in targets],
         ),
-        uniform_start=m.start is None,
-        lower=np.array(dom.lower, dtype=np.float64),
-        upper=np.array(dom.upper, dtype=np.float64),
-        absorbing_low=np.array(dom.absorbing_low, dtype=np.bool_),
-        absorbing_high=np.array(dom.absorbing_high, dtype=np.bool_),
-        ball_center=np.array(
-            dom.center if dom.shape == "ball" else [0.0] * d, dtype=np.float64
+        motion=inputs.motion(
+            m.start,
+            dimension=d,
+            diffusivity=m.diffusivity,
+            dt=tm.dt,
+            n_steps=tm.n_steps,
+            drift=m.drift,
+            bridge=tm.monitoring == "bridge",
         ),
-        ball_radius=dom.radius if dom.shape == "ball" else math.inf,
-        ball_absorbing=dom.surface_absorbing,
-        target_center=np.array([t.center for t in targets], dtype=np.float64).reshape(
-            len(targets), d
+        recording=inputs.recording(
+            d,
+            survival_times=rec.survival_times,
+            # The kernel walks snapshots in ascending step order; the store keeps the
+            # user's order, so results are permuted back on write.
+            occupancy_steps=occupancy_steps[order],
+            occupancy_lower=rec.occupancy_lower or dom.lower,
+            occupancy_upper=rec.occupancy_upper or dom.upper,
+            occupancy_bins=rec.occupancy_bins,
+            fpt_bins=rec.fpt_bins,
+            fpt_bin_width=tm.n_steps * tm.dt / max(rec.fpt_bins, 1),
         ),
-        target_radius=np.array([t.radius for t in targets], dtype=np.float64),
-        diffusivity=m.diffusivity,
-        drift=np.array(m.drift, dtype=np.float64),
-        dt=tm.dt,
-        n_steps=tm.n_steps,
-        bridge=tm.monitoring == "bridge",
-        survival_times=np.array(rec.survival_times, dtype=np.float64),
-        # The kernel walks snapshots in ascending step order; the store keeps the
-        # user's order, so results are permuted back on write.
-        occupancy_steps=occupancy_steps[order],
         occupancy_order=order.astype(np.int64),
-        occupancy_lower=np.array(rec.occupancy_lower or dom.lower, dtype=np.float64),
-        occupancy_upper=np.array(rec.occupancy_upper or dom.upper, dtype=np.float64),
-        occupancy_bins=rec.occupancy_bins,
-        n_walls=len(dom.wall_names()),
-        fpt_bins=rec.fpt_bins,
-        fpt_bin_width=tm.n_steps * tm.dt / max(rec.fpt_bins, 1),
         **spheres,
     )
 

@@ -127,7 +127,7 @@ def sphere_moves(point: PointSpec) -> tuple[float, float]:
         np.empty(n),
         np.empty(n, dtype=np.int16),
         np.empty((n, d)),
-        np.zeros(args.survival_times.shape[0], dtype=np.int64),
+        np.zeros(args.recording.survival_times.shape[0], dtype=np.int64),
         np.zeros((0, 0), dtype=np.int64),
     )
     return float(moves[0]) / n, float(moves[1]) / n

@@ -51,7 +51,12 @@ def test_check_fails_on_mis_scaled_diffusivity(
     for task in plan.tasks:
         wrong = dataclasses.replace(
             task,
-            args=dataclasses.replace(task.args, diffusivity=2 * task.args.diffusivity),
+            args=dataclasses.replace(
+                task.args,
+                motion=task.args.motion._replace(
+                    diffusivity=2 * task.args.motion.diffusivity
+                ),
+            ),
         )
         assert "error" not in run_task(
             str(path), wrong, store.read_attrs(path)["store_id"]

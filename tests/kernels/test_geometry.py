@@ -12,152 +12,28 @@ seeds; every statistic is printed (``pytest -s``) so the margins can be read off
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import replace
 from functools import cache
-from typing import Any, NamedTuple
+from typing import Any
 
 import numpy as np
 import pytest
 from numpy.typing import NDArray
 from scipy import integrate, stats
 
-from kernels.walkers import BALL, BOX_TARGETS, simulate
+from kernels.walkers import BALL, BOX_TARGETS
 from sweep import analytic
-from tests.kernels.test_walkers import (
-    check_p,
-    check_proportion,
-    check_z,
-    mean_and_se,
+from tests.kernels.runner import (
+    Domain,
+    Run,
+    assert_runs_identical,
+    run,
     uncompiled_loop,
 )
+from tests.kernels.test_walkers import check_p, check_proportion, check_z, mean_and_se
 from tests.tolerances import ORDER_TOL, RTOL_F64, RTOL_NUMERIC, Z_STAT
 
 # --------------------------------------------------------------------------- helpers
-
-
-@dataclass(frozen=True)
-class Domain:
-    """Every ``simulate`` argument that is not an output, for a box or a ball domain.
-
-    A box when ``ball_radius`` is infinite (the default); a ball of that radius around
-    ``ball_center`` otherwise, with ``lower`` / ``upper`` its bounding box.
-    """
-
-    start: tuple[float, ...]
-    lower: tuple[float, ...]
-    upper: tuple[float, ...]
-    absorbing_low: tuple[bool, ...]
-    absorbing_high: tuple[bool, ...]
-    diffusivity: float
-    dt: float
-    n_steps: int
-    bridge: bool = True
-    drift: tuple[float, ...] | None = None
-    uniform_start: bool = False
-    ball_center: tuple[float, ...] | None = None
-    ball_radius: float = math.inf
-    ball_absorbing: bool = True
-    target_centers: tuple[tuple[float, ...], ...] = ()
-    target_radii: tuple[float, ...] = ()
-    survival_times: tuple[float, ...] = ()
-    occupancy_steps: tuple[int, ...] = ()
-    occupancy_lower: tuple[float, ...] | None = None
-    occupancy_upper: tuple[float, ...] | None = None
-    occupancy_bins: int = 1
-    fpt_bin_width: float = 1.0
-    fpt_bins: int = 0
-
-    @property
-    def dimension(self) -> int:
-        return len(self.start)
-
-    @property
-    def horizon(self) -> float:
-        return self.n_steps * self.dt
-
-    @property
-    def is_ball(self) -> bool:
-        return math.isfinite(self.ball_radius)
-
-    @property
-    def first_target(self) -> int:
-        """Wall index of target 0: after the 2 d box faces; first for a ball."""
-        return 0 if self.is_ball else 2 * self.dimension
-
-    @property
-    def n_walls(self) -> int:
-        """Wall indices in use: box faces x_lower, x_upper, y_lower, ..., then the targets,
-        then (ball) the ball surface; the first-passage histogram has one row each."""
-        faces = 1 if self.is_ball else 2 * self.dimension
-        return faces + len(self.target_radii)
-
-
-class Run(NamedTuple):
-    """Every output of one ``simulate`` call."""
-
-    time: NDArray[np.float64]
-    wall: NDArray[np.int16]
-    position: NDArray[np.float64]
-    survival: NDArray[np.int64]
-    occupancy: NDArray[np.int64]
-    final: NDArray[np.float64]
-    fpt_hist: NDArray[np.int64]
-    steps: int
-
-
-def run(domain: Domain, n_walkers: int, seed: int, kernel: Any = simulate) -> Run:
-    """Allocate the outputs and call ``kernel`` (``simulate`` or its ``py_func``)."""
-    d = domain.dimension
-    f64 = np.float64
-    occ_lower = domain.occupancy_lower or domain.lower
-    occ_upper = domain.occupancy_upper or domain.upper
-    n_snap = len(domain.occupancy_steps)
-    out = Run(
-        time=np.empty(n_walkers, f64),
-        wall=np.empty(n_walkers, np.int16),
-        position=np.empty((n_walkers, d), f64),
-        survival=np.zeros(len(domain.survival_times), np.int64),
-        occupancy=np.zeros((n_snap, domain.occupancy_bins**d), np.int64),
-        final=np.empty((n_walkers, d), f64),
-        fpt_hist=np.zeros(
-            (domain.n_walls, domain.fpt_bins) if domain.fpt_bins else (0, 0), np.int64
-        ),
-        steps=0,
-    )
-    steps = kernel(
-        np.random.default_rng(seed),
-        n_walkers,
-        np.array(domain.start, f64),
-        bool(domain.uniform_start),
-        np.array(domain.lower, f64),
-        np.array(domain.upper, f64),
-        np.array(domain.absorbing_low, np.bool_),
-        np.array(domain.absorbing_high, np.bool_),
-        np.array(domain.ball_center or (0.0,) * d, f64),
-        float(domain.ball_radius),
-        bool(domain.ball_absorbing),
-        np.array(domain.target_centers, f64).reshape(-1, d),
-        np.array(domain.target_radii, f64).reshape(-1),
-        float(domain.diffusivity),
-        np.array(domain.drift or (0.0,) * d, f64),
-        float(domain.dt),
-        int(domain.n_steps),
-        bool(domain.bridge),
-        np.array(domain.survival_times, f64).reshape(-1),
-        np.array(domain.occupancy_steps, np.int64).reshape(-1),
-        np.array(occ_lower, f64),
-        np.array(occ_upper, f64),
-        int(domain.occupancy_bins),
-        out.time,
-        out.wall,
-        out.position,
-        out.survival,
-        out.occupancy,
-        out.final,
-        float(domain.fpt_bin_width),
-        out.fpt_hist,
-    )
-    return out._replace(steps=int(steps))
 
 
 def ball(
@@ -179,8 +55,8 @@ def ball(
         start=(c[0] + r0,) + c[1:],
         lower=tuple(ci - radius for ci in c),
         upper=tuple(ci + radius for ci in c),
-        absorbing_low=(False,) * dimension,
-        absorbing_high=(False,) * dimension,
+        absorbing_lower=(False,) * dimension,
+        absorbing_upper=(False,) * dimension,
         diffusivity=diffusivity,
         dt=dt,
         n_steps=n_steps,
@@ -208,8 +84,8 @@ def box(
         start=start,
         lower=lower,
         upper=upper,
-        absorbing_low=tuple(w[0] == "absorbing" for w in walls),
-        absorbing_high=tuple(w[1] == "absorbing" for w in walls),
+        absorbing_lower=tuple(w[0] == "absorbing" for w in walls),
+        absorbing_upper=tuple(w[1] == "absorbing" for w in walls),
         diffusivity=diffusivity,
         dt=dt,
         n_steps=n_steps,
@@ -288,7 +164,7 @@ def absorbing_ball_run(case: str) -> tuple[Domain, Run]:
         n_steps=round(BALL_HORIZON / BALL_DT), survival_times=BALL_TIMES,
         center=BALL_CENTER[:dimension],
     )  # fmt: skip
-    result = run(domain, N_BALL, seed=100 + BALL_IDS.index(case))
+    result = run(domain, N_BALL, 100 + BALL_IDS.index(case))
     # The ball surface is wall 0: no box faces, no targets before it.
     assert np.all(result.wall == 0), "walkers censored: lengthen BALL_HORIZON"
     return domain, result
@@ -393,7 +269,7 @@ def test_reflecting_ball_conserves_walkers(dimension: int, dt: float) -> None:
         dimension, radius, 0.9 * radius, diffusivity=D_P, dt=dt, n_steps=n_steps,
         absorbing=False, survival_times=(dt, 10 * dt, n_steps * dt), center=center,
     )  # fmt: skip
-    result = run(domain, n, seed=200 + dimension + int(dt))
+    result = run(domain, n, 200 + dimension + int(dt))
     np.testing.assert_array_equal(result.wall, np.full(n, -1))
     assert np.all(np.isnan(result.time))
     assert np.all(np.isnan(result.position))
@@ -433,7 +309,7 @@ def test_targets_absorb_every_walker_on_their_spheres(case: str) -> None:
     # Mean capture times are below 2 time units; the horizon is 50.
     domain = TARGET_CASES[case]
     n = 4000
-    result = run(domain, n, seed=300 + list(TARGET_CASES).index(case))
+    result = run(domain, n, 300 + list(TARGET_CASES).index(case))
     k = result.wall.astype(np.int64) - domain.first_target
     assert np.all(k >= 0), np.unique(result.wall)
     assert np.all(k < len(domain.target_radii))
@@ -458,7 +334,7 @@ def test_target_in_free_space_survival() -> None:
         target_radii=(a,), survival_times=times,
     )  # fmt: skip
     n = 100_000
-    result = run(domain, n, seed=350)
+    result = run(domain, n, 350)
     assert np.all(result.wall[result.wall >= 0] == domain.first_target)
     # Smoluchowski: S(t) = 1 - (a / r0) erfc((r0 - a) / sqrt(4 D t)). Derived here from
     # the half-line survival (analytic.md B1) by the d = 3 radial reduction u = r p
@@ -674,10 +550,10 @@ N_BOX = 100_000
 @pytest.mark.parametrize("case", list(BOX_SURVIVAL_CASES))
 def test_box_survival_is_product_of_axes(case: str) -> None:
     domain = BOX_SURVIVAL_CASES[case]
-    result = run(domain, N_BOX, seed=600 + list(BOX_SURVIVAL_CASES).index(case))
+    result = run(domain, N_BOX, 600 + list(BOX_SURVIVAL_CASES).index(case))
     walls = tuple(
         ("absorbing" if lo else "reflecting", "absorbing" if hi else "reflecting")
-        for lo, hi in zip(domain.absorbing_low, domain.absorbing_high)
+        for lo, hi in zip(domain.absorbing_lower, domain.absorbing_upper)
     )
     # S_box(t) = prod_i S_i(t), the coordinates being independent: analytic.md D;
     # Carslaw & Jaeger (1959) Ch. VI, product solutions [from memory]. Factors:
@@ -842,7 +718,7 @@ def test_fpt_histogram_equals_binned_times(
         fpt_bin_width=FPT_CASES[case].dt * width_steps,
     )  # fmt: skip
     n = 20_000
-    result = run(domain, n, seed=800 + list(FPT_CASES).index(case))
+    result = run(domain, n, 800 + list(FPT_CASES).index(case))
     absorbed = result.wall >= 0
     walls = result.wall[absorbed].astype(np.int64)
     assert walls.max() < domain.n_walls
@@ -858,7 +734,7 @@ def test_fpt_histogram_equals_binned_times(
     absorbing = np.ones(domain.n_walls, np.bool_)
     if not domain.is_ball:
         absorbing[: 2 * domain.dimension] = np.ravel(
-            np.column_stack([domain.absorbing_low, domain.absorbing_high])
+            np.column_stack([domain.absorbing_lower, domain.absorbing_upper])
         )
     assert np.all(per_wall[absorbing] > 0) and np.all(per_wall[~absorbing] == 0), (
         per_wall
@@ -897,7 +773,7 @@ def test_occupancy_repeated_snapshot_rows_identical(
         domain, bridge=bridge, occupancy_steps=steps, survival_times=snapped
     )
     n = 20_000
-    result = run(domain, n, seed=900 + int(bridge) + 2 * domain.is_ball)
+    result = run(domain, n, 900 + int(bridge) + 2 * domain.is_ball)
     occupancy = result.occupancy
     np.testing.assert_array_equal(occupancy[0], occupancy[1])
     np.testing.assert_array_equal(occupancy[2], occupancy[3])
@@ -964,7 +840,6 @@ def test_general_loop_python_identical_to_compiled(domain: Domain, loop: str) ->
     # outputs to the last bit, in both the register loop (d <= 3) and the array loop.
     dim = domain.dimension if loop == "registers" else 0
     shape = BALL if domain.is_ball else BOX_TARGETS
-    compiled = run(domain, 30, seed=1000)
-    python = run(domain, 30, seed=1000, kernel=uncompiled_loop(shape, dim))
-    for name, a, b in zip(Run._fields, compiled, python):
-        np.testing.assert_array_equal(a, b, err_msg=name)
+    compiled = run(domain, 30, 1000)
+    python = run(domain, 30, 1000, kernel=uncompiled_loop(shape, dim))
+    assert_runs_identical(compiled, python)

@@ -16,10 +16,9 @@ Every statistic is printed (``pytest -s``) so the margins can be read off a run.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
-from dataclasses import asdict, dataclass, replace
+from dataclasses import asdict, replace
 from functools import cache
-from typing import Any, NamedTuple
+from typing import Any
 
 import numpy as np
 import pytest
@@ -27,8 +26,15 @@ from numba import njit
 from numpy.typing import NDArray
 from scipy import special, stats
 
-from kernels.walkers import BOX, _normal, _simulate, draw_normals, simulate
+from kernels.walkers import BOX, _normal, draw_normals
 from tests.kernels.reference import simulate_reference
+from tests.kernels.runner import (
+    Domain,
+    Run,
+    assert_runs_identical,
+    run,
+    uncompiled_loop,
+)
 from tests.tolerances import P_MIN, Z_STAT
 
 #: Broadie-Glasserman-Kou constant beta = -zeta(1/2) / sqrt(2 pi) = 0.5826 (analytic.md
@@ -44,88 +50,7 @@ MIN_SAMPLE = 50
 # --------------------------------------------------------------------------- helpers
 
 
-@dataclass(frozen=True)
-class Box:
-    """The ``simulate`` arguments of a box-domain run with a fixed start point."""
-
-    start: tuple[float, ...]
-    lower: tuple[float, ...]
-    upper: tuple[float, ...]
-    absorbing_low: tuple[bool, ...]
-    absorbing_high: tuple[bool, ...]
-    diffusivity: float
-    drift: tuple[float, ...]
-    dt: float
-    n_steps: int
-    bridge: bool
-    survival_times: tuple[float, ...] = ()
-
-    @property
-    def horizon(self) -> float:
-        return self.n_steps * self.dt
-
-
-class Result(NamedTuple):
-    """Per-walker outputs of one run (``steps`` is -1 for the reference)."""
-
-    time: NDArray[np.float64]
-    wall: NDArray[np.int16]
-    position: NDArray[np.float64]
-    survival: NDArray[np.int64]
-    final: NDArray[np.float64]
-    steps: int
-
-
-def run_kernel(
-    box: Box,
-    n_walkers: int,
-    rng: np.random.Generator,
-    kernel: Callable[..., Any] = simulate,
-) -> Result:
-    """Allocate outputs and call ``kernel`` (``simulate`` or its ``py_func``)."""
-    d = len(box.start)
-    time = np.empty(n_walkers, dtype=np.float64)
-    wall = np.empty(n_walkers, dtype=np.int16)
-    position = np.empty((n_walkers, d), dtype=np.float64)
-    survival = np.zeros(len(box.survival_times), dtype=np.int64)
-    final = np.empty((n_walkers, d), dtype=np.float64)
-    steps = kernel(
-        rng,
-        n_walkers,
-        np.array(box.start, dtype=np.float64),
-        False,  # uniform_start
-        np.array(box.lower, dtype=np.float64),
-        np.array(box.upper, dtype=np.float64),
-        np.array(box.absorbing_low, dtype=np.bool_),
-        np.array(box.absorbing_high, dtype=np.bool_),
-        np.zeros(d, dtype=np.float64),  # ball_center
-        math.inf,  # ball_radius: a box domain
-        False,  # ball_absorbing
-        np.zeros((0, d), dtype=np.float64),  # target_center
-        np.zeros(0, dtype=np.float64),  # target_radius
-        float(box.diffusivity),
-        np.array(box.drift, dtype=np.float64),
-        float(box.dt),
-        int(box.n_steps),
-        bool(box.bridge),
-        np.array(box.survival_times, dtype=np.float64).reshape(-1),
-        np.zeros(0, dtype=np.int64),  # occupancy_steps
-        np.zeros(d, dtype=np.float64),  # occupancy_lower
-        np.ones(d, dtype=np.float64),  # occupancy_upper
-        1,  # occupancy_bins
-        time,
-        wall,
-        position,
-        survival,
-        np.zeros((0, 1), dtype=np.int64),  # out_occupancy
-        final,
-        1.0,  # fpt_bin_width
-        np.zeros((0, 0), dtype=np.int64),  # out_fpt_hist: not recorded
-    )
-    return Result(time, wall, position, survival, final, int(steps))
-
-
-def run_reference(box: Box, n_walkers: int, rng: np.random.Generator) -> Result:
+def run_reference(box: Domain, n_walkers: int, rng: np.random.Generator) -> Run:
     """The same run with the NumPy reference."""
     time, wall, position, survival, final = simulate_reference(
         rng,
@@ -133,16 +58,17 @@ def run_reference(box: Box, n_walkers: int, rng: np.random.Generator) -> Result:
         box.start,
         box.lower,
         box.upper,
-        box.absorbing_low,
-        box.absorbing_high,
+        box.absorbing_lower,
+        box.absorbing_upper,
         box.diffusivity,
-        box.drift,
+        box.drift or (0.0,) * box.dimension,
         box.dt,
         box.n_steps,
         box.bridge,
         box.survival_times,
     )
-    return Result(time, wall, position, survival, final, -1)
+    none = np.zeros((0, 0), np.int64)
+    return Run(time, wall, position, survival, none, final, none, -1)
 
 
 def check_z(
@@ -189,14 +115,14 @@ def interval(
     bridge: bool,
     drift: float = 0.0,
     survival_times: tuple[float, ...] = (),
-) -> Box:
+) -> Domain:
     """A 1-D box [0, length]; ``low`` / ``high`` say whether each end is absorbing."""
-    return Box(
+    return Domain(
         start=(start,),
         lower=(0.0,),
         upper=(length,),
-        absorbing_low=(low,),
-        absorbing_high=(high,),
+        absorbing_lower=(low,),
+        absorbing_upper=(high,),
         diffusivity=diffusivity,
         drift=(drift,),
         dt=dt,
@@ -213,15 +139,15 @@ def free_space(
     diffusivity: float,
     dt: float,
     n_steps: int,
-) -> Box:
+) -> Domain:
     """A box with infinite sides: no wall is ever met."""
     d = len(start)
-    return Box(
+    return Domain(
         start=start,
         lower=(-math.inf,) * d,
         upper=(math.inf,) * d,
-        absorbing_low=(False,) * d,
-        absorbing_high=(False,) * d,
+        absorbing_lower=(False,) * d,
+        absorbing_upper=(False,) * d,
         diffusivity=diffusivity,
         drift=drift,
         dt=dt,
@@ -242,12 +168,12 @@ INTERVAL_AR_DRIFT = interval(
     0.6, 1.0, True, False, diffusivity=0.5, dt=0.01, n_steps=100, bridge=True,
     drift=-0.5, survival_times=(0.1, 0.333, 0.5, 0.777, 1.0),
 )  # fmt: skip
-RECTANGLE_MIXED_DRIFT = Box(
+RECTANGLE_MIXED_DRIFT = Domain(
     start=(0.3, 0.9),
     lower=(0.0, 0.0),
     upper=(1.0, 1.5),
-    absorbing_low=(True, False),
-    absorbing_high=(False, True),
+    absorbing_lower=(True, False),
+    absorbing_upper=(False, True),
     diffusivity=0.5,
     drift=(0.4, -0.3),
     dt=0.01,
@@ -257,12 +183,12 @@ RECTANGLE_MIXED_DRIFT = Box(
 )
 #: Small and coarse: a step often crosses two faces, so "earliest crossing wins"
 #: matters.
-RECTANGLE_ABSORBING_COARSE = Box(
+RECTANGLE_ABSORBING_COARSE = Domain(
     start=(0.2, 0.15),
     lower=(0.0, 0.0),
     upper=(0.5, 0.4),
-    absorbing_low=(True, True),
-    absorbing_high=(True, True),
+    absorbing_lower=(True, True),
+    absorbing_upper=(True, True),
     diffusivity=1.0,
     drift=(0.0, 0.0),
     dt=0.01,
@@ -286,7 +212,7 @@ def test_simulate_matches_reference_in_distribution(case: str, bridge: bool) -> 
     box = replace(REFERENCE_CASES[case], bridge=bridge)
     seed = 20240 + list(REFERENCE_CASES).index(case) + 100 * bridge
     context = f"seed {seed}, {asdict(box)}"
-    kernel = run_kernel(box, N_REFERENCE, np.random.default_rng(seed))
+    kernel = run(box, N_REFERENCE, np.random.default_rng(seed))
     reference = run_reference(box, N_REFERENCE, np.random.default_rng(seed + 1))
     n = N_REFERENCE
     d = len(box.start)
@@ -380,11 +306,6 @@ def test_simulate_matches_reference_in_distribution(case: str, bridge: bool) -> 
 # ------------------------------------------------------------------------- determinism
 
 
-def assert_results_identical(a: Result, b: Result) -> None:
-    for name, x, y in zip(Result._fields, a, b):
-        np.testing.assert_array_equal(x, y, err_msg=name)
-
-
 @njit(nogil=True)
 def fill_normals(rng: Any, out: NDArray[np.float64]) -> None:
     bits = rng.bit_generator
@@ -412,14 +333,14 @@ def test_normal_sampler_reproduces_numpy_stream(bit_generator: Any) -> None:
 
 
 def test_simulate_same_seed_bit_identical() -> None:
-    first = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
-    again = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
-    assert_results_identical(first, again)
+    first = run(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
+    again = run(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
+    assert_runs_identical(first, again)
 
 
 def test_simulate_different_seeds_differ() -> None:
-    first = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
-    other = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(12))
+    first = run(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
+    other = run(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(12))
     assert not np.array_equal(first.time, other.time, equal_nan=True)
     assert not np.array_equal(first.final, other.final, equal_nan=True)
 
@@ -428,8 +349,8 @@ def test_simulate_first_walker_independent_of_walker_count() -> None:
     # Walkers consume one shared stream in order, so walker 0 of a run does not
     # depend on how many walkers follow it.
     box = replace(RECTANGLE_MIXED_DRIFT, survival_times=())
-    many = run_kernel(box, 50, np.random.default_rng(5))
-    one = run_kernel(box, 1, np.random.default_rng(5))
+    many = run(box, 50, np.random.default_rng(5))
+    one = run(box, 1, np.random.default_rng(5))
     for name in ("time", "wall", "position", "final"):
         np.testing.assert_array_equal(
             getattr(one, name), getattr(many, name)[:1], err_msg=name
@@ -437,12 +358,12 @@ def test_simulate_first_walker_independent_of_walker_count() -> None:
 
 
 #: A 3-D box with every kind of face, and a 4-D box (any dimension: the array loop).
-CUBE_MIXED = Box(
+CUBE_MIXED = Domain(
     start=(0.3, 0.9, 0.2),
     lower=(0.0, 0.0, -0.5),
     upper=(1.0, 1.5, 0.5),
-    absorbing_low=(True, False, False),
-    absorbing_high=(False, True, False),
+    absorbing_lower=(True, False, False),
+    absorbing_upper=(False, True, False),
     diffusivity=0.5,
     drift=(0.4, -0.3, 0.2),
     dt=0.01,
@@ -455,18 +376,10 @@ HYPERCUBE = replace(
     start=(0.3, 0.9, 0.2, 0.5),
     lower=(0.0, 0.0, -0.5, 0.0),
     upper=(1.0, 1.5, 0.5, 1.0),
-    absorbing_low=(True, False, False, True),
-    absorbing_high=(False, True, False, True),
+    absorbing_lower=(True, False, False, True),
+    absorbing_upper=(False, True, False, True),
     drift=(0.4, -0.3, 0.2, 0.0),
 )
-
-
-def uncompiled_loop(shape: int, dim: int) -> Callable[..., Any]:
-    """The uncompiled step loop ``_simulate`` with the given literal arguments (``shape``
-    BOX, BOX_TARGETS or BALL; ``dim`` 1-3: scalar registers; 0: arrays, any
-    dimension), calling the compiled helpers. ``simulate`` itself only dispatches to a
-    compiled loop."""
-    return lambda *args: _simulate.py_func(args, shape, dim)
 
 
 @pytest.mark.parametrize(
@@ -483,7 +396,7 @@ def uncompiled_loop(shape: int, dim: int) -> Callable[..., Any]:
          "cube-mixed", "hypercube"],
 )  # fmt: skip
 @pytest.mark.parametrize("loop", ["registers", "arrays"])
-def test_simulate_py_func_identical_to_compiled(box: Box, loop: str) -> None:
+def test_simulate_py_func_identical_to_compiled(box: Domain, loop: str) -> None:
     # numba's Generator methods (random, standard_normal, wald) reproduce NumPy's
     # streams from the same bit generator, so the uncompiled function must agree to
     # the last bit, and leave the generator in the same state. Both step loops (scalar
@@ -492,9 +405,9 @@ def test_simulate_py_func_identical_to_compiled(box: Box, loop: str) -> None:
     dim = d if loop == "registers" and d <= 3 else 0
     compiled_rng = np.random.default_rng(99)
     python_rng = np.random.default_rng(99)
-    compiled = run_kernel(box, 30, compiled_rng)
-    python = run_kernel(box, 30, python_rng, kernel=uncompiled_loop(BOX, dim))
-    assert_results_identical(compiled, python)
+    compiled = run(box, 30, compiled_rng)
+    python = run(box, 30, python_rng, kernel=uncompiled_loop(BOX, dim))
+    assert_runs_identical(compiled, python)
     assert compiled_rng.bit_generator.state == python_rng.bit_generator.state
 
 
@@ -508,12 +421,12 @@ HORIZON_AA = 12.0
 
 
 @cache
-def interval_aa_run(dt: float, bridge: bool, n_walkers: int, seed: int) -> Result:
+def interval_aa_run(dt: float, bridge: bool, n_walkers: int, seed: int) -> Run:
     box = interval(
         X0_P, L_P, True, True, diffusivity=D_P, dt=dt,
         n_steps=round(HORIZON_AA / dt), bridge=bridge,
     )  # fmt: skip
-    result = run_kernel(box, n_walkers, np.random.default_rng(seed))
+    result = run(box, n_walkers, np.random.default_rng(seed))
     assert np.all(result.wall >= 0), "walkers censored: lengthen HORIZON_AA"
     return result
 
@@ -562,7 +475,7 @@ def test_interval_absorbing_reflecting_mean_exit_time() -> None:
         X0_P, L_P, True, False, diffusivity=D_P, dt=dt, n_steps=round(40.0 / dt),
         bridge=True,
     )  # fmt: skip
-    result = run_kernel(box, 50_000, np.random.default_rng(2))
+    result = run(box, 50_000, np.random.default_rng(2))
     assert np.all(result.wall == 0)
     mean, se = mean_and_se(result.time)
     # E T = x0 (2L - x0) / (2D): Redner (2001) Ch. 2, reflecting/absorbing interval
@@ -608,13 +521,13 @@ HALF_LINE_TIMES = (0.137, 0.3, 0.5, 1.234, 2.9)
 
 
 @cache
-def half_line_run() -> tuple[Box, Result]:
-    box = Box(
+def half_line_run() -> tuple[Domain, Run]:
+    box = Domain(
         start=(X0_P,),
         lower=(0.0,),
         upper=(math.inf,),
-        absorbing_low=(True,),
-        absorbing_high=(False,),
+        absorbing_lower=(True,),
+        absorbing_upper=(False,),
         diffusivity=D_P,
         drift=(0.0,),
         dt=0.02,
@@ -622,7 +535,7 @@ def half_line_run() -> tuple[Box, Result]:
         bridge=True,
         survival_times=HALF_LINE_TIMES,
     )
-    return box, run_kernel(box, 100_000, np.random.default_rng(4))
+    return box, run(box, 100_000, np.random.default_rng(4))
 
 
 def test_half_line_survival() -> None:
@@ -648,12 +561,12 @@ def test_half_line_first_passage_law() -> None:
 def test_half_line_drift_toward_wall_inverse_gaussian() -> None:
     # A coarse step: with the bridge test and the in-step hitting time the law is exact.
     v, dt = 0.6, 0.1
-    box = Box(
-        start=(X0_P,), lower=(0.0,), upper=(math.inf,), absorbing_low=(True,),
-        absorbing_high=(False,), diffusivity=D_P, drift=(-v,), dt=dt,
+    box = Domain(
+        start=(X0_P,), lower=(0.0,), upper=(math.inf,), absorbing_lower=(True,),
+        absorbing_upper=(False,), diffusivity=D_P, drift=(-v,), dt=dt,
         n_steps=round(300.0 / dt), bridge=True,
     )  # fmt: skip
-    result = run_kernel(box, 20_000, np.random.default_rng(6))
+    result = run(box, 20_000, np.random.default_rng(6))
     assert np.all(result.wall == 0)
     # T ~ IG(mean x0/v, shape x0^2/(2D)),
     # i.e. scipy.stats.invgauss(2D/(x0 v), scale=x0^2/(2D)):
@@ -675,7 +588,7 @@ def test_free_motion_mean_and_variance(drift: tuple[float, float]) -> None:
     start = (0.3, -1.2)
     box = free_space(start, drift, diffusivity=D_P, dt=0.01, n_steps=50)
     n = 100_000
-    result = run_kernel(box, n, np.random.default_rng(70 + int(drift != (0.0, 0.0))))
+    result = run(box, n, np.random.default_rng(70 + int(drift != (0.0, 0.0))))
     assert np.all(result.wall == -1)
     t = box.horizon
     for axis in range(2):
@@ -699,12 +612,12 @@ def test_free_motion_covariance_at_two_times() -> None:
     dt, n = 0.01, 5000
     first = free_space(start, drift, diffusivity=D_P, dt=dt, n_steps=30)
     rng = np.random.default_rng(8)
-    at_t1 = run_kernel(first, n, rng).final
+    at_t1 = run(first, n, rng).final
     # Continue each walker from its own X(t1): the kernel takes one start point.
     at_t2 = np.empty_like(at_t1)
     for i in range(n):
         more = replace(first, start=tuple(at_t1[i]), n_steps=50)
-        at_t2[i] = run_kernel(more, 1, rng).final[0]
+        at_t2[i] = run(more, 1, rng).final[0]
     t1, t2 = first.horizon, first.horizon + 50 * dt
     context = f"t1 {t1}, t2 {t2}, {asdict(first)}"
     # Cov[X_i(s), X_j(t)] = 2 D min(s, t) delta_ij, whatever the drift: Karlin & Taylor
@@ -729,15 +642,15 @@ def test_free_motion_covariance_at_two_times() -> None:
         interval(0.2, 1.0, False, False, diffusivity=0.8, dt=0.05, n_steps=100,
                  bridge=True, drift=1.3, survival_times=(0.5, 2.5, 5.0)),
         replace(
-            RECTANGLE_MIXED_DRIFT, absorbing_low=(False, False),
-            absorbing_high=(False, False), dt=0.2,
+            RECTANGLE_MIXED_DRIFT, absorbing_lower=(False, False),
+            absorbing_upper=(False, False), dt=0.2,
         ),
     ],
     ids=["interval-RR-drift", "rectangle-reflecting-drift"],
 )  # fmt: skip
-def test_reflecting_box_conserves_walkers(box: Box) -> None:
+def test_reflecting_box_conserves_walkers(box: Domain) -> None:
     n = 5000
-    result = run_kernel(box, n, np.random.default_rng(9))
+    result = run(box, n, np.random.default_rng(9))
     np.testing.assert_array_equal(result.wall, np.full(n, -1))
     assert np.all(np.isnan(result.time))
     assert np.all(np.isnan(result.position))
@@ -753,8 +666,8 @@ def test_reflecting_box_conserves_walkers(box: Box) -> None:
 @pytest.mark.parametrize(
     "box", [INTERVAL_AA, RECTANGLE_MIXED_DRIFT], ids=["interval", "rectangle"]
 )
-def test_simulate_one_walker(box: Box, seed: int) -> None:
-    result = run_kernel(box, 1, np.random.default_rng(seed))
+def test_simulate_one_walker(box: Domain, seed: int) -> None:
+    result = run(box, 1, np.random.default_rng(seed))
     t = result.time[0]
     if result.wall[0] >= 0:
         assert 0.0 < t <= box.horizon
@@ -776,12 +689,12 @@ def test_simulate_one_walker(box: Box, seed: int) -> None:
 @pytest.mark.parametrize("bridge", [True, False], ids=["bridge", "no-bridge"])
 def test_simulate_single_step(bridge: bool, mu: float) -> None:
     x0, diffusivity, dt, n = 0.1, 0.5, 0.02, 100_000
-    box = Box(
-        start=(x0,), lower=(0.0,), upper=(math.inf,), absorbing_low=(True,),
-        absorbing_high=(False,), diffusivity=diffusivity, drift=(mu,), dt=dt,
+    box = Domain(
+        start=(x0,), lower=(0.0,), upper=(math.inf,), absorbing_lower=(True,),
+        absorbing_upper=(False,), diffusivity=diffusivity, drift=(mu,), dt=dt,
         n_steps=1, bridge=bridge, survival_times=(dt / 2, dt),
     )  # fmt: skip
-    result = run_kernel(box, n, np.random.default_rng(10 + int(mu)))
+    result = run(box, n, np.random.default_rng(10 + int(mu)))
     assert result.steps == n
     absorbed = result.wall == 0
     assert np.all(result.time[absorbed] <= dt)
@@ -853,7 +766,7 @@ def test_simulate_start_next_to_absorbing_wall(bridge: bool) -> None:
         x0, 1.0, True, True, diffusivity=diffusivity, dt=dt, n_steps=5, bridge=bridge,
         survival_times=(dt,),
     )  # fmt: skip
-    result = run_kernel(box, n, np.random.default_rng(11))
+    result = run(box, n, np.random.default_rng(11))
     first_step = int(n - result.survival[0])
     sigma = math.sqrt(2 * diffusivity * dt)
     if bridge:
@@ -871,19 +784,19 @@ def test_simulate_start_next_to_absorbing_wall(bridge: bool) -> None:
     [
         interval(5e-4, 1e-3, False, False, diffusivity=1.0, dt=1.0, n_steps=3,
                  bridge=True, drift=0.3, survival_times=(1.0, 3.0)),
-        Box(
+        Domain(
             start=(2e-4, 1e-3), lower=(0.0, 0.0), upper=(1e-3, 2e-3),
-            absorbing_low=(False, False), absorbing_high=(False, False),
+            absorbing_lower=(False, False), absorbing_upper=(False, False),
             diffusivity=1.0, drift=(0.0, -0.5), dt=1.0, n_steps=3, bridge=False,
             survival_times=(1.0, 3.0),
         ),
     ],
     ids=["interval", "rectangle"],
 )  # fmt: skip
-def test_narrow_reflecting_box_huge_steps_keeps_walkers_inside(box: Box) -> None:
+def test_narrow_reflecting_box_huge_steps_keeps_walkers_inside(box: Domain) -> None:
     # sqrt(2 D dt) is ~1400 box widths: each step folds many times.
     n = 2000
-    result = run_kernel(box, n, np.random.default_rng(12))
+    result = run(box, n, np.random.default_rng(12))
     np.testing.assert_array_equal(result.wall, np.full(n, -1))
     np.testing.assert_array_equal(result.survival, np.full(2, n))
     assert np.all((result.final >= box.lower) & (result.final <= box.upper))

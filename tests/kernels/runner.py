@@ -1,0 +1,154 @@
+"""The one runner of the walker kernel in the tests: a :class:`Domain` holds every input
+of a run as plain tuples (easy to ``replace``), :func:`run` turns it into the kernel's
+named inputs with the builders the executor uses (``kernels.inputs``), calls the kernel
+and returns every output."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any, NamedTuple
+
+import numpy as np
+from numpy.typing import NDArray
+
+from kernels import inputs
+from kernels.walkers import _simulate, simulate
+
+
+@dataclass(frozen=True)
+class Domain:
+    """Every kernel input of one run, for a box or a ball domain.
+
+    A box when ``ball_radius`` is infinite (the default); a ball of that radius around
+    ``ball_center`` otherwise, with ``lower`` / ``upper`` its bounding box.
+    """
+
+    start: tuple[float, ...]
+    lower: tuple[float, ...]
+    upper: tuple[float, ...]
+    absorbing_lower: tuple[bool, ...]
+    absorbing_upper: tuple[bool, ...]
+    diffusivity: float
+    dt: float
+    n_steps: int
+    bridge: bool = True
+    drift: tuple[float, ...] | None = None
+    uniform_start: bool = False
+    ball_center: tuple[float, ...] | None = None
+    ball_radius: float = math.inf
+    ball_absorbing: bool = True
+    target_centers: tuple[tuple[float, ...], ...] = ()
+    target_radii: tuple[float, ...] = ()
+    survival_times: tuple[float, ...] = ()
+    occupancy_steps: tuple[int, ...] = ()
+    occupancy_lower: tuple[float, ...] | None = None
+    occupancy_upper: tuple[float, ...] | None = None
+    occupancy_bins: int = 1
+    fpt_bin_width: float = 1.0
+    fpt_bins: int = 0
+
+    @property
+    def dimension(self) -> int:
+        return len(self.start)
+
+    @property
+    def horizon(self) -> float:
+        return self.n_steps * self.dt
+
+    @property
+    def is_ball(self) -> bool:
+        return math.isfinite(self.ball_radius)
+
+    @property
+    def first_target(self) -> int:
+        """Wall index of target 0: after the 2 d box faces; first for a ball."""
+        return 0 if self.is_ball else 2 * self.dimension
+
+    @property
+    def n_walls(self) -> int:
+        """Wall indices in use: box faces x_lower, x_upper, y_lower, ..., then the
+        targets, then (ball) the ball surface; the first-passage histogram has one
+        row each."""
+        faces = 1 if self.is_ball else 2 * self.dimension
+        return faces + len(self.target_radii)
+
+    def kernel_inputs(self) -> tuple[inputs.Geometry, inputs.Motion, inputs.Recording]:
+        """The kernel's named inputs, made as ``sweep.plan`` makes them."""
+        d = self.dimension
+        geometry = inputs.geometry(
+            self.lower,
+            self.upper,
+            self.absorbing_lower,
+            self.absorbing_upper,
+            ball_center=self.ball_center,
+            ball_radius=self.ball_radius,
+            ball_absorbing=self.ball_absorbing,
+            target_center=self.target_centers,
+            target_radius=self.target_radii,
+        )
+        motion = inputs.motion(
+            None if self.uniform_start else self.start,
+            dimension=d,
+            diffusivity=self.diffusivity,
+            dt=self.dt,
+            n_steps=self.n_steps,
+            drift=self.drift,
+            bridge=self.bridge,
+        )
+        recording = inputs.recording(
+            d,
+            survival_times=self.survival_times,
+            occupancy_steps=self.occupancy_steps,
+            occupancy_lower=self.occupancy_lower or self.lower,
+            occupancy_upper=self.occupancy_upper or self.upper,
+            occupancy_bins=self.occupancy_bins,
+            fpt_bins=self.fpt_bins,
+            fpt_bin_width=self.fpt_bin_width,
+            final=True,
+        )
+        return geometry, motion, recording
+
+
+class Run(NamedTuple):
+    """Every output of one run (``steps`` is -1 for the numpy reference)."""
+
+    time: NDArray[np.float64]
+    wall: NDArray[np.int16]
+    position: NDArray[np.float64]
+    survival: NDArray[np.int64]
+    occupancy: NDArray[np.int64]
+    final: NDArray[np.float64]
+    fpt_hist: NDArray[np.int64]
+    steps: int
+
+
+def run(
+    domain: Domain,
+    n_walkers: int,
+    rng: np.random.Generator | int,
+    kernel: Callable[..., Any] = simulate,
+) -> Run:
+    """Run ``kernel`` (``simulate`` or :func:`uncompiled_loop`) on ``domain``; ``rng``
+    is a Generator (advanced) or a seed for ``numpy.random.default_rng``."""
+    if not isinstance(rng, np.random.Generator):
+        rng = np.random.default_rng(rng)
+    geometry, motion, recording = domain.kernel_inputs()
+    out = inputs.allocate(n_walkers, geometry, recording)
+    steps = kernel(rng, n_walkers, geometry, motion, recording, out)
+    return Run(*out, steps=int(steps))
+
+
+def uncompiled_loop(shape: int, dim: int) -> Callable[..., Any]:
+    """The uncompiled step loop ``_simulate`` with the given literal arguments (``shape``
+    BOX, BOX_TARGETS or BALL; ``dim`` 1-3: scalar registers; 0: arrays, any
+    dimension), calling the compiled helpers. ``simulate`` itself only dispatches to a
+    compiled loop."""
+    return lambda *args: _simulate.py_func(*args, shape, dim)
+
+
+def assert_runs_identical(a: Run, b: Run) -> None:
+    """Every output equal to the last bit."""
+    for name, x, y in zip(Run._fields, a, b):
+        np.testing.assert_array_equal(x, y, err_msg=name)
