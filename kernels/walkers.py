@@ -24,7 +24,9 @@ import math
 
 import numba
 import numpy as np
-from numba import njit
+from numba import njit, types
+from numba.core import cgutils
+from numba.core.extending import box
 
 # numpy's ziggurat tables and the raw bit-generator calls, as numba ships them for its
 # own Generator support (tests/kernels/test_walkers.py checks that _normal reproduces
@@ -105,6 +107,50 @@ def _wald(bits, mean, shape):  # type: ignore[no-untyped-def]
     return mean * mean / x
 
 
+# ------------------------------------------------------------------ the generator seam
+# Every draw of the step loop goes through these three, and the random state ``rs``
+# is threaded explicitly through every helper that draws (``z, rs = draw_normal(rs)``):
+# changing the generator (say, to a state kept in local variables) changes these
+# three functions and :func:`_random_state`, nothing else. Today ``rs`` is the task
+# Generator's bit generator, which numba passes by reference, so handing it back is
+# free; the draws are numpy's own (see _normal).
+
+
+@box(types.NumPyRandomBitGeneratorType)
+def _box_bit_generator(typ, val, c):  # type: ignore[no-untyped-def]
+    """Hand a bit generator back to Python as the object it came from, so that the
+    uncompiled step loop (the tests' ``_simulate.py_func``) can call compiled helpers
+    that return the state. Not used by compiled code."""
+    struct = cgutils.create_struct_proxy(typ)(c.context, c.builder, value=val)
+    c.pyapi.incref(struct.parent)
+    return struct.parent
+
+
+@njit(nogil=True, cache=True)
+def _random_state(rng):  # type: ignore[no-untyped-def]
+    """The random state the step loop threads through its draws, from the task's
+    Generator."""
+    return rng.bit_generator
+
+
+@njit(nogil=True, cache=True)
+def draw_normal(rs):  # type: ignore[no-untyped-def]
+    """(standard normal, new state): ``Generator.standard_normal()``'s stream."""
+    return _normal(rs), rs
+
+
+@njit(nogil=True, cache=True)
+def draw_uniform(rs):  # type: ignore[no-untyped-def]
+    """(uniform on [0, 1), new state): ``Generator.random()``'s stream."""
+    return next_double(rs), rs
+
+
+@njit(nogil=True, cache=True)
+def draw_wald(rs, mean, shape):  # type: ignore[no-untyped-def]
+    """(inverse Gaussian variate, new state): ``Generator.wald``'s stream."""
+    return _wald(rs, mean, shape), rs
+
+
 @njit(nogil=True, cache=True)
 def draw_normals(rng, n_steps, dimension):  # type: ignore[no-untyped-def]
     """Draw ``n_steps * dimension`` standard normals as a d-dimensional walk would (the
@@ -141,8 +187,8 @@ SURFACE_MARGIN = 1e-12
 
 
 @njit(nogil=True, cache=True)
-def _hit_fraction(bits, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
-    """Fraction of the step (0, 1] at which the path first touched the wall.
+def _hit_fraction(rs, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+    """(Fraction of the step (0, 1] at which the path first touched the wall, state).
 
     ``alpha`` > 0 is the start's distance to the wall, ``gamma`` >= 0 the end's distance
     (either side). Given a crossing, the hitting time is tau = h U / (h + U) with
@@ -150,16 +196,16 @@ def _hit_fraction(bits, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[
     distributed when gamma = 0. Without the bridge the step end is used.
     """
     if not bridge:
-        return 1.0
+        return 1.0, rs
     if alpha <= 0.0:
-        return 0.0
+        return 0.0, rs
     shape = alpha * alpha / (2.0 * diffusivity)
     if gamma > 0.0:
-        u = _wald(bits, dt * alpha / gamma, shape)
+        u, rs = draw_wald(rs, dt * alpha / gamma, shape)
     else:
-        z = _normal(bits)
+        z, rs = draw_normal(rs)
         u = shape / (z * z) if z != 0.0 else math.inf
-    return u / (dt + u)
+    return u / (dt + u), rs
 
 
 # --------------------------------------------------------------------------- kernel
@@ -242,7 +288,7 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
     record_final = out_final.shape[0] > 0
     d = start.shape[0]
     n_targets = target_radius.shape[0]
-    bits = rng.bit_generator  # every draw below comes from it (_normal, next_double)
+    rs = _random_state(rng)  # threaded through every draw below
     # Compile-time constants of each loop: its tests of the domain's kind fold away
     # (a box with a target ran 8-11 % faster than with them as run-time tests, median
     # of paired runs; DEVELOPERS.md, "Kernels").
@@ -320,7 +366,8 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
         if uniform_start:
             while True:
                 for i in range(d):
-                    x[i] = lower[i] + (upper[i] - lower[i]) * next_double(bits)
+                    u, rs = draw_uniform(rs)
+                    x[i] = lower[i] + (upper[i] - lower[i]) * u
                 if _free(
                     x, is_ball, ball_center, ball_radius, target_center, target_radius
                 ):
@@ -357,13 +404,16 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
                 while step < limit:
                     step += 1
                     # 2. Free increment, mirrored at reflecting faces.
-                    y0 = x0 + s0 + sigma * _normal(bits)
+                    z, rs = draw_normal(rs)
+                    y0 = x0 + s0 + sigma * z
                     y1 = x1
                     y2 = x2
                     if dim >= 2:
-                        y1 = x1 + s1 + sigma * _normal(bits)
+                        z, rs = draw_normal(rs)
+                        y1 = x1 + s1 + sigma * z
                     if dim >= 3:
-                        y2 = x2 + s2 + sigma * _normal(bits)
+                        z, rs = draw_normal(rs)
+                        y2 = x2 + s2 + sigma * z
                     if not is_ball:
                         if y0 < rl0 or y0 > rh0:
                             y0 = _fold(y0, rl0, rh0)
@@ -386,35 +436,35 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
                             p = min(p, (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2))
                         if p <= cut:
                             if (x0 - al0) * (y0 - al0) <= cut:
-                                frac, hit_wall = _earliest(
-                                    bits, x0 - al0, y0 - al0, 0, frac, hit_wall, kill_scale,
+                                frac, hit_wall, rs = _earliest(
+                                    rs, x0 - al0, y0 - al0, 0, frac, hit_wall, kill_scale,
                                     diffusivity, dt, bridge,
                                 )  # fmt: skip
                             if (x0 - ah0) * (y0 - ah0) <= cut:
-                                frac, hit_wall = _earliest(
-                                    bits, ah0 - x0, ah0 - y0, 1, frac, hit_wall, kill_scale,
+                                frac, hit_wall, rs = _earliest(
+                                    rs, ah0 - x0, ah0 - y0, 1, frac, hit_wall, kill_scale,
                                     diffusivity, dt, bridge,
                                 )  # fmt: skip
                             if dim >= 2:
                                 if (x1 - al1) * (y1 - al1) <= cut:
-                                    frac, hit_wall = _earliest(
-                                        bits, x1 - al1, y1 - al1, 2, frac, hit_wall,
+                                    frac, hit_wall, rs = _earliest(
+                                        rs, x1 - al1, y1 - al1, 2, frac, hit_wall,
                                         kill_scale, diffusivity, dt, bridge,
                                     )  # fmt: skip
                                 if (x1 - ah1) * (y1 - ah1) <= cut:
-                                    frac, hit_wall = _earliest(
-                                        bits, ah1 - x1, ah1 - y1, 3, frac, hit_wall,
+                                    frac, hit_wall, rs = _earliest(
+                                        rs, ah1 - x1, ah1 - y1, 3, frac, hit_wall,
                                         kill_scale, diffusivity, dt, bridge,
                                     )  # fmt: skip
                             if dim >= 3:
                                 if (x2 - al2) * (y2 - al2) <= cut:
-                                    frac, hit_wall = _earliest(
-                                        bits, x2 - al2, y2 - al2, 4, frac, hit_wall,
+                                    frac, hit_wall, rs = _earliest(
+                                        rs, x2 - al2, y2 - al2, 4, frac, hit_wall,
                                         kill_scale, diffusivity, dt, bridge,
                                     )  # fmt: skip
                                 if (x2 - ah2) * (y2 - ah2) <= cut:
-                                    frac, hit_wall = _earliest(
-                                        bits, ah2 - x2, ah2 - y2, 5, frac, hit_wall,
+                                    frac, hit_wall, rs = _earliest(
+                                        rs, ah2 - x2, ah2 - y2, 5, frac, hit_wall,
                                         kill_scale, diffusivity, dt, bridge,
                                     )  # fmt: skip
                     if general:
@@ -434,8 +484,8 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
                                 d1 = ball_radius - math.sqrt(rb1)
                                 d2 = ball_radius - math.sqrt(rb2)
                                 if d1 * d2 <= cut:
-                                    f = _crossing(
-                                        bits,
+                                    f, rs = _crossing(
+                                        rs,
                                         d1,
                                         d2,
                                         kill_scale,
@@ -460,8 +510,8 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
                                 d1 = math.sqrt(r1_0) - target_radius[0]
                                 d2 = math.sqrt(r2) - target_radius[0]
                                 if d1 * d2 <= cut:
-                                    f = _crossing(
-                                        bits, d1, d2, kill_scale, diffusivity, dt,
+                                    f, rs = _crossing(
+                                        rs, d1, d2, kill_scale, diffusivity, dt,
                                         bridge,
                                     )  # fmt: skip
                                     if f < frac:
@@ -471,14 +521,14 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
                         if n_targets > 1:
                             # The others in a helper: kept out of this loop, the
                             # common one-target case runs 4 % faster.
-                            frac, hit_wall, far = _other_targets(
-                                bits, x0, x1, x2, y0, y1, y2, far, target_center,
+                            frac, hit_wall, far, rs = _other_targets(
+                                rs, x0, x1, x2, y0, y1, y2, far, target_center,
                                 target_radius, reach2, cut, frac, hit_wall, n_box_walls,
                                 kill_scale, diffusivity, dt, bridge,
                             )  # fmt: skip
                     if hit_wall >= 0:
-                        x0, x1, x2 = _bridge_point(
-                            bits, dim, x0, x1, x2, y0, y1, y2, frac, sigma
+                        x0, x1, x2, rs = _bridge_point(
+                            rs, dim, x0, x1, x2, y0, y1, y2, frac, sigma
                         )
                         break
                     x0 = y0
@@ -535,7 +585,8 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
                 near = False
                 for i in range(d):
                     xi = x[i]
-                    yi = xi + drift_step[i] + sigma * _normal(bits)
+                    z, rs = draw_normal(rs)
+                    yi = xi + drift_step[i] + sigma * z
                     if yi < refl_lo[i] or yi > refl_hi[i]:
                         yi = _fold(yi, refl_lo[i], refl_hi[i])
                     xo[i] = xi
@@ -547,8 +598,8 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
                 # 3. Absorbing faces near the step: crossed at the end or (bridge) in
                 #    between; the earliest crossing wins.
                 if near:
-                    frac, hit_wall = _face_crossing(
-                        bits,
+                    frac, hit_wall, rs = _face_crossing(
+                        rs,
                         xo,
                         x,
                         abs_lo,
@@ -569,8 +620,8 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
                             d1 = ball_radius - _norm(xo, ball_center)
                             d2 = ball_radius - _norm(x, ball_center)
                             if d1 * d2 <= cut:
-                                frac, hit_wall = _earliest(
-                                    bits, d1, d2, n_targets, frac, hit_wall, kill_scale,
+                                frac, hit_wall, rs = _earliest(
+                                    rs, d1, d2, n_targets, frac, hit_wall, kill_scale,
                                     diffusivity, dt, bridge,
                                 )  # fmt: skip
                     for k in range(n_targets):
@@ -584,13 +635,13 @@ def _simulate(rng, n_walkers, geometry, motion, recording, out, shape, dim):  # 
                         d1 = math.sqrt(r1) - target_radius[k]
                         d2 = math.sqrt(r2) - target_radius[k]
                         if d1 * d2 <= cut:
-                            frac, hit_wall = _earliest(
-                                bits, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale,
+                            frac, hit_wall, rs = _earliest(
+                                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale,
                                 diffusivity, dt, bridge,
                             )  # fmt: skip
                 if hit_wall >= 0:
-                    _exit_point(
-                        bits, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
+                    rs = _exit_point(
+                        rs, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
                         is_ball, ball_center, ball_radius, target_center, target_radius,
                     )  # fmt: skip
                     break
@@ -651,12 +702,12 @@ _LOOPS = {
 
 @njit(nogil=True, cache=True)
 def _other_targets(  # type: ignore[no-untyped-def]
-    bits, x0, x1, x2, y0, y1, y2, far, target_center, target_radius, reach2, cut,
+    rs, x0, x1, x2, y0, y1, y2, far, target_center, target_radius, reach2, cut,
     frac, hit_wall, n_box_walls, kill_scale, diffusivity, dt, bridge,
 ):  # fmt: skip
     """The register loop's targets 1, 2, ... for the step (x0, x1, x2) -> (y0, y1, y2)
     (unused axes 0): the earliest crossing, in index order, after target 0's. Returns
-    (frac, hit_wall, far); bit k of ``far`` (k < 63) marks a step start beyond reach of
+    (frac, hit_wall, far, rs); bit k of ``far`` (k < 63) marks a step start beyond reach of
     target k (the last step's end), so its distance need not be computed again."""
     for k in range(1, target_radius.shape[0]):
         r2 = _r2(target_center, k, y0, y1, y2)
@@ -673,18 +724,19 @@ def _other_targets(  # type: ignore[no-untyped-def]
         d1 = math.sqrt(r1) - target_radius[k]
         d2 = math.sqrt(r2) - target_radius[k]
         if d1 * d2 <= cut:
-            frac, hit_wall = _earliest(
-                bits, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
+            frac, hit_wall, rs = _earliest(
+                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
                 dt, bridge,
             )  # fmt: skip
-    return frac, hit_wall, far
+    return frac, hit_wall, far, rs
 
 
 @njit(nogil=True, cache=True)
 def _face_crossing(  # type: ignore[no-untyped-def]
-    bits, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity, dt, bridge
+    rs, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity, dt, bridge
 ):
-    """(fraction of the step, wall index) of the earliest face crossing, or (2.0, -1).
+    """(fraction of the step, wall index, state) of the earliest face crossing;
+    (2.0, -1, state) when none.
 
     Called only for steps that end on, beyond or (bridge) near an absorbing face.
     """
@@ -699,22 +751,22 @@ def _face_crossing(  # type: ignore[no-untyped-def]
             d1 = xo[i] - a if side == 0 else a - xo[i]
             d2 = x[i] - a if side == 0 else a - x[i]
             if d1 * d2 <= cut:
-                frac, wall = _earliest(
-                    bits, d1, d2, 2 * i + side, frac, wall, kill_scale, diffusivity,
+                frac, wall, rs = _earliest(
+                    rs, d1, d2, 2 * i + side, frac, wall, kill_scale, diffusivity,
                     dt, bridge,
                 )  # fmt: skip
-    return frac, wall
+    return frac, wall, rs
 
 
 @njit(nogil=True, cache=True)
-def _earliest(bits, d1, d2, wall, frac, hit_wall, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
-    """(frac, wall) after resolving one surface near the step (distances ``d1``,
-    ``d2``, see :func:`_crossing`): its crossing fraction and index ``wall`` if earlier
-    than ``frac``, else ``frac`` and ``hit_wall`` unchanged."""
-    f = _crossing(bits, d1, d2, kill_scale, diffusivity, dt, bridge)
+def _earliest(rs, d1, d2, wall, frac, hit_wall, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+    """(frac, wall, state) after resolving one surface near the step (distances
+    ``d1``, ``d2``, see :func:`_crossing`): its crossing fraction and index ``wall`` if
+    earlier than ``frac``, else ``frac`` and ``hit_wall`` unchanged."""
+    f, rs = _crossing(rs, d1, d2, kill_scale, diffusivity, dt, bridge)
     if f < frac:
-        return f, wall
-    return frac, hit_wall
+        return f, wall, rs
+    return frac, hit_wall, rs
 
 
 @njit(nogil=True, cache=True)
@@ -763,25 +815,26 @@ def _fold(y, lo, hi):  # type: ignore[no-untyped-def]
 
 
 @njit(nogil=True, cache=True)
-def _crossing(bits, d1, d2, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
-    """Step fraction at which a face was first touched, or 2.0 when it was not.
+def _crossing(rs, d1, d2, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+    """(Step fraction at which a face was first touched, or 2.0 when it was not;
+    state).
 
     ``d1`` > 0 and ``d2`` are the signed distances of the step's start and end from
     the face (negative: beyond it). An end inside is killed with the bridge crossing
     probability exp(-d1 d2 / (D dt)).
     """
     if d2 > 0.0:
-        u = next_double(bits)
+        u, rs = draw_uniform(rs)
         z = d1 * d2 * kill_scale
         # Survival, u >= exp(-z), is mostly decided without exp: e^z >= the cubic
         # 1 + z + z^2/2 + z^3/6, so u * cubic >= 1 + margin implies it. The margin,
         # far above the rounding of both sides, makes the decision the same as
         # exp's in every case, so the draws stay bit-identical.
         if u * (1.0 + z * (1.0 + z * (0.5 + z * (1.0 / 6.0)))) >= EXP_MARGIN:
-            return 2.0
+            return 2.0, rs
         if u >= math.exp(-z):
-            return 2.0
-    return _hit_fraction(bits, d1, abs(d2), diffusivity, dt, bridge)
+            return 2.0, rs
+    return _hit_fraction(rs, d1, abs(d2), diffusivity, dt, bridge)
 
 
 @njit(nogil=True, cache=True)
@@ -848,25 +901,27 @@ def _mirror(y0, y1, y2, c0, c1, c2, radius):  # type: ignore[no-untyped-def]
 
 @njit(nogil=True, cache=True)
 def _exit_point(  # type: ignore[no-untyped-def]
-    bits, x, y, frac, sigma, wall, n_box_walls, lower, upper,
+    rs, x, y, frac, sigma, wall, n_box_walls, lower, upper,
     is_ball, ball_center, ball_radius, target_center, target_radius,
 ):  # fmt: skip
     """Overwrite ``y`` with the position at absorption, a fraction ``frac`` into the step.
 
     Off the wall's normal the path is a Brownian bridge between x and y: a normal with
     mean x + (y - x) frac and variance sigma^2 frac (1 - frac). The point is then put
-    on the wall (flat: its coordinate; curved: the radial projection).
+    on the wall (flat: its coordinate; curved: the radial projection). Returns the
+    random state.
     """
     d = x.shape[0]
     spread = sigma * math.sqrt(max(frac * (1.0 - frac), 0.0))
     for i in range(d):
-        y[i] = x[i] + (y[i] - x[i]) * frac + spread * _normal(bits)
+        z, rs = draw_normal(rs)
+        y[i] = x[i] + (y[i] - x[i]) * frac + spread * z
     if wall < n_box_walls:
         axis = wall // 2
         for i in range(d):
             y[i] = min(max(y[i], lower[i]), upper[i])
         y[axis] = lower[axis] if wall % 2 == 0 else upper[axis]
-        return
+        return rs
     if wall - n_box_walls < target_radius.shape[0]:
         k = wall - n_box_walls
         _project(y, target_center[k], target_radius[k])
@@ -875,22 +930,26 @@ def _exit_point(  # type: ignore[no-untyped-def]
     if not is_ball:
         for i in range(d):
             y[i] = min(max(y[i], lower[i]), upper[i])
+    return rs
 
 
 @njit(nogil=True, cache=True)
-def _bridge_point(bits, dim, x0, x1, x2, y0, y1, y2, frac, sigma):  # type: ignore[no-untyped-def]
+def _bridge_point(rs, dim, x0, x1, x2, y0, y1, y2, frac, sigma):  # type: ignore[no-untyped-def]
     """The first part of :func:`_exit_point` on scalars (the first ``dim`` axes drawn,
     the others returned as 0): the bridge's position a fraction ``frac`` into the step
-    (x0, x1, x2) -> (y0, y1, y2)."""
+    (x0, x1, x2) -> (y0, y1, y2), and the random state."""
     spread = sigma * math.sqrt(max(frac * (1.0 - frac), 0.0))
-    z0 = x0 + (y0 - x0) * frac + spread * _normal(bits)
+    z, rs = draw_normal(rs)
+    z0 = x0 + (y0 - x0) * frac + spread * z
     z1 = 0.0
     z2 = 0.0
     if dim >= 2:
-        z1 = x1 + (y1 - x1) * frac + spread * _normal(bits)
+        z, rs = draw_normal(rs)
+        z1 = x1 + (y1 - x1) * frac + spread * z
     if dim >= 3:
-        z2 = x2 + (y2 - x2) * frac + spread * _normal(bits)
-    return z0, z1, z2
+        z, rs = draw_normal(rs)
+        z2 = x2 + (y2 - x2) * frac + spread * z
+    return z0, z1, z2, rs
 
 
 @njit(nogil=True, cache=True)

@@ -742,7 +742,7 @@ def test_hit_fraction_law(x2: float, case: str) -> None:
     rng = np.random.default_rng(14)
     fractions = np.array(
         [
-            _hit_fraction(rng.bit_generator, alpha, gamma, diffusivity, h, True)
+            _hit_fraction(rng.bit_generator, alpha, gamma, diffusivity, h, True)[0]
             for _ in range(n)
         ]
     )
