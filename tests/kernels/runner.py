@@ -13,8 +13,8 @@ from typing import Any, NamedTuple
 import numpy as np
 from numpy.typing import NDArray
 
-from kernels import inputs
-from kernels.walkers import _simulate, simulate
+from kernels import _loops, inputs
+from kernels.walkers import simulate
 
 
 @dataclass(frozen=True)
@@ -140,12 +140,11 @@ def run(
     return Run(*out, steps=int(steps))
 
 
-def uncompiled_loop(shape: int, dim: int) -> Callable[..., Any]:
-    """The uncompiled step loop ``_simulate`` with the given literal arguments (``shape``
-    BOX, BOX_TARGETS or BALL; ``dim`` 1-3: scalar registers; 0: arrays, any
-    dimension), calling the compiled helpers. ``simulate`` itself only dispatches to a
-    compiled loop."""
-    return lambda *args: _simulate.py_func(*args, shape, dim)
+def uncompiled_loop(kind: int, dim: int) -> Callable[..., Any]:
+    """The generated step loop for ``kind`` (BOX, BOX_TARGETS or BALL) and ``dim``
+    axes, uncompiled (its ``py_func``), calling the compiled helpers; ``simulate``
+    itself only dispatches to a compiled loop."""
+    return _loops.LOOPS[kind, dim].py_func  # type: ignore[no-any-return]
 
 
 def assert_runs_identical(a: Run, b: Run) -> None:

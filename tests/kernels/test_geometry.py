@@ -833,13 +833,11 @@ REFLECTING_DISC = ball(
     ids=["absorbing-ball-targets", "box-targets-no-bridge", "reflecting-ball-target",
          "uniform-start-targets", "reflecting-disc", "70-targets"],
 )  # fmt: skip
-@pytest.mark.parametrize("loop", ["registers", "arrays"])
-def test_general_loop_python_identical_to_compiled(domain: Domain, loop: str) -> None:
+def test_general_loop_python_identical_to_compiled(domain: Domain) -> None:
     # numba's Generator methods reproduce NumPy's streams from the same bit generator,
-    # so the uncompiled loop (ball and target code in) must give the compiled kernel's
-    # outputs to the last bit, in both the register loop (d <= 3) and the array loop.
-    dim = domain.dimension if loop == "registers" else 0
-    shape = BALL if domain.is_ball else BOX_TARGETS
+    # so the uncompiled generated loop (ball and target code in) must give the
+    # compiled kernel's outputs to the last bit.
+    kind = BALL if domain.is_ball else BOX_TARGETS
     compiled = run(domain, 30, 1000)
-    python = run(domain, 30, 1000, kernel=uncompiled_loop(shape, dim))
+    python = run(domain, 30, 1000, kernel=uncompiled_loop(kind, domain.dimension))
     assert_runs_identical(compiled, python)

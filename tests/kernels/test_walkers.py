@@ -357,7 +357,7 @@ def test_simulate_first_walker_independent_of_walker_count() -> None:
         )
 
 
-#: A 3-D box with every kind of face, and a 4-D box (any dimension: the array loop).
+#: A 3-D box with every kind of face, and a 4-D box.
 CUBE_MIXED = Domain(
     start=(0.3, 0.9, 0.2),
     lower=(0.0, 0.0, -0.5),
@@ -395,14 +395,11 @@ HYPERCUBE = replace(
     ids=["rectangle-bridge", "rectangle-no-bridge", "rectangle-coarse", "interval-AR",
          "cube-mixed", "hypercube"],
 )  # fmt: skip
-@pytest.mark.parametrize("loop", ["registers", "arrays"])
-def test_simulate_py_func_identical_to_compiled(box: Domain, loop: str) -> None:
+def test_simulate_py_func_identical_to_compiled(box: Domain) -> None:
     # numba's Generator methods (random, standard_normal, wald) reproduce NumPy's
-    # streams from the same bit generator, so the uncompiled function must agree to
-    # the last bit, and leave the generator in the same state. Both step loops (scalar
-    # registers for d <= 3, arrays for any d) must give the same bits.
-    d = len(box.start)
-    dim = d if loop == "registers" and d <= 3 else 0
+    # streams from the same bit generator, so the uncompiled generated loop must agree
+    # to the last bit, and leave the generator in the same state.
+    dim = len(box.start)
     compiled_rng = np.random.default_rng(99)
     python_rng = np.random.default_rng(99)
     compiled = run(box, 30, compiled_rng)

@@ -1,0 +1,353 @@
+# ruff: noqa: F821, B007
+"""THE STEP LOOP, WRITTEN ONCE: the template of every compiled walker loop.
+
+This file is read, never imported: ``kernels/generate.py`` specialises it into
+``kernels/_loops.py`` (checked in, do not edit) once per kind of domain (``KIND``: a
+box, a box with targets, a ball) and number of axes (``DIM``, 1 to 8), and
+``tests/kernels/test_generated.py`` regenerates it and fails on any difference. It is
+Python with three mechanical rules, so it reads top to bottom as the algorithm:
+
+* ``for i in AXES:`` is unrolled, one copy of its body per axis; in it ``name_i`` is
+  the scalar ``name0``, ``name1``, ... and a bare ``i`` the axis number. Outside such
+  a loop, ``sum(E for i in AXES)``, ``min(E for i in AXES)`` and
+  ``tuple(E for i in AXES)`` are written out axis by axis (sums from the first axis
+  on, in order).
+* ``if static(COND):`` (with an optional ``else:``) is decided when generating, from
+  ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``) and ``DIM``: each loop holds only the
+  code of its own kind of domain.
+* Every function here is emitted once per (kind, dimension) under a suffixed name, and
+  calls between them are renamed to match.
+
+Why generated, not numba-level specialisation: the position must live in scalar
+registers, because the generator is called through a function pointer, after which
+numba reloads every array element (DEVELOPERS.md, "Kernels"). Numba's own means of
+writing the step once for any dimension keep it in a tuple (``tuple_setitem`` in a
+loop over a literal dimension): measured on a 3-D reflecting box (same run, fastest of
+7), 58 M steps/s against 78 M for scalars and 68 M for arrays. Unrolled text costs
+nothing at run time, gives registers for every dimension up to 8 (the array loop
+for d > 3 is gone), and leaves one readable loop per case to step through with
+``NUMBA_DISABLE_JIT=1`` or ``py_func``.
+
+Draws: every draw goes through the generator seam of ``kernels/walkers.py``
+(``draw_normal``, ``draw_uniform``; ``_crossing`` draws the bridge's), with the random
+state ``rs`` threaded through explicitly. The order of draws and the arithmetic are
+those of the kernel before this template (``benchmarks/bit_identity.py`` checks it).
+
+Adding a kind of surface: its parameters go into ``Geometry`` (``kernels/inputs.py``);
+here, one block in section 3 ("surfaces near the step") that computes the signed
+distances d1, d2 of the step's start and end and calls ``_earliest``, one placement
+in section 5 ("exit point"), and a wall index after the existing ones.
+"""
+
+
+def simulate_loop(rng, n_walkers, geometry, motion, recording, out):
+    """Simulate ``n_walkers`` walkers to absorption or the horizon; see
+    ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
+    lower, upper = geometry.lower, geometry.upper
+    ball_center, ball_radius = geometry.ball_center, geometry.ball_radius
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    dt, bridge = motion.dt, motion.bridge
+    diffusivity, n_steps = motion.diffusivity, motion.n_steps
+    occupancy_steps, bins = recording.occupancy_steps, recording.occupancy_bins
+    survival_times = recording.survival_times
+    record_final = out.final.shape[0] > 0
+    n_targets = target_radius.shape[0]
+    n_snapshots = occupancy_steps.shape[0]
+    rs = _random_state(rng)  # threaded through every draw below
+    if static(KIND == BALL):
+        n_box_walls = 0
+    else:
+        n_box_walls = 2 * DIM
+    sigma = math.sqrt(2.0 * diffusivity * dt)
+    # One test per surface and step: d1 d2 <= cut holds when the step ends on or
+    # beyond it, or (bridge) ends near it; d1, d2 are signed distances (positive
+    # inside the domain) of the step's start and end.
+    cut = BRIDGE_CUTOFF * diffusivity * dt if bridge else 0.0
+    kill_scale = 1.0 / (diffusivity * dt)
+    n_survival = survival_times.shape[0]
+    n_fpt_bins = out.fpt_hist.shape[1] if out.fpt_hist.shape[0] > 0 else 0
+    hist = np.zeros(n_survival + 1, np.int64)
+    x = np.empty(DIM)  # start and end point of a walker
+    # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    absorbing_faces = False
+    for i in AXES:
+        s_i = motion.drift[i] * dt
+        lo_i = lower[i]
+        hi_i = upper[i]
+        rl_i = -math.inf
+        rh_i = math.inf
+        al_i = -math.inf
+        ah_i = math.inf
+        if static(KIND != BALL):
+            if geometry.absorbing_lower[i]:
+                al_i = lower[i]
+            else:
+                rl_i = lower[i]
+            if geometry.absorbing_upper[i]:
+                ah_i = upper[i]
+            else:
+                rh_i = upper[i]
+        absorbing_faces = absorbing_faces or al_i > -math.inf or ah_i < math.inf
+        ol_i = recording.occupancy_lower[i]
+        oh_i = recording.occupancy_upper[i]
+        bc_i = ball_center[i]
+        tc_i = target_center[0, i] if n_targets > 0 else 0.0
+    # A target or ball surface is only examined for steps that start or end within
+    # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
+    # monitoring only needs steps that end inside (SURFACE_MARGIN).
+    reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if bridge:
+            reach = target_radius[k] + REACH * sigma
+        else:
+            reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
+        reach2[k] = reach * reach
+    reach_0 = reach2[0] if n_targets > 0 else -1.0
+    ball_r2 = ball_radius * ball_radius
+    if bridge:
+        inner = ball_radius - REACH * sigma
+    else:
+        inner = ball_radius * (1.0 - SURFACE_MARGIN)
+    inner2 = inner * inner if inner > 0.0 else -1.0
+    steps_done = 0
+
+    for w in range(n_walkers):
+        # 1. Start point: given, or uniform over the domain outside targets (rejection).
+        if motion.uniform_start:
+            while True:
+                for i in range(DIM):
+                    u, rs = draw_uniform(rs)
+                    x[i] = lower[i] + (upper[i] - lower[i]) * u
+                if _free(
+                    x, static(KIND == BALL), ball_center, ball_radius, target_center,
+                    target_radius,
+                ):  # fmt: skip
+                    break
+        else:
+            for i in range(DIM):
+                x[i] = motion.start[i]
+        for i in AXES:
+            x_i = x[i]
+        hit_wall = -1
+        frac = 2.0
+        step = 0
+        o = 0  # next snapshot; one at step 0 is binned by the snapshot code below
+        next_snapshot = occupancy_steps[0] if n_snapshots > 0 else -1
+        # Squared distances of the step's start from the ball's center and target 0,
+        # carried from step to step; bit k of ``far`` marks a start beyond the reach
+        # of target k > 0 (see other_targets).
+        rb1 = sum((x_i - bc_i) ** 2 for i in AXES)
+        r1_0 = sum((x_i - tc_i) ** 2 for i in AXES) if n_targets > 0 else math.inf
+        far = np.int64(0)
+        for k in range(1, min(n_targets, 63)):
+            if sum((x_i - target_center[k, i]) ** 2 for i in AXES) > reach2[k]:
+                far |= np.int64(1) << k
+        while True:
+            # Steps up to the next snapshot (or the horizon) in an inner loop, so the
+            # common step does not test for a snapshot (8 % in 1-D).
+            limit = n_steps
+            if 0 <= next_snapshot <= n_steps:
+                limit = next_snapshot
+            while step < limit:
+                step += 1
+                # 2. Free increment, mirrored at reflecting faces (2a - y, folded
+                #    only when that overshoots the opposite face).
+                for i in AXES:
+                    z, rs = draw_normal(rs)
+                    y_i = x_i + s_i + sigma * z
+                if static(KIND != BALL):
+                    for i in AXES:
+                        if y_i < rl_i or y_i > rh_i:
+                            y_i = _fold(y_i, rl_i, rh_i)
+                # 3. Surfaces near the step: each resolved by _earliest (crossed at
+                #    the end, or with the bridge's probability in between); the
+                #    earliest crossing wins, ties to the lowest wall index.
+                if static(KIND == BOX):
+                    faces = True
+                elif static(KIND == BOX_TARGETS):
+                    faces = absorbing_faces
+                else:
+                    faces = False
+                if faces:
+                    # Absorbing box faces: one branch per step on the smallest
+                    # product, then each face, axis by axis, lower first.
+                    p = min(
+                        min((x_i - al_i) * (y_i - al_i), (x_i - ah_i) * (y_i - ah_i))
+                        for i in AXES
+                    )
+                    if p <= cut:
+                        for i in AXES:
+                            if (x_i - al_i) * (y_i - al_i) <= cut:
+                                frac, hit_wall, rs = _earliest(
+                                    rs, x_i - al_i, y_i - al_i, 2 * i, frac,
+                                    hit_wall, kill_scale, diffusivity, dt, bridge,
+                                )  # fmt: skip
+                            if (x_i - ah_i) * (y_i - ah_i) <= cut:
+                                frac, hit_wall, rs = _earliest(
+                                    rs, ah_i - x_i, ah_i - y_i, 2 * i + 1, frac,
+                                    hit_wall, kill_scale, diffusivity, dt, bridge,
+                                )  # fmt: skip
+                if static(KIND == BALL):
+                    # The ball's surface: radial mirror image, or distances along
+                    # the radius (to the tangent plane) within REACH sigma of it.
+                    rb2 = sum((y_i - bc_i) ** 2 for i in AXES)
+                    if not geometry.ball_absorbing:
+                        while rb2 > ball_r2:
+                            r = math.sqrt(rb2)
+                            scale = (2.0 * ball_radius - r) / r
+                            for i in AXES:
+                                y_i = bc_i + (y_i - bc_i) * scale
+                            rb2 = sum((y_i - bc_i) ** 2 for i in AXES)
+                    elif rb1 >= inner2 or rb2 >= inner2:
+                        d1 = ball_radius - math.sqrt(rb1)
+                        d2 = ball_radius - math.sqrt(rb2)
+                        if d1 * d2 <= cut:
+                            f, rs = _crossing(
+                                rs, d1, d2, kill_scale, diffusivity, dt, bridge
+                            )
+                            if f < frac:
+                                frac = f
+                                hit_wall = n_targets
+                    rb1 = rb2
+                if static(KIND != BOX):
+                    # Targets: target 0 (most set-ups have one) with its start
+                    # distance carried from the last step, the others in a helper.
+                    if static(KIND == BOX_TARGETS):
+                        has_targets = True
+                    else:
+                        has_targets = n_targets > 0
+                    if has_targets:
+                        r2 = sum((y_i - tc_i) ** 2 for i in AXES)
+                        if r2 <= reach_0 or r1_0 <= reach_0:
+                            d1 = math.sqrt(r1_0) - target_radius[0]
+                            d2 = math.sqrt(r2) - target_radius[0]
+                            if d1 * d2 <= cut:
+                                f, rs = _crossing(
+                                    rs, d1, d2, kill_scale, diffusivity, dt, bridge
+                                )
+                                if f < frac:
+                                    frac = f
+                                    hit_wall = n_box_walls
+                        r1_0 = r2
+                    if n_targets > 1:
+                        frac, hit_wall, far, rs = other_targets(
+                            rs, tuple(x_i for i in AXES), tuple(y_i for i in AXES),
+                            far, target_center, target_radius, reach2, cut, frac,
+                            hit_wall, n_box_walls, kill_scale, diffusivity, dt, bridge,
+                        )  # fmt: skip
+                # 4. Absorbed: the Brownian bridge's position at the crossing time
+                #    (mean x + (y - x) frac, variance sigma^2 frac (1 - frac)).
+                if hit_wall >= 0:
+                    spread = sigma * math.sqrt(max(frac * (1.0 - frac), 0.0))
+                    for i in AXES:
+                        z, rs = draw_normal(rs)
+                        x_i = x_i + (y_i - x_i) * frac + spread * z
+                    break
+                for i in AXES:
+                    x_i = y_i
+            if hit_wall >= 0:
+                break
+            if step == next_snapshot:
+                # Occupancy: the free walker's cell in every snapshot due now.
+                cell = 0
+                for i in AXES:
+                    cell = _cell_next(cell, x_i, ol_i, oh_i, bins)
+                while o < n_snapshots and occupancy_steps[o] == step:
+                    if cell >= 0:
+                        out.occupancy[o, cell] += 1
+                    o += 1
+                next_snapshot = occupancy_steps[o] if o < n_snapshots else -1
+            if step >= n_steps:
+                break
+        # 5. Exit point: the bridge's position put on the surface hit (a face: its
+        #    coordinate, the others clamped into the box; a sphere: the radial
+        #    projection, clamped into the box unless the domain is a ball).
+        if hit_wall >= 0:
+            if hit_wall < n_box_walls:
+                for i in AXES:
+                    x_i = min(max(x_i, lo_i), hi_i)
+                    if hit_wall == 2 * i:
+                        x_i = lo_i
+                    elif hit_wall == 2 * i + 1:
+                        x_i = hi_i
+            else:
+                k = hit_wall - n_box_walls
+                if k < n_targets:
+                    radius = target_radius[k]
+                    for i in AXES:
+                        c_i = target_center[k, i]
+                else:
+                    radius = ball_radius
+                    for i in AXES:
+                        c_i = bc_i
+                r = math.sqrt(sum((x_i - c_i) ** 2 for i in AXES))
+                if r == 0.0:  # the center: any point of the sphere will do
+                    for i in AXES:
+                        x_i = c_i + radius if i == 0 else c_i
+                else:
+                    scale = radius / r
+                    for i in AXES:
+                        x_i = c_i + (x_i - c_i) * scale
+                if static(KIND != BALL):
+                    for i in AXES:
+                        x_i = min(max(x_i, lo_i), hi_i)
+        # 6. Bookkeeping: time, wall, position, histograms, survival counts.
+        steps_done += step
+        out.wall[w] = hit_wall
+        if hit_wall >= 0:
+            hit_time = (step - 1 + frac) * dt
+            out.time[w] = hit_time
+            for i in AXES:
+                out.position[w, i] = x_i
+                if record_final:
+                    out.final[w, i] = math.nan
+            if n_fpt_bins > 0:
+                b = int(hit_time / recording.fpt_bin_width)
+                out.fpt_hist[hit_wall, min(b, n_fpt_bins - 1)] += 1
+            # Counted at every grid time before the absorption.
+            hist[np.searchsorted(survival_times, hit_time, side="left")] += 1
+        else:
+            out.time[w] = math.nan
+            for i in AXES:
+                out.position[w, i] = math.nan
+                if record_final:
+                    out.final[w, i] = x_i
+            hist[n_survival] += 1
+
+    above = 0
+    for k in range(n_survival - 1, -1, -1):
+        above += hist[k + 1]
+        out.survival[k] += above
+    return steps_done
+
+
+def other_targets(
+    rs, xs, ys, far, target_center, target_radius, reach2, cut, frac, hit_wall,
+    n_box_walls, kill_scale, diffusivity, dt, bridge,
+):  # fmt: skip
+    """Targets 1, 2, ... for the step ``xs`` -> ``ys`` (tuples of the axes): the
+    earliest crossing, in index order, after target 0's. Returns (frac, hit_wall, far,
+    rs); bit k of ``far`` (k < 63) marks a step start beyond reach of target k (the
+    last step's end), so its distance need not be computed again. Kept out of the
+    step loop: the common one-target case runs 4 % faster."""
+    for k in range(1, target_radius.shape[0]):
+        r2 = sum((ys[i] - target_center[k, i]) ** 2 for i in AXES)
+        bit = np.int64(1) << k if k < 63 else np.int64(0)
+        if r2 > reach2[k]:
+            if far & bit:
+                continue
+            far |= bit
+        else:
+            far &= ~bit
+        r1 = sum((xs[i] - target_center[k, i]) ** 2 for i in AXES)
+        if r2 > reach2[k] and r1 > reach2[k]:
+            continue
+        d1 = math.sqrt(r1) - target_radius[k]
+        d2 = math.sqrt(r2) - target_radius[k]
+        if d1 * d2 <= cut:
+            frac, hit_wall, rs = _earliest(
+                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
+                dt, bridge,
+            )  # fmt: skip
+    return frac, hit_wall, far, rs
