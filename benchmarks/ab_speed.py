@@ -47,6 +47,16 @@ CASES: dict[str, dict[str, Any]] = {
         target_radius=[0.1], start=[0.2] * 3, diffusivity=1.0, dt=1e-4,
         n_steps=40_000, bridge=True,
     ),
+    "4-D box + target, bridge": dict(
+        lower=[0.0] * 4, upper=[1.0] * 4, absorbing_lower=[True] * 4,
+        absorbing_upper=[False] * 4, target_center=[[0.5] * 4], target_radius=[0.1],
+        start=[0.2] * 4, diffusivity=1.0, dt=1e-4, n_steps=40_000, bridge=True,
+    ),
+    "5-D ball, endpoint": dict(
+        lower=[-1.0] * 5, upper=[1.0] * 5, absorbing_lower=[False] * 5,
+        absorbing_upper=[False] * 5, ball_center=[0.0] * 5, ball_radius=1.0,
+        start=[0.0] * 5, diffusivity=1.0, dt=1e-4, n_steps=40_000, bridge=False,
+    ),
 }  # fmt: skip
 
 
@@ -54,7 +64,8 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--ref", default="main")
     parser.add_argument("--rounds", type=int, default=15)
-    parser.add_argument("--walkers", type=int, default=60)
+    parser.add_argument("--cases", default="", help="substring of the case names")
+    parser.add_argument("--walkers", type=int, default=1000)
     args = parser.parse_args(argv)
     import benchmarks.bit_identity as bi
 
@@ -63,6 +74,8 @@ def main(argv: list[str] | None = None) -> int:
     print(f"{'case':38s} {'first call ref/new (s)':>24s} {'M steps/s ref':>14s} "
           f"{'new':>7s} {'best new/ref':>13s} {'median pair':>12s}")  # fmt: skip
     for name, config in CASES.items():
+        if args.cases not in name:
+            continue
         first = {}
         for label, module in builds.items():
             t = time.perf_counter()

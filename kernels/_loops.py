@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator and kernels/walkers.py: 7be4272d82ee1b1cfb19edbd35f63dc4
+Digest of template, generator and kernels/walkers.py: a3b8f78770425562ab43c9212ddd8a89
 """
 
 # ruff: noqa
@@ -142,11 +142,11 @@ def simulate_loop_box1(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = True
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = (min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)))
+                    p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -404,11 +404,11 @@ def simulate_loop_box2(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = True
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -721,11 +721,11 @@ def simulate_loop_box3(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = True
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -1093,11 +1093,11 @@ def simulate_loop_box4(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = True
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -1520,11 +1520,11 @@ def simulate_loop_box5(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = True
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -2002,11 +2002,11 @@ def simulate_loop_box6(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = True
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)), min((x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -2539,11 +2539,11 @@ def simulate_loop_box7(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = True
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)), min((x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5)), min((x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -3131,11 +3131,11 @@ def simulate_loop_box8(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = True
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)), min((x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5)), min((x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6)), min((x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -3578,11 +3578,11 @@ def simulate_loop_box_targets1(rng, n_walkers, geometry, motion, recording, out)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = absorbing_faces
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = (min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)))
+                    p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -3862,11 +3862,11 @@ def simulate_loop_box_targets2(rng, n_walkers, geometry, motion, recording, out)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = absorbing_faces
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -4201,11 +4201,11 @@ def simulate_loop_box_targets3(rng, n_walkers, geometry, motion, recording, out)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = absorbing_faces
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -4595,11 +4595,11 @@ def simulate_loop_box_targets4(rng, n_walkers, geometry, motion, recording, out)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = absorbing_faces
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -5044,11 +5044,11 @@ def simulate_loop_box_targets5(rng, n_walkers, geometry, motion, recording, out)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = absorbing_faces
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -5548,11 +5548,11 @@ def simulate_loop_box_targets6(rng, n_walkers, geometry, motion, recording, out)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = absorbing_faces
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)), min((x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -6107,11 +6107,11 @@ def simulate_loop_box_targets7(rng, n_walkers, geometry, motion, recording, out)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = absorbing_faces
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)), min((x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5)), min((x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -6721,11 +6721,11 @@ def simulate_loop_box_targets8(rng, n_walkers, geometry, motion, recording, out)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
+                # Absorbing box faces: one branch per step on the smallest
+                # product, then each face, axis by axis, lower first.
                 faces = absorbing_faces
                 if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)), min((x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5)), min((x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6)), min((x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7)))
+                    p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
                         if (x0 - al0) * (y0 - al0) <= cut:
                             frac, hit_wall, rs = _earliest(
@@ -7195,32 +7195,6 @@ def simulate_loop_ball2(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
-                faces = False
-                if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)))
-                    if p <= cut:
-                        if (x0 - al0) * (y0 - al0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x0 - al0, y0 - al0, 2 * 0, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x0 - ah0) * (y0 - ah0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah0 - x0, ah0 - y0, 2 * 0 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - al1) * (y1 - al1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x1 - al1, y1 - al1, 2 * 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - ah1) * (y1 - ah1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah1 - x1, ah1 - y1, 2 * 1 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2)
@@ -7523,42 +7497,6 @@ def simulate_loop_ball3(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
-                faces = False
-                if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)))
-                    if p <= cut:
-                        if (x0 - al0) * (y0 - al0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x0 - al0, y0 - al0, 2 * 0, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x0 - ah0) * (y0 - ah0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah0 - x0, ah0 - y0, 2 * 0 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - al1) * (y1 - al1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x1 - al1, y1 - al1, 2 * 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - ah1) * (y1 - ah1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah1 - x1, ah1 - y1, 2 * 1 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - al2) * (y2 - al2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x2 - al2, y2 - al2, 2 * 2, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - ah2) * (y2 - ah2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah2 - x2, ah2 - y2, 2 * 2 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2)
@@ -7896,52 +7834,6 @@ def simulate_loop_ball4(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
-                faces = False
-                if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)))
-                    if p <= cut:
-                        if (x0 - al0) * (y0 - al0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x0 - al0, y0 - al0, 2 * 0, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x0 - ah0) * (y0 - ah0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah0 - x0, ah0 - y0, 2 * 0 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - al1) * (y1 - al1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x1 - al1, y1 - al1, 2 * 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - ah1) * (y1 - ah1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah1 - x1, ah1 - y1, 2 * 1 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - al2) * (y2 - al2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x2 - al2, y2 - al2, 2 * 2, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - ah2) * (y2 - ah2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah2 - x2, ah2 - y2, 2 * 2 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - al3) * (y3 - al3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x3 - al3, y3 - al3, 2 * 3, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - ah3) * (y3 - ah3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah3 - x3, ah3 - y3, 2 * 3 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2)
@@ -8314,62 +8206,6 @@ def simulate_loop_ball5(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
-                faces = False
-                if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)))
-                    if p <= cut:
-                        if (x0 - al0) * (y0 - al0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x0 - al0, y0 - al0, 2 * 0, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x0 - ah0) * (y0 - ah0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah0 - x0, ah0 - y0, 2 * 0 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - al1) * (y1 - al1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x1 - al1, y1 - al1, 2 * 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - ah1) * (y1 - ah1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah1 - x1, ah1 - y1, 2 * 1 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - al2) * (y2 - al2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x2 - al2, y2 - al2, 2 * 2, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - ah2) * (y2 - ah2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah2 - x2, ah2 - y2, 2 * 2 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - al3) * (y3 - al3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x3 - al3, y3 - al3, 2 * 3, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - ah3) * (y3 - ah3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah3 - x3, ah3 - y3, 2 * 3 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x4 - al4) * (y4 - al4) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x4 - al4, y4 - al4, 2 * 4, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x4 - ah4) * (y4 - ah4) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah4 - x4, ah4 - y4, 2 * 4 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2)
@@ -8777,72 +8613,6 @@ def simulate_loop_ball6(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
-                faces = False
-                if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)), min((x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5)))
-                    if p <= cut:
-                        if (x0 - al0) * (y0 - al0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x0 - al0, y0 - al0, 2 * 0, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x0 - ah0) * (y0 - ah0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah0 - x0, ah0 - y0, 2 * 0 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - al1) * (y1 - al1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x1 - al1, y1 - al1, 2 * 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - ah1) * (y1 - ah1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah1 - x1, ah1 - y1, 2 * 1 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - al2) * (y2 - al2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x2 - al2, y2 - al2, 2 * 2, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - ah2) * (y2 - ah2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah2 - x2, ah2 - y2, 2 * 2 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - al3) * (y3 - al3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x3 - al3, y3 - al3, 2 * 3, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - ah3) * (y3 - ah3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah3 - x3, ah3 - y3, 2 * 3 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x4 - al4) * (y4 - al4) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x4 - al4, y4 - al4, 2 * 4, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x4 - ah4) * (y4 - ah4) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah4 - x4, ah4 - y4, 2 * 4 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x5 - al5) * (y5 - al5) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x5 - al5, y5 - al5, 2 * 5, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x5 - ah5) * (y5 - ah5) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah5 - x5, ah5 - y5, 2 * 5 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2)
@@ -9285,82 +9055,6 @@ def simulate_loop_ball7(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
-                faces = False
-                if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)), min((x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5)), min((x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6)))
-                    if p <= cut:
-                        if (x0 - al0) * (y0 - al0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x0 - al0, y0 - al0, 2 * 0, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x0 - ah0) * (y0 - ah0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah0 - x0, ah0 - y0, 2 * 0 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - al1) * (y1 - al1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x1 - al1, y1 - al1, 2 * 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - ah1) * (y1 - ah1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah1 - x1, ah1 - y1, 2 * 1 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - al2) * (y2 - al2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x2 - al2, y2 - al2, 2 * 2, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - ah2) * (y2 - ah2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah2 - x2, ah2 - y2, 2 * 2 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - al3) * (y3 - al3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x3 - al3, y3 - al3, 2 * 3, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - ah3) * (y3 - ah3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah3 - x3, ah3 - y3, 2 * 3 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x4 - al4) * (y4 - al4) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x4 - al4, y4 - al4, 2 * 4, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x4 - ah4) * (y4 - ah4) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah4 - x4, ah4 - y4, 2 * 4 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x5 - al5) * (y5 - al5) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x5 - al5, y5 - al5, 2 * 5, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x5 - ah5) * (y5 - ah5) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah5 - x5, ah5 - y5, 2 * 5 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x6 - al6) * (y6 - al6) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x6 - al6, y6 - al6, 2 * 6, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x6 - ah6) * (y6 - ah6) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah6 - x6, ah6 - y6, 2 * 6 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2)
@@ -9838,92 +9532,6 @@ def simulate_loop_ball8(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
-                faces = False
-                if faces:
-                    # Absorbing box faces: one branch per step on the smallest
-                    # product, then each face, axis by axis, lower first.
-                    p = min(min((x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0)), min((x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1)), min((x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2)), min((x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3)), min((x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4)), min((x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5)), min((x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6)), min((x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7)))
-                    if p <= cut:
-                        if (x0 - al0) * (y0 - al0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x0 - al0, y0 - al0, 2 * 0, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x0 - ah0) * (y0 - ah0) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah0 - x0, ah0 - y0, 2 * 0 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - al1) * (y1 - al1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x1 - al1, y1 - al1, 2 * 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x1 - ah1) * (y1 - ah1) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah1 - x1, ah1 - y1, 2 * 1 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - al2) * (y2 - al2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x2 - al2, y2 - al2, 2 * 2, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x2 - ah2) * (y2 - ah2) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah2 - x2, ah2 - y2, 2 * 2 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - al3) * (y3 - al3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x3 - al3, y3 - al3, 2 * 3, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x3 - ah3) * (y3 - ah3) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah3 - x3, ah3 - y3, 2 * 3 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x4 - al4) * (y4 - al4) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x4 - al4, y4 - al4, 2 * 4, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x4 - ah4) * (y4 - ah4) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah4 - x4, ah4 - y4, 2 * 4 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x5 - al5) * (y5 - al5) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x5 - al5, y5 - al5, 2 * 5, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x5 - ah5) * (y5 - ah5) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah5 - x5, ah5 - y5, 2 * 5 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x6 - al6) * (y6 - al6) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x6 - al6, y6 - al6, 2 * 6, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x6 - ah6) * (y6 - ah6) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah6 - x6, ah6 - y6, 2 * 6 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x7 - al7) * (y7 - al7) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, x7 - al7, y7 - al7, 2 * 7, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
-                        if (x7 - ah7) * (y7 - ah7) <= cut:
-                            frac, hit_wall, rs = _earliest(
-                                rs, ah7 - x7, ah7 - y7, 2 * 7 + 1, frac,
-                                hit_wall, kill_scale, diffusivity, dt, bridge,
-                            )  # fmt: skip
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2 + (y7 - bc7) ** 2)

@@ -163,31 +163,32 @@ def simulate_loop(rng, n_walkers, geometry, motion, recording, out):
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
-                if static(KIND == BOX):
-                    faces = True
-                elif static(KIND == BOX_TARGETS):
-                    faces = absorbing_faces
-                else:
-                    faces = False
-                if faces:
+                if static(KIND != BALL):
                     # Absorbing box faces: one branch per step on the smallest
                     # product, then each face, axis by axis, lower first.
-                    p = min(
-                        min((x_i - al_i) * (y_i - al_i), (x_i - ah_i) * (y_i - ah_i))
-                        for i in AXES
-                    )
-                    if p <= cut:
-                        for i in AXES:
-                            if (x_i - al_i) * (y_i - al_i) <= cut:
-                                frac, hit_wall, rs = _earliest(
-                                    rs, x_i - al_i, y_i - al_i, 2 * i, frac,
-                                    hit_wall, kill_scale, diffusivity, dt, bridge,
-                                )  # fmt: skip
-                            if (x_i - ah_i) * (y_i - ah_i) <= cut:
-                                frac, hit_wall, rs = _earliest(
-                                    rs, ah_i - x_i, ah_i - y_i, 2 * i + 1, frac,
-                                    hit_wall, kill_scale, diffusivity, dt, bridge,
-                                )  # fmt: skip
+                    if static(KIND == BOX):
+                        faces = True
+                    else:
+                        faces = absorbing_faces
+                    if faces:
+                        p = min(
+                            min(
+                                (x_i - al_i) * (y_i - al_i), (x_i - ah_i) * (y_i - ah_i)
+                            )
+                            for i in AXES
+                        )
+                        if p <= cut:
+                            for i in AXES:
+                                if (x_i - al_i) * (y_i - al_i) <= cut:
+                                    frac, hit_wall, rs = _earliest(
+                                        rs, x_i - al_i, y_i - al_i, 2 * i, frac,
+                                        hit_wall, kill_scale, diffusivity, dt, bridge,
+                                    )  # fmt: skip
+                                if (x_i - ah_i) * (y_i - ah_i) <= cut:
+                                    frac, hit_wall, rs = _earliest(
+                                        rs, ah_i - x_i, ah_i - y_i, 2 * i + 1, frac,
+                                        hit_wall, kill_scale, diffusivity, dt, bridge,
+                                    )  # fmt: skip
                 if static(KIND == BALL):
                     # The ball's surface: radial mirror image, or distances along
                     # the radius (to the tangent plane) within REACH sigma of it.

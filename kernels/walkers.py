@@ -1,9 +1,16 @@
 """The walker kernel: Brownian walkers in a box or ball, with absorbing targets.
 
 Pure computation: numba ``njit(nogil=True)``, a numpy ``Generator`` passed in (one per
-task, never shared between threads), preallocated outputs, no I/O, no validation. The
-kernel and every helper it calls live in this one file because numba's on-disk cache does
-not notice edits to helpers in other files.
+task, never shared between threads), preallocated outputs, no I/O, no validation.
+
+Where things are: the step loop is written once, in the template ``kernels/step.py``,
+and generated per kind of domain and dimension into ``kernels/_loops.py`` (do not
+edit; ``python -m kernels.generate``). This module holds :func:`simulate`, a
+plain-Python dispatcher to those loops; the normal sampler; the generator seam
+(:func:`draw_normal`, :func:`draw_uniform`, :func:`draw_wald`, the only way the loops
+draw); and the helpers the loops call. The inputs are the named structures of
+:mod:`kernels.inputs`. numba's on-disk cache keys a function by its own file, so the
+generated module carries a digest of this one: edit a helper here, regenerate.
 
 Each axis moves as ``dX = drift dt + sqrt(2 D) dW``; a step draws one standard normal
 per axis. Walls:
@@ -111,8 +118,8 @@ def _wald(bits, mean, shape):  # type: ignore[no-untyped-def]
 # is threaded explicitly through every helper that draws (``z, rs = draw_normal(rs)``):
 # changing the generator (say, to a state kept in local variables) changes these
 # three functions and :func:`_random_state`, nothing else. Today ``rs`` is the task
-# Generator's bit generator, which numba passes by reference, so handing it back is
-# free; the draws are numpy's own (see _normal).
+# Generator's bit generator and the draws are numpy's own (see _normal). The wrappers
+# are inlined in numba's IR (inline="always"), so the seam costs no call.
 
 
 @box(types.NumPyRandomBitGeneratorType)
@@ -125,26 +132,26 @@ def _box_bit_generator(typ, val, c):  # type: ignore[no-untyped-def]
     return struct.parent
 
 
-@njit(nogil=True, cache=True)
+@njit(nogil=True, cache=True, inline="always")
 def _random_state(rng):  # type: ignore[no-untyped-def]
     """The random state the step loop threads through its draws, from the task's
     Generator."""
     return rng.bit_generator
 
 
-@njit(nogil=True, cache=True)
+@njit(nogil=True, cache=True, inline="always")
 def draw_normal(rs):  # type: ignore[no-untyped-def]
     """(standard normal, new state): ``Generator.standard_normal()``'s stream."""
     return _normal(rs), rs
 
 
-@njit(nogil=True, cache=True)
+@njit(nogil=True, cache=True, inline="always")
 def draw_uniform(rs):  # type: ignore[no-untyped-def]
     """(uniform on [0, 1), new state): ``Generator.random()``'s stream."""
     return next_double(rs), rs
 
 
-@njit(nogil=True, cache=True)
+@njit(nogil=True, cache=True, inline="always")
 def draw_wald(rs, mean, shape):  # type: ignore[no-untyped-def]
     """(inverse Gaussian variate, new state): ``Generator.wald``'s stream."""
     return _wald(rs, mean, shape), rs
