@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator and kernels/walkers.py: a3b8f78770425562ab43c9212ddd8a89
+Digest of template, generator and kernels/walkers.py: 6caff1f8b708bc7c3dbaa0f59f2c1435
 """
 
 # ruff: noqa
@@ -262,6 +262,20 @@ def other_targets_box1(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box1(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -554,6 +568,20 @@ def other_targets_box2(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box2(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -901,6 +929,20 @@ def other_targets_box3(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box3(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -1303,6 +1345,20 @@ def other_targets_box4(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box4(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -1760,6 +1816,20 @@ def other_targets_box5(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box5(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -2272,6 +2342,20 @@ def other_targets_box6(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box6(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -2839,6 +2923,20 @@ def other_targets_box7(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box7(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -3464,6 +3562,20 @@ def other_targets_box8(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box8(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets1(rng, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -3720,6 +3832,20 @@ def other_targets_box_targets1(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box_targets1(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -4034,6 +4160,20 @@ def other_targets_box_targets2(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box_targets2(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -4403,6 +4543,20 @@ def other_targets_box_targets3(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box_targets3(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -4827,6 +4981,20 @@ def other_targets_box_targets4(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box_targets4(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -5306,6 +5474,20 @@ def other_targets_box_targets5(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box_targets5(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -5840,6 +6022,20 @@ def other_targets_box_targets6(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box_targets6(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -6429,6 +6625,20 @@ def other_targets_box_targets7(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_box_targets7(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -7076,6 +7286,20 @@ def other_targets_box_targets8(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets8(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball2(rng, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -7199,11 +7423,12 @@ def simulate_loop_ball2(rng, n_walkers, geometry, motion, recording, out):
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2)
                 if not geometry.ball_absorbing:
-                    while rb2 > ball_r2:
-                        r = math.sqrt(rb2)
-                        scale = (2.0 * ball_radius - r) / r
-                        y0 = bc0 + (y0 - bc0) * scale
-                        y1 = bc1 + (y1 - bc1) * scale
+                    if rb2 > ball_r2:
+                        ys = mirror_ball2(
+                            (y0, y1,), ball_center, ball_radius
+                        )
+                        y0 = ys[0]
+                        y1 = ys[1]
                         rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2)
                 elif rb1 >= inner2 or rb2 >= inner2:
                     d1 = ball_radius - math.sqrt(rb1)
@@ -7363,6 +7588,20 @@ def other_targets_ball2(
 
 
 @njit(nogil=True, cache=True)
+def mirror_ball2(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball3(rng, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -7501,12 +7740,13 @@ def simulate_loop_ball3(rng, n_walkers, geometry, motion, recording, out):
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2)
                 if not geometry.ball_absorbing:
-                    while rb2 > ball_r2:
-                        r = math.sqrt(rb2)
-                        scale = (2.0 * ball_radius - r) / r
-                        y0 = bc0 + (y0 - bc0) * scale
-                        y1 = bc1 + (y1 - bc1) * scale
-                        y2 = bc2 + (y2 - bc2) * scale
+                    if rb2 > ball_r2:
+                        ys = mirror_ball3(
+                            (y0, y1, y2,), ball_center, ball_radius
+                        )
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
                         rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2)
                 elif rb1 >= inner2 or rb2 >= inner2:
                     d1 = ball_radius - math.sqrt(rb1)
@@ -7685,6 +7925,20 @@ def other_targets_ball3(
 
 
 @njit(nogil=True, cache=True)
+def mirror_ball3(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball4(rng, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -7838,13 +8092,14 @@ def simulate_loop_ball4(rng, n_walkers, geometry, motion, recording, out):
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2)
                 if not geometry.ball_absorbing:
-                    while rb2 > ball_r2:
-                        r = math.sqrt(rb2)
-                        scale = (2.0 * ball_radius - r) / r
-                        y0 = bc0 + (y0 - bc0) * scale
-                        y1 = bc1 + (y1 - bc1) * scale
-                        y2 = bc2 + (y2 - bc2) * scale
-                        y3 = bc3 + (y3 - bc3) * scale
+                    if rb2 > ball_r2:
+                        ys = mirror_ball4(
+                            (y0, y1, y2, y3,), ball_center, ball_radius
+                        )
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
                         rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2)
                 elif rb1 >= inner2 or rb2 >= inner2:
                     d1 = ball_radius - math.sqrt(rb1)
@@ -8042,6 +8297,20 @@ def other_targets_ball4(
 
 
 @njit(nogil=True, cache=True)
+def mirror_ball4(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball5(rng, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -8210,14 +8479,15 @@ def simulate_loop_ball5(rng, n_walkers, geometry, motion, recording, out):
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2)
                 if not geometry.ball_absorbing:
-                    while rb2 > ball_r2:
-                        r = math.sqrt(rb2)
-                        scale = (2.0 * ball_radius - r) / r
-                        y0 = bc0 + (y0 - bc0) * scale
-                        y1 = bc1 + (y1 - bc1) * scale
-                        y2 = bc2 + (y2 - bc2) * scale
-                        y3 = bc3 + (y3 - bc3) * scale
-                        y4 = bc4 + (y4 - bc4) * scale
+                    if rb2 > ball_r2:
+                        ys = mirror_ball5(
+                            (y0, y1, y2, y3, y4,), ball_center, ball_radius
+                        )
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
                         rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2)
                 elif rb1 >= inner2 or rb2 >= inner2:
                     d1 = ball_radius - math.sqrt(rb1)
@@ -8434,6 +8704,20 @@ def other_targets_ball5(
 
 
 @njit(nogil=True, cache=True)
+def mirror_ball5(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball6(rng, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -8617,15 +8901,16 @@ def simulate_loop_ball6(rng, n_walkers, geometry, motion, recording, out):
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2)
                 if not geometry.ball_absorbing:
-                    while rb2 > ball_r2:
-                        r = math.sqrt(rb2)
-                        scale = (2.0 * ball_radius - r) / r
-                        y0 = bc0 + (y0 - bc0) * scale
-                        y1 = bc1 + (y1 - bc1) * scale
-                        y2 = bc2 + (y2 - bc2) * scale
-                        y3 = bc3 + (y3 - bc3) * scale
-                        y4 = bc4 + (y4 - bc4) * scale
-                        y5 = bc5 + (y5 - bc5) * scale
+                    if rb2 > ball_r2:
+                        ys = mirror_ball6(
+                            (y0, y1, y2, y3, y4, y5,), ball_center, ball_radius
+                        )
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
                         rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2)
                 elif rb1 >= inner2 or rb2 >= inner2:
                     d1 = ball_radius - math.sqrt(rb1)
@@ -8861,6 +9146,20 @@ def other_targets_ball6(
 
 
 @njit(nogil=True, cache=True)
+def mirror_ball6(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball7(rng, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -9059,16 +9358,17 @@ def simulate_loop_ball7(rng, n_walkers, geometry, motion, recording, out):
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2)
                 if not geometry.ball_absorbing:
-                    while rb2 > ball_r2:
-                        r = math.sqrt(rb2)
-                        scale = (2.0 * ball_radius - r) / r
-                        y0 = bc0 + (y0 - bc0) * scale
-                        y1 = bc1 + (y1 - bc1) * scale
-                        y2 = bc2 + (y2 - bc2) * scale
-                        y3 = bc3 + (y3 - bc3) * scale
-                        y4 = bc4 + (y4 - bc4) * scale
-                        y5 = bc5 + (y5 - bc5) * scale
-                        y6 = bc6 + (y6 - bc6) * scale
+                    if rb2 > ball_r2:
+                        ys = mirror_ball7(
+                            (y0, y1, y2, y3, y4, y5, y6,), ball_center, ball_radius
+                        )
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
                         rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2)
                 elif rb1 >= inner2 or rb2 >= inner2:
                     d1 = ball_radius - math.sqrt(rb1)
@@ -9323,6 +9623,20 @@ def other_targets_ball7(
 
 
 @njit(nogil=True, cache=True)
+def mirror_ball7(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball8(rng, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -9536,17 +9850,18 @@ def simulate_loop_ball8(rng, n_walkers, geometry, motion, recording, out):
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2 + (y7 - bc7) ** 2)
                 if not geometry.ball_absorbing:
-                    while rb2 > ball_r2:
-                        r = math.sqrt(rb2)
-                        scale = (2.0 * ball_radius - r) / r
-                        y0 = bc0 + (y0 - bc0) * scale
-                        y1 = bc1 + (y1 - bc1) * scale
-                        y2 = bc2 + (y2 - bc2) * scale
-                        y3 = bc3 + (y3 - bc3) * scale
-                        y4 = bc4 + (y4 - bc4) * scale
-                        y5 = bc5 + (y5 - bc5) * scale
-                        y6 = bc6 + (y6 - bc6) * scale
-                        y7 = bc7 + (y7 - bc7) * scale
+                    if rb2 > ball_r2:
+                        ys = mirror_ball8(
+                            (y0, y1, y2, y3, y4, y5, y6, y7,), ball_center, ball_radius
+                        )
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
+                        y7 = ys[7]
                         rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2 + (y7 - bc7) ** 2)
                 elif rb1 >= inner2 or rb2 >= inner2:
                     d1 = ball_radius - math.sqrt(rb1)
@@ -9817,6 +10132,20 @@ def other_targets_ball8(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+@njit(nogil=True, cache=True)
+def mirror_ball8(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
 
 
 #: (kind, dimension) -> its compiled loop.

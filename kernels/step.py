@@ -194,11 +194,12 @@ def simulate_loop(rng, n_walkers, geometry, motion, recording, out):
                     # the radius (to the tangent plane) within REACH sigma of it.
                     rb2 = sum((y_i - bc_i) ** 2 for i in AXES)
                     if not geometry.ball_absorbing:
-                        while rb2 > ball_r2:
-                            r = math.sqrt(rb2)
-                            scale = (2.0 * ball_radius - r) / r
+                        if rb2 > ball_r2:
+                            ys = mirror(
+                                tuple(y_i for i in AXES), ball_center, ball_radius
+                            )
                             for i in AXES:
-                                y_i = bc_i + (y_i - bc_i) * scale
+                                y_i = ys[i]
                             rb2 = sum((y_i - bc_i) ** 2 for i in AXES)
                     elif rb1 >= inner2 or rb2 >= inner2:
                         d1 = ball_radius - math.sqrt(rb1)
@@ -352,3 +353,16 @@ def other_targets(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
+
+
+def mirror(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = sum((ys[i] - center[i]) ** 2 for i in AXES)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = tuple(center[i] + (ys[i] - center[i]) * scale for i in AXES)
