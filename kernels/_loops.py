@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator and kernels/walkers.py: 6caff1f8b708bc7c3dbaa0f59f2c1435
+Digest of template, generator and kernels/walkers.py: 1bbe7f711ce447d307463739da3eb8e2
 """
 
 # ruff: noqa
@@ -230,52 +230,6 @@ def simulate_loop_box1(rng, n_walkers, geometry, motion, recording, out):
         above += hist[k + 1]
         out.survival[k] += above
     return steps_done
-
-
-@njit(nogil=True, cache=True)
-def other_targets_box1(
-    rs, xs, ys, far, target_center, target_radius, reach2, cut, frac, hit_wall,
-    n_box_walls, kill_scale, diffusivity, dt, bridge,
-):  # fmt: skip
-    """Targets 1, 2, ... for the step ``xs`` -> ``ys`` (tuples of the axes): the
-    earliest crossing, in index order, after target 0's. Returns (frac, hit_wall, far,
-    rs); bit k of ``far`` (k < 63) marks a step start beyond reach of target k (the
-    last step's end), so its distance need not be computed again. Kept out of the
-    step loop: the common one-target case runs 4 % faster."""
-    for k in range(1, target_radius.shape[0]):
-        r2 = ((ys[0] - target_center[k, 0]) ** 2)
-        bit = np.int64(1) << k if k < 63 else np.int64(0)
-        if r2 > reach2[k]:
-            if far & bit:
-                continue
-            far |= bit
-        else:
-            far &= ~bit
-        r1 = ((xs[0] - target_center[k, 0]) ** 2)
-        if r2 > reach2[k] and r1 > reach2[k]:
-            continue
-        d1 = math.sqrt(r1) - target_radius[k]
-        d2 = math.sqrt(r2) - target_radius[k]
-        if d1 * d2 <= cut:
-            frac, hit_wall, rs = _earliest(
-                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
-                dt, bridge,
-            )  # fmt: skip
-    return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box1(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -536,52 +490,6 @@ def simulate_loop_box2(rng, n_walkers, geometry, motion, recording, out):
         above += hist[k + 1]
         out.survival[k] += above
     return steps_done
-
-
-@njit(nogil=True, cache=True)
-def other_targets_box2(
-    rs, xs, ys, far, target_center, target_radius, reach2, cut, frac, hit_wall,
-    n_box_walls, kill_scale, diffusivity, dt, bridge,
-):  # fmt: skip
-    """Targets 1, 2, ... for the step ``xs`` -> ``ys`` (tuples of the axes): the
-    earliest crossing, in index order, after target 0's. Returns (frac, hit_wall, far,
-    rs); bit k of ``far`` (k < 63) marks a step start beyond reach of target k (the
-    last step's end), so its distance need not be computed again. Kept out of the
-    step loop: the common one-target case runs 4 % faster."""
-    for k in range(1, target_radius.shape[0]):
-        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2)
-        bit = np.int64(1) << k if k < 63 else np.int64(0)
-        if r2 > reach2[k]:
-            if far & bit:
-                continue
-            far |= bit
-        else:
-            far &= ~bit
-        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2)
-        if r2 > reach2[k] and r1 > reach2[k]:
-            continue
-        d1 = math.sqrt(r1) - target_radius[k]
-        d2 = math.sqrt(r2) - target_radius[k]
-        if d1 * d2 <= cut:
-            frac, hit_wall, rs = _earliest(
-                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
-                dt, bridge,
-            )  # fmt: skip
-    return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box2(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -897,52 +805,6 @@ def simulate_loop_box3(rng, n_walkers, geometry, motion, recording, out):
         above += hist[k + 1]
         out.survival[k] += above
     return steps_done
-
-
-@njit(nogil=True, cache=True)
-def other_targets_box3(
-    rs, xs, ys, far, target_center, target_radius, reach2, cut, frac, hit_wall,
-    n_box_walls, kill_scale, diffusivity, dt, bridge,
-):  # fmt: skip
-    """Targets 1, 2, ... for the step ``xs`` -> ``ys`` (tuples of the axes): the
-    earliest crossing, in index order, after target 0's. Returns (frac, hit_wall, far,
-    rs); bit k of ``far`` (k < 63) marks a step start beyond reach of target k (the
-    last step's end), so its distance need not be computed again. Kept out of the
-    step loop: the common one-target case runs 4 % faster."""
-    for k in range(1, target_radius.shape[0]):
-        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2)
-        bit = np.int64(1) << k if k < 63 else np.int64(0)
-        if r2 > reach2[k]:
-            if far & bit:
-                continue
-            far |= bit
-        else:
-            far &= ~bit
-        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2)
-        if r2 > reach2[k] and r1 > reach2[k]:
-            continue
-        d1 = math.sqrt(r1) - target_radius[k]
-        d2 = math.sqrt(r2) - target_radius[k]
-        if d1 * d2 <= cut:
-            frac, hit_wall, rs = _earliest(
-                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
-                dt, bridge,
-            )  # fmt: skip
-    return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box3(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -1313,52 +1175,6 @@ def simulate_loop_box4(rng, n_walkers, geometry, motion, recording, out):
         above += hist[k + 1]
         out.survival[k] += above
     return steps_done
-
-
-@njit(nogil=True, cache=True)
-def other_targets_box4(
-    rs, xs, ys, far, target_center, target_radius, reach2, cut, frac, hit_wall,
-    n_box_walls, kill_scale, diffusivity, dt, bridge,
-):  # fmt: skip
-    """Targets 1, 2, ... for the step ``xs`` -> ``ys`` (tuples of the axes): the
-    earliest crossing, in index order, after target 0's. Returns (frac, hit_wall, far,
-    rs); bit k of ``far`` (k < 63) marks a step start beyond reach of target k (the
-    last step's end), so its distance need not be computed again. Kept out of the
-    step loop: the common one-target case runs 4 % faster."""
-    for k in range(1, target_radius.shape[0]):
-        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2)
-        bit = np.int64(1) << k if k < 63 else np.int64(0)
-        if r2 > reach2[k]:
-            if far & bit:
-                continue
-            far |= bit
-        else:
-            far &= ~bit
-        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2)
-        if r2 > reach2[k] and r1 > reach2[k]:
-            continue
-        d1 = math.sqrt(r1) - target_radius[k]
-        d2 = math.sqrt(r2) - target_radius[k]
-        if d1 * d2 <= cut:
-            frac, hit_wall, rs = _earliest(
-                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
-                dt, bridge,
-            )  # fmt: skip
-    return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box4(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -1784,52 +1600,6 @@ def simulate_loop_box5(rng, n_walkers, geometry, motion, recording, out):
         above += hist[k + 1]
         out.survival[k] += above
     return steps_done
-
-
-@njit(nogil=True, cache=True)
-def other_targets_box5(
-    rs, xs, ys, far, target_center, target_radius, reach2, cut, frac, hit_wall,
-    n_box_walls, kill_scale, diffusivity, dt, bridge,
-):  # fmt: skip
-    """Targets 1, 2, ... for the step ``xs`` -> ``ys`` (tuples of the axes): the
-    earliest crossing, in index order, after target 0's. Returns (frac, hit_wall, far,
-    rs); bit k of ``far`` (k < 63) marks a step start beyond reach of target k (the
-    last step's end), so its distance need not be computed again. Kept out of the
-    step loop: the common one-target case runs 4 % faster."""
-    for k in range(1, target_radius.shape[0]):
-        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2)
-        bit = np.int64(1) << k if k < 63 else np.int64(0)
-        if r2 > reach2[k]:
-            if far & bit:
-                continue
-            far |= bit
-        else:
-            far &= ~bit
-        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2)
-        if r2 > reach2[k] and r1 > reach2[k]:
-            continue
-        d1 = math.sqrt(r1) - target_radius[k]
-        d2 = math.sqrt(r2) - target_radius[k]
-        if d1 * d2 <= cut:
-            frac, hit_wall, rs = _earliest(
-                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
-                dt, bridge,
-            )  # fmt: skip
-    return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box5(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -2310,52 +2080,6 @@ def simulate_loop_box6(rng, n_walkers, geometry, motion, recording, out):
         above += hist[k + 1]
         out.survival[k] += above
     return steps_done
-
-
-@njit(nogil=True, cache=True)
-def other_targets_box6(
-    rs, xs, ys, far, target_center, target_radius, reach2, cut, frac, hit_wall,
-    n_box_walls, kill_scale, diffusivity, dt, bridge,
-):  # fmt: skip
-    """Targets 1, 2, ... for the step ``xs`` -> ``ys`` (tuples of the axes): the
-    earliest crossing, in index order, after target 0's. Returns (frac, hit_wall, far,
-    rs); bit k of ``far`` (k < 63) marks a step start beyond reach of target k (the
-    last step's end), so its distance need not be computed again. Kept out of the
-    step loop: the common one-target case runs 4 % faster."""
-    for k in range(1, target_radius.shape[0]):
-        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2)
-        bit = np.int64(1) << k if k < 63 else np.int64(0)
-        if r2 > reach2[k]:
-            if far & bit:
-                continue
-            far |= bit
-        else:
-            far &= ~bit
-        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2)
-        if r2 > reach2[k] and r1 > reach2[k]:
-            continue
-        d1 = math.sqrt(r1) - target_radius[k]
-        d2 = math.sqrt(r2) - target_radius[k]
-        if d1 * d2 <= cut:
-            frac, hit_wall, rs = _earliest(
-                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
-                dt, bridge,
-            )  # fmt: skip
-    return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box6(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -2891,52 +2615,6 @@ def simulate_loop_box7(rng, n_walkers, geometry, motion, recording, out):
         above += hist[k + 1]
         out.survival[k] += above
     return steps_done
-
-
-@njit(nogil=True, cache=True)
-def other_targets_box7(
-    rs, xs, ys, far, target_center, target_radius, reach2, cut, frac, hit_wall,
-    n_box_walls, kill_scale, diffusivity, dt, bridge,
-):  # fmt: skip
-    """Targets 1, 2, ... for the step ``xs`` -> ``ys`` (tuples of the axes): the
-    earliest crossing, in index order, after target 0's. Returns (frac, hit_wall, far,
-    rs); bit k of ``far`` (k < 63) marks a step start beyond reach of target k (the
-    last step's end), so its distance need not be computed again. Kept out of the
-    step loop: the common one-target case runs 4 % faster."""
-    for k in range(1, target_radius.shape[0]):
-        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2)
-        bit = np.int64(1) << k if k < 63 else np.int64(0)
-        if r2 > reach2[k]:
-            if far & bit:
-                continue
-            far |= bit
-        else:
-            far &= ~bit
-        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2)
-        if r2 > reach2[k] and r1 > reach2[k]:
-            continue
-        d1 = math.sqrt(r1) - target_radius[k]
-        d2 = math.sqrt(r2) - target_radius[k]
-        if d1 * d2 <= cut:
-            frac, hit_wall, rs = _earliest(
-                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
-                dt, bridge,
-            )  # fmt: skip
-    return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box7(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -3530,52 +3208,6 @@ def simulate_loop_box8(rng, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
-def other_targets_box8(
-    rs, xs, ys, far, target_center, target_radius, reach2, cut, frac, hit_wall,
-    n_box_walls, kill_scale, diffusivity, dt, bridge,
-):  # fmt: skip
-    """Targets 1, 2, ... for the step ``xs`` -> ``ys`` (tuples of the axes): the
-    earliest crossing, in index order, after target 0's. Returns (frac, hit_wall, far,
-    rs); bit k of ``far`` (k < 63) marks a step start beyond reach of target k (the
-    last step's end), so its distance need not be computed again. Kept out of the
-    step loop: the common one-target case runs 4 % faster."""
-    for k in range(1, target_radius.shape[0]):
-        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2 + (ys[7] - target_center[k, 7]) ** 2)
-        bit = np.int64(1) << k if k < 63 else np.int64(0)
-        if r2 > reach2[k]:
-            if far & bit:
-                continue
-            far |= bit
-        else:
-            far &= ~bit
-        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2 + (xs[7] - target_center[k, 7]) ** 2)
-        if r2 > reach2[k] and r1 > reach2[k]:
-            continue
-        d1 = math.sqrt(r1) - target_radius[k]
-        d2 = math.sqrt(r2) - target_radius[k]
-        if d1 * d2 <= cut:
-            frac, hit_wall, rs = _earliest(
-                rs, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
-                dt, bridge,
-            )  # fmt: skip
-    return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box8(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
-
-
-@njit(nogil=True, cache=True)
 def simulate_loop_box_targets1(rng, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -3832,20 +3464,6 @@ def other_targets_box_targets1(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box_targets1(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -4160,20 +3778,6 @@ def other_targets_box_targets2(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box_targets2(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -4543,20 +4147,6 @@ def other_targets_box_targets3(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box_targets3(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -4981,20 +4571,6 @@ def other_targets_box_targets4(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box_targets4(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -5474,20 +5050,6 @@ def other_targets_box_targets5(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box_targets5(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -6022,20 +5584,6 @@ def other_targets_box_targets6(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box_targets6(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -6625,20 +6173,6 @@ def other_targets_box_targets7(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box_targets7(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
 
 
 @njit(nogil=True, cache=True)
@@ -7283,20 +6817,6 @@ def other_targets_box_targets8(
                 dt, bridge,
             )  # fmt: skip
     return frac, hit_wall, far, rs
-
-
-@njit(nogil=True, cache=True)
-def mirror_box_targets8(ys, center, radius):
-    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
-    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
-    small ball). Kept out of the step loop, as it is rarely needed."""
-    while True:
-        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
-        if d2 <= radius * radius:
-            return ys
-        r = math.sqrt(d2)
-        scale = (2.0 * radius - r) / r
-        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
 
 
 @njit(nogil=True, cache=True)

@@ -191,7 +191,14 @@ def specialise(source: str, kind: str, dim: int) -> str:
         for other, _ in functions:
             body = re.sub(rf"\b{other}\(", f"{other}{suffix}(", body)
         out.append("@njit(nogil=True, cache=True)\n" + body)
-    return "\n\n\n".join(out)
+    # The loop first; a helper only if this variant calls it (a box has no mirror).
+    calls = out[0]
+    used = [
+        text
+        for (name, _), text in zip(functions[1:], out[1:])
+        if f"{name}{suffix}(" in calls
+    ]
+    return "\n\n\n".join([out[0], *used])
 
 
 #: The template's names of the kinds (values of KIND).

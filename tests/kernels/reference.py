@@ -6,7 +6,7 @@ once, in the order the kernel applies it. The reference draws its random numbers
 different order from the kernel, so the two are compared in distribution, never bit for
 bit.
 
-Rules (see ``kernels/walkers.py`` and the analytic sheet, sections F4, F6 and G1):
+Rules (see the step template ``kernels/step.py`` and the analytic sheet, sections F4, F6 and G1):
 
 1. Free step: ``y = x + drift dt + sqrt(2 D dt) xi`` per axis.
 2. Reflecting faces: mirror ``y`` in the face, repeated while it is outside.

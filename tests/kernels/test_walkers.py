@@ -5,7 +5,7 @@ Three kinds of check:
 * against the plain-NumPy reference ``tests/kernels/reference.py``, in distribution
   (two-sample KS, chi-square, z on proportions), since the two draw random numbers in
   different orders;
-* determinism: same seed, same bits; the uncompiled step loop (``_simulate.py_func``) gives
+* determinism: same seed, same bits; the uncompiled generated step loop (its ``py_func``) gives
   exactly the compiled kernel's output (numba's Generator methods reproduce NumPy's streams);
 * closed forms from ``docs/analytic-reference.md`` (section named beside each
   check), as z-scores ``|estimate - exact| <= Z_STAT * SE`` with fixed seeds.
