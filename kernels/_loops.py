@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator and kernels/walkers.py: 1bbe7f711ce447d307463739da3eb8e2
+Digest of template, generator and kernels/walkers.py: 160270a6168791c76ed5cd59e5cf7902
 """
 
 # ruff: noqa
@@ -93,6 +93,7 @@ def simulate_loop_box1(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -318,6 +319,7 @@ def simulate_loop_box2(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -598,6 +600,7 @@ def simulate_loop_box3(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -933,6 +936,7 @@ def simulate_loop_box4(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -1323,6 +1327,7 @@ def simulate_loop_box5(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -1768,6 +1773,7 @@ def simulate_loop_box6(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -2268,6 +2274,7 @@ def simulate_loop_box7(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -2823,6 +2830,7 @@ def simulate_loop_box8(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -3273,6 +3281,7 @@ def simulate_loop_box_targets1(rng, n_walkers, geometry, motion, recording, out)
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = True
     steps_done = 0
 
     for w in range(n_walkers):
@@ -3340,7 +3349,6 @@ def simulate_loop_box_targets1(rng, n_walkers, geometry, motion, recording, out)
                             )  # fmt: skip
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = True
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -3552,6 +3560,7 @@ def simulate_loop_box_targets2(rng, n_walkers, geometry, motion, recording, out)
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = True
     steps_done = 0
 
     for w in range(n_walkers):
@@ -3634,7 +3643,6 @@ def simulate_loop_box_targets2(rng, n_walkers, geometry, motion, recording, out)
                             )  # fmt: skip
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = True
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -3886,6 +3894,7 @@ def simulate_loop_box_targets3(rng, n_walkers, geometry, motion, recording, out)
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = True
     steps_done = 0
 
     for w in range(n_walkers):
@@ -3983,7 +3992,6 @@ def simulate_loop_box_targets3(rng, n_walkers, geometry, motion, recording, out)
                             )  # fmt: skip
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = True
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -4275,6 +4283,7 @@ def simulate_loop_box_targets4(rng, n_walkers, geometry, motion, recording, out)
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = True
     steps_done = 0
 
     for w in range(n_walkers):
@@ -4387,7 +4396,6 @@ def simulate_loop_box_targets4(rng, n_walkers, geometry, motion, recording, out)
                             )  # fmt: skip
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = True
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -4719,6 +4727,7 @@ def simulate_loop_box_targets5(rng, n_walkers, geometry, motion, recording, out)
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = True
     steps_done = 0
 
     for w in range(n_walkers):
@@ -4846,7 +4855,6 @@ def simulate_loop_box_targets5(rng, n_walkers, geometry, motion, recording, out)
                             )  # fmt: skip
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = True
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -5218,6 +5226,7 @@ def simulate_loop_box_targets6(rng, n_walkers, geometry, motion, recording, out)
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = True
     steps_done = 0
 
     for w in range(n_walkers):
@@ -5360,7 +5369,6 @@ def simulate_loop_box_targets6(rng, n_walkers, geometry, motion, recording, out)
                             )  # fmt: skip
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = True
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -5772,6 +5780,7 @@ def simulate_loop_box_targets7(rng, n_walkers, geometry, motion, recording, out)
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = True
     steps_done = 0
 
     for w in range(n_walkers):
@@ -5929,7 +5938,6 @@ def simulate_loop_box_targets7(rng, n_walkers, geometry, motion, recording, out)
                             )  # fmt: skip
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = True
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -6381,6 +6389,7 @@ def simulate_loop_box_targets8(rng, n_walkers, geometry, motion, recording, out)
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = True
     steps_done = 0
 
     for w in range(n_walkers):
@@ -6553,7 +6562,6 @@ def simulate_loop_box_targets8(rng, n_walkers, geometry, motion, recording, out)
                             )  # fmt: skip
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = True
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2 + (y7 - tc7) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -6889,6 +6897,7 @@ def simulate_loop_ball2(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -6963,7 +6972,6 @@ def simulate_loop_ball2(rng, n_walkers, geometry, motion, recording, out):
                 rb1 = rb2
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = n_targets > 0
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -7203,6 +7211,7 @@ def simulate_loop_ball3(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -7281,7 +7290,6 @@ def simulate_loop_ball3(rng, n_walkers, geometry, motion, recording, out):
                 rb1 = rb2
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = n_targets > 0
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -7552,6 +7560,7 @@ def simulate_loop_ball4(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -7634,7 +7643,6 @@ def simulate_loop_ball4(rng, n_walkers, geometry, motion, recording, out):
                 rb1 = rb2
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = n_targets > 0
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -7936,6 +7944,7 @@ def simulate_loop_ball5(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -8022,7 +8031,6 @@ def simulate_loop_ball5(rng, n_walkers, geometry, motion, recording, out):
                 rb1 = rb2
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = n_targets > 0
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -8355,6 +8363,7 @@ def simulate_loop_ball6(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -8445,7 +8454,6 @@ def simulate_loop_ball6(rng, n_walkers, geometry, motion, recording, out):
                 rb1 = rb2
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = n_targets > 0
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -8809,6 +8817,7 @@ def simulate_loop_ball7(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -8903,7 +8912,6 @@ def simulate_loop_ball7(rng, n_walkers, geometry, motion, recording, out):
                 rb1 = rb2
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = n_targets > 0
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:
@@ -9298,6 +9306,7 @@ def simulate_loop_ball8(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -9396,7 +9405,6 @@ def simulate_loop_ball8(rng, n_walkers, geometry, motion, recording, out):
                 rb1 = rb2
                 # Targets: target 0 (most set-ups have one) with its start
                 # distance carried from the last step, the others in a helper.
-                has_targets = n_targets > 0
                 if has_targets:
                     r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2 + (y7 - tc7) ** 2)
                     if r2 <= reach_0 or r1_0 <= reach_0:

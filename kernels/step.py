@@ -110,6 +110,10 @@ def simulate_loop(rng, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if static(KIND == BOX_TARGETS):
+        has_targets = True
+    else:
+        has_targets = n_targets > 0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -215,10 +219,6 @@ def simulate_loop(rng, n_walkers, geometry, motion, recording, out):
                 if static(KIND != BOX):
                     # Targets: target 0 (most set-ups have one) with its start
                     # distance carried from the last step, the others in a helper.
-                    if static(KIND == BOX_TARGETS):
-                        has_targets = True
-                    else:
-                        has_targets = n_targets > 0
                     if has_targets:
                         r2 = sum((y_i - tc_i) ** 2 for i in AXES)
                         if r2 <= reach_0 or r1_0 <= reach_0:
