@@ -276,8 +276,8 @@ def _run(args: argparse.Namespace) -> int:
 
         print(headline_table(ds, sweep))
         print()
-    print(format_table(report, sweep.swept, sweep.values))
-    return 0 if report.passed else 1
+    print(format_table(report, sweep))
+    return report.exit_code
 
 
 def _status(args: argparse.Namespace) -> int:
@@ -342,8 +342,8 @@ def _check(args: argparse.Namespace) -> int:
         print(report.to_json())
     else:
         sweep = load_sweep(args.store)
-        print(format_table(report, sweep.swept, sweep.values))
-    return 0 if report.passed else 1
+        print(format_table(report, sweep))
+    return report.exit_code
 
 
 def _plan(args: argparse.Namespace) -> int:

@@ -119,14 +119,24 @@ def wilson_interval(successes: Any, n: Any, level: float = LEVEL) -> tuple[Any, 
     Returns
     -------
     (lower, upper)
-        Of the broadcast shape of ``successes`` and ``n``.
+        Of the broadcast shape of ``successes`` and ``n``; always
+        ``0 <= lower <= successes / n <= upper <= 1`` (NaN where ``n`` is 0).
+
+    Notes
+    -----
+    At p = 0 and p = 1 the formula's bound equals p exactly in real arithmetic, but in
+    floating point ``centre + half`` can land an ulp below 1 (and ``centre - half`` an
+    ulp above 0), so an interval would miss its own estimate; the bounds are therefore
+    widened to contain p and clipped to [0, 1].
     """
     z = z_value(level)
     with np.errstate(invalid="ignore", divide="ignore"):
         p = successes / n
         centre = (p + z * z / (2 * n)) / (1 + z * z / n)
         half = z / (1 + z * z / n) * np.sqrt(p * (1 - p) / n + z * z / (4 * n * n))
-    return centre - half, centre + half
+        lower = np.clip(np.minimum(centre - half, p), 0.0, 1.0)
+        upper = np.clip(np.maximum(centre + half, p), 0.0, 1.0)
+    return lower, upper
 
 
 def _binned_density(
@@ -1477,15 +1487,28 @@ def summary(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
     Returns
     -------
     xarray.Dataset
-        dims (point,) and (point, wall): ``walkers``, ``censored``, ``mean_fpt``,
-        ``mean_fpt_stderr``, ``mean_fpt_lower``, ``mean_fpt_upper``, ``splitting``,
+        dims (point,) and (point, wall): ``walkers`` (int64), ``censored``,
+        ``mean_fpt``, ``mean_fpt_censored`` (bool: some walkers censored, so
+        ``mean_fpt`` is over absorbed walkers only, a lower bound of the full mean),
+        ``mean_fpt_stderr``, ``mean_fpt_lower``, ``mean_fpt_upper``, ``splitting``
+        (fraction of all finished walkers absorbed at the wall, unconditional on
+        absorption: censored walkers count at no wall),
         ``splitting_stderr``, ``splitting_lower``, ``splitting_upper``,
         ``survival_end``. Select one point with ``.isel(point=p)``.
     """
-    out = _result(ds, ("point",), {"walkers": _walkers(ds)})
+    walkers = np.asarray(ds["walkers_done"].values, dtype=np.int64).reshape(-1)
+    out = _result(ds, ("point",), {"walkers": walkers})
     if "first_passage_time" in ds or "fpt_histogram" in ds:
         mean = mean_first_passage_time(ds, level)
-        out["censored"] = ("point", np.asarray(mean["censored"].values, np.float64))
+        censored = np.asarray(mean["censored"].values, np.float64)
+        out["censored"] = ("point", censored)
+        # The CLI's `*`: a mean over absorbed walkers only, a lower bound of the
+        # unconditional mean. False where nothing is finished (the mean is NaN).
+        out["mean_fpt_censored"] = ("point", censored > 0)
+        out["mean_fpt_censored"].attrs["description"] = (
+            "True where some walkers were censored: mean_fpt is then over absorbed "
+            "walkers only, a lower bound of the full mean first-passage time"
+        )
         for key, name in (
             ("estimate", "mean_fpt"),
             ("stderr", "mean_fpt_stderr"),

@@ -84,3 +84,11 @@ def cli_env() -> dict[str, str]:
     env = dict(os.environ)
     env["PYTHONUNBUFFERED"] = "1"
     return env
+
+
+@pytest.fixture(scope="session")
+def degenerate_stores(tmp_path_factory: pytest.TempPathFactory) -> dict[str, Path]:
+    """The edge-case stores of :mod:`tests.degenerate`, by case name (built once)."""
+    from tests.degenerate import build
+
+    return build(tmp_path_factory.mktemp("degenerate"))

@@ -55,7 +55,7 @@ def test_check_fails_on_mis_scaled_diffusivity(
         )
         assert "error" not in run_task(str(path), wrong)
     report = check_store(path)
-    assert not report.passed
+    assert report.passed is False
     worst = max(abs(r.z) for r in report.rows)
     assert worst > MIN_FAILING_Z
     result = _cli("check", str(path))

@@ -2035,12 +2035,12 @@ def test_domain_wall_names_keep_infinite_sides() -> None:
     assert domain.wall_names() == ("x_lower", "x_upper")
 
 
-def test_domain_wall_names_ball_targets_then_surface() -> None:
+def test_domain_wall_names_ball_targets_then_wall() -> None:
     text = spec(DISK, domain__targets=[{"center": [-0.5, 0.0], "radius": 0.1}])
     domain = parse(text).points[0].domain
-    assert domain.wall_names() == ("target_0", "surface")
+    assert domain.wall_names() == ("target_0", "wall")
     assert domain.wall_absorbing() == (True, domain.surface_absorbing)
-    assert parse(dumps(DISK)).points[0].domain.wall_names() == ("surface",)
+    assert parse(dumps(DISK)).points[0].domain.wall_names() == ("wall",)
 
 
 # --------------------------------------------------------------------------- fuzzing
