@@ -90,6 +90,11 @@ def mean_first_passage_time(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
         mean = (counts * mid).sum("fpt_bin") / n
         var = (counts * (mid - mean) ** 2).sum("fpt_bin") / (n - 1) + width**2 / 12
         out = _interval(mean, np.sqrt(var / n), n, level)
+    # One absorbed walker has no spread to estimate: its interval is every possible
+    # mean, [0, inf), rather than NaN, so it still contains the estimate.
+    single = out["n"] == 1
+    out["lower"] = out["lower"].where(~single, 0.0)
+    out["upper"] = out["upper"].where(~single, np.inf)
     out["censored"] = censored_fraction(ds)
     # A point without finished walkers (a store still running) is NaN by design;
     # dask's threads ignore np.errstate, so its 0/0 warning is filtered here.
@@ -286,7 +291,10 @@ def _result(
         else:
             value = np.asarray(value)
             data[name] = (dims[: value.ndim], value)
-    out = xr.Dataset(data, coords=_point_coords(ds))
+    # A result variable of a coordinate's name (restricted_mean's ``horizon``)
+    # replaces that coordinate.
+    point_coords = {k: v for k, v in _point_coords(ds).items() if k not in data}
+    out = xr.Dataset(data, coords=point_coords)
     if coords:
         out = out.assign_coords(coords)
     out.attrs = dict(attrs or {})
@@ -452,13 +460,12 @@ def _bin_rows(
 def _horizon(ds: xr.Dataset, horizon: Any = None) -> NDArray[np.float64] | None:
     """The censoring horizon per point, or None if the Dataset does not record it.
 
-    In order: the ``horizon`` argument; the store's ``censoring_time``; a ``horizon``
-    variable or coordinate (a swept ``time.horizon``); ``ds.attrs["horizon"]``; the span of the stored first-passage
-    histogram (n_bins x bin width covers [0, horizon]).
+    In order: the ``horizon`` argument; the store's ``horizon`` coordinate (snapped
+    to the step grid; a swept ``time.horizon`` as the definition wrote it);
+    ``ds.attrs["horizon"]``; the span of the stored first-passage histogram (n_bins x
+    bin width covers [0, horizon]).
     """
     n_points = ds.sizes["point"]
-    if horizon is None and "censoring_time" in ds.variables:
-        horizon = ds["censoring_time"].values
     if horizon is None and "horizon" in ds.variables:
         horizon = ds["horizon"].values
     if horizon is None and "horizon" in ds.attrs:

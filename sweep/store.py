@@ -39,13 +39,16 @@ from numpy.typing import NDArray
 
 from sweep.errors import StoreError, StoreLockedError, StoreMismatchError
 from sweep.plan import BIT_GENERATOR, Plan, Task, coordinate_columns, snapshot_steps
-from sweep.spec import Sweep, axis_names, parse_spec
+from sweep.spec import NO_UNITS, Sweep, Units, axis_names, key_quantity, parse_spec
 
 log = logging.getLogger(__name__)
 
 STORE_FORMAT = 1
 ATTRS_KEY = "brownian_sweep"
 MARKER_DIR = "_tasks"
+#: Variables renamed since earlier store versions (old name -> new name); read stores
+#: answer to the new names.
+RENAMED = {"censoring_time": "horizon", "time_step": "dt"}
 LOCK_FILE = "_lock.json"
 KERNEL_FILE = Path(__file__).resolve().parent.parent / "kernels" / "walkers.py"
 #: The spheres scheme's kernel (time.scheme = "spheres").
@@ -184,6 +187,7 @@ def _create(path: Path, plan: Plan) -> None:
                 "per_walker": rec.per_walker,
                 "occupancy": bool(rec.occupancy_times),
                 "fpt_bins": rec.fpt_bins,
+                "units": {"length": sweep.units.length, "time": sweep.units.time},
             },
             "title": f"brownian-sweep results: {sweep.name}",
             "Conventions": "CF-1.10",
@@ -191,8 +195,13 @@ def _create(path: Path, plan: Plan) -> None:
     )
     columns = coordinate_columns(sweep)
     coords = " ".join(columns)
+    units = sweep.units
 
     def small(name: str, dims: tuple[str, ...], values: Any, **attrs: Any) -> None:
+        quantity = attrs.pop("quantity", key_quantity(name))
+        if quantity:
+            # CF style: the unit as free text (see sweep.spec.Units).
+            attrs["units"] = units.of(quantity)
         values = np.asarray(values)
         if values.dtype.kind == "U":
             values = values.astype(object)
@@ -214,6 +223,8 @@ def _create(path: Path, plan: Plan) -> None:
     )
     for name, values in columns.items():
         small(name, ("point",), values, long_name=f"swept parameter {name}")
+    # The definition's own names (time.dt, time.horizon) for the per-point time step
+    # and horizon; a swept one is already a coordinate of that name.
     small(
         "chunk",
         ("chunk",),
@@ -226,14 +237,17 @@ def _create(path: Path, plan: Plan) -> None:
         np.array([sweep.chunk_walkers(c) for c in range(n_c)], dtype=np.int64),
         long_name="walkers per chunk",
     )
-    small(
-        "censoring_time",
-        ("point",),
-        np.array(
-            [p.timing.n_steps * p.timing.dt for p in sweep.points], dtype=np.float64
-        ),
-        long_name="horizon: walkers still free then are censored (snapped to the step grid)",
-    )
+    if "horizon" not in columns:
+        small(
+            "horizon",
+            ("point",),
+            np.array(
+                [p.timing.n_steps * p.timing.dt for p in sweep.points],
+                dtype=np.float64,
+            ),
+            long_name="horizon: walkers still free then are censored (snapped to the "
+            "step grid)",
+        )
     small(
         "start_position",
         ("point", "axis"),
@@ -245,19 +259,22 @@ def _create(path: Path, plan: Plan) -> None:
             dtype=np.float64,
         ),
         long_name="start point of every walker (NaN: uniform over the domain)",
+        quantity="length",
     )
-    small(
-        "time_step",
-        ("point",),
-        np.array([p.timing.dt for p in sweep.points], dtype=np.float64),
-        long_name="time step dt",
-    )
+    if "dt" not in columns:
+        small(
+            "dt",
+            ("point",),
+            np.array([p.timing.dt for p in sweep.points], dtype=np.float64),
+            long_name="time step dt",
+        )
     small(
         "time",
         ("time",),
         np.array(rec.survival_times, dtype=np.float64),
         long_name="time of the survival grid",
         standard_name="time",
+        quantity="time",
     )
     walker_attrs = {"coordinates": coords} if coords else {}
     wall_names = domain.wall_names()
@@ -272,6 +289,7 @@ def _create(path: Path, plan: Plan) -> None:
             attributes={
                 **walker_attrs,
                 "long_name": "first-passage time (NaN: still free at the horizon)",
+                "units": units.of("time"),
             },
         )
         root.create_array(
@@ -295,7 +313,11 @@ def _create(path: Path, plan: Plan) -> None:
             dtype="f8",
             fill_value=np.nan,
             dimension_names=("point", "walker", "axis"),
-            attributes={**walker_attrs, "long_name": "position at absorption"},
+            attributes={
+                **walker_attrs,
+                "long_name": "position at absorption",
+                "units": units.of("length"),
+            },
         )
     root.create_array(
         "survival_count",
@@ -327,6 +349,7 @@ def _create(path: Path, plan: Plan) -> None:
                 dtype=np.float64,
             ),
             long_name="width of the first-passage-time bins",
+            quantity="time",
         )
     if rec.occupancy_times:
         n_s, bins = len(rec.occupancy_times), rec.occupancy_bins
@@ -351,6 +374,7 @@ def _create(path: Path, plan: Plan) -> None:
                 dtype=np.float64,
             ).reshape(n_p, n_s),
             long_name="occupancy snapshot time, snapped to the step grid",
+            quantity="time",
         )
         for side in ("lower", "upper"):
             small(
@@ -365,6 +389,7 @@ def _create(path: Path, plan: Plan) -> None:
                     dtype=np.float64,
                 ),
                 long_name=f"{side} edge of the occupancy histogram per axis",
+                quantity="length",
             )
     (path / MARKER_DIR).mkdir()
 
@@ -372,14 +397,24 @@ def _create(path: Path, plan: Plan) -> None:
 # --------------------------------------------------------------------------- checks
 
 
-def read_attrs(path: str | Path) -> dict[str, Any]:
-    """The store's provenance attributes; StoreError if ``path`` is not a store."""
+def read_attrs(path: str | Path, writing: bool = False) -> dict[str, Any]:
+    """The store's provenance attributes; StoreError if ``path`` is not a store.
+
+    ``writing``: the caller means to write there (``sweep run --store``), so the
+    message suggests another --store path; readers get a hint that fits them."""
     path = Path(path)
     meta = path / "zarr.json"
+    fix = " Choose another --store path." if writing else ""
     if path.exists() and not path.is_dir():
+        if not writing and path.suffix == ".toml":
+            fix = (
+                f" It looks like a sweep definition: run it with `sweep run {path}`, "
+                f"then pass the store directory that run names (by default "
+                f"{path.stem}.zarr)."
+            )
         raise StoreError(
-            f"{path}: exists and is not a directory (a store is a directory made by "
-            f"`sweep run`); nothing was changed. Choose another --store path."
+            f"{path}: is a file, not a store (a store is a directory made by "
+            f"`sweep run`); nothing was changed.{fix}"
         )
     if not path.is_dir():
         raise StoreError(
@@ -390,7 +425,7 @@ def read_attrs(path: str | Path) -> dict[str, Any]:
     except (OSError, ValueError, KeyError, TypeError):
         raise StoreError(
             f"{path}: exists but is not a brownian-sweep store (no readable zarr.json with "
-            f"'{ATTRS_KEY}' attributes). Choose another --store path; nothing was changed."
+            f"'{ATTRS_KEY}' attributes); nothing was changed.{fix}"
         ) from None
     if attrs.get("format") != STORE_FORMAT:
         raise StoreError(
@@ -410,7 +445,7 @@ def load_sweep(path: str | Path) -> Sweep:
 
 def check_matches(path: Path, plan: Plan) -> None:
     """Refuse a store made by another definition, kernel or library version."""
-    attrs = read_attrs(path)
+    attrs = read_attrs(path, writing=True)
     stored = {"spec": attrs["spec"], "fingerprint": attrs["fingerprint"]}
     wanted = {"spec": plan.sweep.canonical, "fingerprint": fingerprint()}
     if stored == wanted:
@@ -701,7 +736,18 @@ def open_dataset(path: str | Path) -> xr.Dataset:
         # The marker directory, lock and run log live inside the store directory;
         # zarr notes them as "not a component of a Zarr hierarchy" when listing.
         warnings.filterwarnings("ignore", message="Object at _", category=UserWarning)
-        raw = xr.open_zarr(path, consolidated=False, chunks={}, mask_and_scale=True)
+        # Units are free text ("s", "seconds"): never let xarray turn a variable
+        # whose unit names a time into timedeltas.
+        raw = xr.open_zarr(
+            path,
+            consolidated=False,
+            chunks={},
+            mask_and_scale=True,
+            decode_times=False,
+            decode_timedelta=False,
+        )
+    # Stores of earlier versions named the time step and horizon differently.
+    raw = raw.rename({old: new for old, new in RENAMED.items() if old in raw.variables})
     n_p, n_c = attrs["n_points"], attrs["n_chunks"]
     done = done_array(path, n_p, n_c)
     swept_coords = [
@@ -736,7 +782,6 @@ def open_dataset(path: str | Path) -> xr.Dataset:
             ds[name] = var.drop_vars(
                 [c for c in var.coords if c not in ("point",)], errors="ignore"
             )
-        ds["first_passage_time"].attrs["units"] = "time units of the definition"
     counts = raw["survival_count"].where(done_da, 0).sum("chunk")
     ds["survival"] = (counts / walkers_done.where(walkers_done > 0)).assign_attrs(
         long_name="fraction of walkers still free"
@@ -767,6 +812,16 @@ def open_dataset(path: str | Path) -> xr.Dataset:
         "store": str(path.absolute()),
         "complete": int(complete),
     }
+    named = attrs.get("units", {})
+    ds.attrs["units_length"] = named.get("length") or NO_UNITS
+    ds.attrs["units_time"] = named.get("time") or NO_UNITS
+    if "units" not in attrs:
+        # A store from before units were stored: label its quantities alike.
+        units = Units()
+        for name in ds.variables:
+            quantity = key_quantity(str(name))
+            if quantity and name not in ("point", "chunk"):
+                ds[name].attrs.setdefault("units", units.of(quantity))
     return ds
 
 
