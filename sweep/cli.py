@@ -420,6 +420,7 @@ def _plan(args: argparse.Namespace) -> int:
             f"{steps:.3g} steps per walker (pilot of {PILOT_WALKERS} walkers per "
             f"point); a jump counts as {JUMP_STEPS:g} walker-steps above"
         )
+    print(f"                   ({sizing.estimate_note})")
     print(f"  disk:            at most {human_bytes(sizing.disk_bytes)} (uncompressed)")
     limit, where = memory_limit()
     allowed = f" ({where} allows {human_bytes(limit)})" if limit else ""
