@@ -266,7 +266,12 @@ def _run(args: argparse.Namespace) -> int:
     store_path = (
         Path(args.store or f"{Path(sweep.source).stem}.zarr").expanduser().absolute()
     )
+    from sweep.check import describe
+    from sweep.report import units_note
+
     print(f"store: {store_path}")
+    print(describe(sweep))
+    print(units_note(sweep))
     _warn_plan(sweep)
     sys.stdout.flush()
     summary = run(sweep, store_path, options)

@@ -29,6 +29,8 @@ MAX_CURVES = 8
 #: names the ones shown).
 MAX_MAPS = 4
 DPI = 110
+#: Survival bands narrower than this (in S) are said to be hidden by their lines.
+BAND_VISIBLE = 0.02
 
 
 def write_report(path: str | Path, out: str | Path) -> Path:
@@ -209,11 +211,14 @@ def _survival_figure(
     ax.set_ylim(-0.02, 1.02)
     ax.legend(fontsize="small")
     ax.set_title("Fraction of walkers still free, shaded: pointwise 95 % interval")
-    caption = "Survival with pointwise 95 % intervals (shaded)"
-    # A band under about two line widths (the axis spans ~1.04 in 4.5 in of height)
-    # cannot be seen: say so rather than leave the reader looking for it.
-    if widest < 0.01:
-        caption += f"; the intervals are narrower than the lines (at most {widest:.2g})"
+    caption = (
+        f"Survival with pointwise 95 % intervals (shaded; the widest is {widest:.2g} "
+        "in S)"
+    )
+    # A band under ~0.02 (about six pixels of the 1.04-tall axis) hides under its
+    # line: say so rather than leave the reader looking for it.
+    if widest < BAND_VISIBLE:
+        caption += "; the bands are about as narrow as the lines and hard to see"
     return _save(fig, out / "survival.png"), caption + _left_out(shown, sweep.n_points)
 
 
@@ -248,7 +253,7 @@ def _fpt_figure(
         )
     ax.set_xlabel(sweep.units.label("first-passage time", "time"))
     ax.set_ylabel(
-        sweep.units.label("density (integrates to the absorbed fraction)", "rate")
+        sweep.units.label("density", "rate") + "\n(integrates to the absorbed fraction)"
     )
     if drawn:
         ax.legend(fontsize="small")
