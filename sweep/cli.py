@@ -337,13 +337,22 @@ def _status(args: argparse.Namespace) -> int:
         per_point.setdefault(int(m["point"]), []).append(m)  # type: ignore[arg-type]
     holder = store.lock_holder(path)
     print(
-        f"store {path}: sweep {sweep.name!r}, {sweep.n_points} points x {n_c} tasks, spec {attrs['spec_hash'][:12]}"
+        f"store {path}: sweep {sweep.name!r}, {sweep.n_points} points x {n_c} tasks, definition hash {attrs['spec_hash'][:12]}"
     )
     if holder:
         print(
             f"running now: pid {holder.get('pid')} on {holder.get('host')} since {holder.get('started')}"
         )
-    header = ["point", *sweep.swept, "tasks", "walkers", "censored"]
+    from sweep.check import parameter_header, parameters, show_value
+
+    columns = parameters(sweep)
+    header = [
+        "point",
+        *(parameter_header(name, sweep) for name in columns),
+        "tasks",
+        "walkers",
+        "censored",
+    ]
     rows = [header]
     total = 0
     for p in range(sweep.n_points):
@@ -355,7 +364,7 @@ def _status(args: argparse.Namespace) -> int:
         rows.append(
             [
                 str(p),
-                *(str(v) for v in sweep.values[p]),
+                *(show_value(values[p]) for values in columns.values()),
                 f"{len(ms)}/{n_c}",
                 str(walkers),
                 frac,
@@ -407,7 +416,12 @@ def _plan(args: argparse.Namespace) -> int:
     )
     print(f"  tasks:           {plan.n_tasks:,}")
     if sweep.swept:
+        from sweep.plan import coordinate_columns
+
+        # The definition's key, then the name tables, plots and the store use.
+        names = list(coordinate_columns(sweep))
         print(f"  swept:           {', '.join(sweep.swept)}")
+        print(f"  named:           {', '.join(names)} (in tables, plots and the store)")
     print(
         f"  walker-steps:    about {sizing.walker_steps_expected:.3g} expected, at most "
         f"{sizing.walker_steps_bound:.3g} (no walker absorbed before the horizon)"

@@ -546,7 +546,7 @@ img {{ max-width: 100%; }} figure {{ margin: 1.5em 0; }}
 </style></head><body>
 <h1>{e(sweep.name)}</h1>
 <p>{sweep.n_points} points × {sweep.walkers:,} walkers; {done}/{total} tasks done.
-Definition: <code>{e(sweep.source)}</code>; spec hash <code>{e(ds.attrs["spec_hash"][:16])}</code>.
+Definition: <code>{e(sweep.source)}</code>; definition hash <code>{e(ds.attrs["spec_hash"][:16])}</code>.
 {e(units_note(sweep).capitalize())}</p>{unfinished}
 <p><strong>Simulation results need convergence checks (time step, walker count) before
 they are relied on.</strong></p>

@@ -7,6 +7,8 @@ import re
 import subprocess
 from pathlib import Path
 
+import pytest
+
 import sweep
 from sweep import stats, store
 from sweep.execute import RunOptions, run
@@ -158,6 +160,7 @@ def test_closed_output_pipe_ends_quietly(
     assert result.stderr == "", result.stderr
 
 
+@pytest.mark.filterwarnings("error::RuntimeWarning")
 def test_report_on_edge_case_stores(
     degenerate_stores: dict[str, Path], tmp_path: Path
 ) -> None:
