@@ -321,6 +321,8 @@ def run_task(
 #: compiled kernels from numba's cache takes about a second on a busy machine;
 #: compiling one takes 5-15 s).
 COMPILE_NOTICE_AFTER = 3.0
+#: Steps of the warm-up's single walker.
+WARM_UP_STEPS = 16
 
 
 def warm_up(
@@ -334,7 +336,15 @@ def warm_up(
     cache) is said on stderr, and how long it took once done.
     """
     if task is not None:
-        job = dataclasses.replace(task, n_walkers=1)
+        # One walker for a few steps: compiling needs a call, not a simulation (a
+        # walker of a fine-dt point could otherwise run for seconds).
+        job = dataclasses.replace(
+            task,
+            n_walkers=1,
+            args=dataclasses.replace(
+                task.args, n_steps=min(task.args.n_steps, WARM_UP_STEPS)
+            ),
+        )
     else:
         job = _tiny_task(scheme)
     if not announce:

@@ -474,7 +474,10 @@ def _occupancy_figure(
                 ax.set_title(f"point {p}: {labels[p]}\n{ts}", fontsize="x-small")
                 ax.set_xlabel(sweep.units.label("x", "length"), fontsize="small")
                 ax.set_ylabel(sweep.units.label("y", "length"), fontsize="small")
-        fig.suptitle("Occupancy of free walkers (one colour scale for all panels)")
+        fig.suptitle(
+            "Occupancy of free walkers (one colour scale for all panels)"
+            + _left_out(points, sweep.n_points)
+        )
         fig.tight_layout()
         assert image is not None
         bar = fig.colorbar(image, ax=axes.ravel().tolist(), shrink=0.9)
@@ -482,7 +485,10 @@ def _occupancy_figure(
         fig.savefig(out / "occupancy.png", dpi=DPI)
         plt.close(fig)
         return "occupancy.png", caption
-    fig.suptitle("Occupancy of free walkers per walker started (shared y axis)")
+    fig.suptitle(
+        "Occupancy of free walkers per walker started (shared y axis)"
+        + _left_out(points, sweep.n_points)
+    )
     return _save(fig, out / "occupancy.png"), caption
 
 

@@ -413,7 +413,7 @@ def read_attrs(path: str | Path, writing: bool = False) -> dict[str, Any]:
                 f"{path.stem}.zarr)."
             )
         raise StoreError(
-            f"{path}: is a file, not a store (a store is a directory made by "
+            f"{path}: exists and is not a directory (a store is a directory made by "
             f"`sweep run`); nothing was changed.{fix}"
         )
     if not path.is_dir():

@@ -69,6 +69,11 @@ def test_run_says_where_the_store_is_warns_and_shows_censoring(tmp_path: Path) -
     store = elsewhere / "coarse.zarr"
     assert lines[0] == f"store: {store}", lines[0]
     assert lines[-1] == f"store: {store}", lines[-1]
+    # What is simulated, and in which units (none named here).
+    assert lines[1].startswith(
+        "small: 2 point(s) x 600 walkers; 1-D box from [0] to [1]"
+    )
+    assert "units: definition units" in lines[3], lines[3]
     assert "warning: point 0: dt = 0.02 is coarse" in result.stdout
     assert "horizon 0.2 is short" in result.stdout
     header = next(line for line in lines if line.startswith("point  diffusivity"))

@@ -2477,3 +2477,33 @@ def test_spec_hash_swept_inf_spellings_hash_equal() -> None:
         for u in ("inf", "+inf", " inf", math.inf)
     }
     assert len(swept) == 1
+
+
+# ------------------------------------------------------------------ units
+
+
+def test_units_are_labels_in_the_hash_only_when_named() -> None:
+    plain = parse(spec(LINE))
+    named = parse(spec(LINE, sweep__units={"length": "um", "time": "s"}))
+    assert plain.units.of("time") == "definition units"
+    assert named.units.of("diffusivity") == "um^2/s"
+    assert named.units.of("velocity") == "um/s"
+    assert named.units.label("x", "length") == "x [um]"
+    # A definition without units keeps its hash; naming them makes another study.
+    assert plain.spec_hash == parse(spec(LINE, sweep__units={})).spec_hash
+    assert plain.spec_hash != named.spec_hash
+    assert plain.points == named.points
+
+
+@pytest.mark.parametrize(
+    ("units", "fragment"),
+    [
+        ("um", "[sweep.units] must be a table"),
+        ({"mass": "kg"}, "mass"),
+        ({"length": ""}, "[sweep.units.length] must be a short non-empty text"),
+        ({"time": 1}, "[sweep.units.time] must be a short non-empty text"),
+    ],
+)
+def test_bad_units_name_the_key(units: Any, fragment: str) -> None:
+    with pytest.raises(SpecError, match=re.escape(fragment)):
+        parse(spec(LINE, sweep__units=units))
