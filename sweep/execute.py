@@ -11,6 +11,7 @@ bit-identical whichever is used.
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import errno
 import logging
 import math
@@ -40,6 +41,9 @@ log = logging.getLogger(__name__)
 #: At most this many tasks per worker thread are in flight on a distributed cluster,
 #: so 10^5 tasks do not flood the scheduler.
 WINDOW_PER_WORKER = 4
+#: Seconds to wait for an existing Dask scheduler before giving up (the environment
+#: variable SWEEP_CONNECT_TIMEOUT overrides it).
+CONNECT_TIMEOUT = 30.0
 
 
 @dataclass(frozen=True)
@@ -324,8 +328,63 @@ def run_task(
         }
 
 
-def warm_up(scheme: str = "steps") -> None:
-    """Compile the kernel of ``scheme`` once in the driver before tasks fan out."""
+#: Seconds the warm-up may take before it is announced as compiling (loading
+#: compiled kernels from numba's cache takes about a second on a busy machine;
+#: compiling one takes 5-15 s).
+COMPILE_NOTICE_AFTER = 3.0
+#: Steps of the warm-up's single walker.
+WARM_UP_STEPS = 16
+
+
+def warm_up(
+    task: Task | None = None, announce: bool = False, scheme: str = "steps"
+) -> None:
+    """Compile the kernel loop ``task`` needs (one walker of it; default: a 1-D
+    interval with ``scheme``) in the driver, before tasks fan out.
+
+    With ``announce``, a warm-up that is still running after
+    :data:`COMPILE_NOTICE_AFTER` seconds (numba compiling rather than loading its
+    cache) is said on stderr, and how long it took once done.
+    """
+    if task is not None:
+        # One walker for a few steps: compiling needs a call, not a simulation (a
+        # walker of a fine-dt point could otherwise run for seconds).
+        job = dataclasses.replace(
+            task,
+            n_walkers=1,
+            args=dataclasses.replace(
+                task.args, n_steps=min(task.args.n_steps, WARM_UP_STEPS)
+            ),
+        )
+    else:
+        job = _tiny_task(scheme)
+    if not announce:
+        simulate_task(job)
+        return
+    start = time.monotonic()
+    failure: list[BaseException] = []
+
+    def compile_it() -> None:
+        try:
+            simulate_task(job)
+        except BaseException as err:  # re-raised in the caller's thread
+            failure.append(err)
+
+    worker = threading.Thread(target=compile_it, name="sweep-warm-up", daemon=True)
+    worker.start()
+    worker.join(COMPILE_NOTICE_AFTER)
+    if worker.is_alive():
+        sys.stderr.write("compiling kernels (first run only)…\n")
+        sys.stderr.flush()
+        while worker.is_alive():
+            worker.join(0.1)  # short waits keep Ctrl-C responsive
+        sys.stderr.write(f"kernels compiled in {time.monotonic() - start:.1f} s.\n")
+        sys.stderr.flush()
+    if failure:
+        raise failure[0]
+
+
+def _tiny_task(scheme: str = "steps") -> Task:
     from sweep.spec import parse_spec
 
     tiny = parse_spec(
@@ -348,7 +407,7 @@ def warm_up(scheme: str = "steps") -> None:
         """,
         source="<warm-up>",
     )
-    simulate_task(make_plan(tiny).tasks[0])
+    return make_plan(tiny).tasks[0]
 
 
 # --------------------------------------------------------------------------- progress
@@ -357,13 +416,23 @@ def warm_up(scheme: str = "steps") -> None:
 class Progress:
     """One status line on stderr: tasks done/total, walker-steps per second, time left."""
 
-    def __init__(self, total: int, done: int, enabled: bool, concurrency: int) -> None:
+    def __init__(
+        self,
+        total: int,
+        done: int,
+        enabled: bool,
+        concurrency: int,
+        started: float | None = None,
+    ) -> None:
         self.total = total
         self.done = done
         self.start_done = done
         self.enabled = enabled
         self.steps = 0
         self.t0 = time.monotonic()
+        #: When the run started (before compiling): "elapsed" counts from here; rates
+        #: and time left from ``t0``, when tasks began.
+        self.started = self.t0 if started is None else started
         self.last = 0.0
         self.tty = sys.stderr.isatty()
         self.concurrency = concurrency
@@ -393,7 +462,7 @@ class Progress:
         bar = "#" * filled + "." * (width - filled)
         line = (
             f"[{bar}] {self.done}/{self.total} tasks  {rate / 1e6:8.2f} M walker-steps/s  "
-            f"elapsed {_duration(elapsed)}  left {eta}"
+            f"elapsed {_duration(now - self.started)}  left {eta}"
         )
         sys.stderr.write(("\r" + line) if self.tty else (line + "\n"))
         sys.stderr.flush()
@@ -455,6 +524,18 @@ def run(
         # Workers of an existing cluster have their own memory; locally we know it.
         local = options.threads or options.processes or os.cpu_count() or 1
         check_memory(sweep, local)
+    # An existing cluster first: nothing is created before a connection exists.
+    client = connect(options) if options.kind == "cluster" else None
+    try:
+        return _run_prepared(plan, store_path, options, client)
+    finally:
+        if client is not None:
+            client.close()
+
+
+def _run_prepared(
+    plan: Any, store_path: str | Path, options: RunOptions, client: Any
+) -> RunSummary:
     path = store.prepare(store_path, plan)
     with store.runner_lock(path):
         removed = store.clean_partials(path)
@@ -478,13 +559,17 @@ def run(
             if options.kind == "threads":
                 _run_threads(path, store_id, pending, options, summary)
             else:
-                _run_distributed(path, store_id, pending, options, summary)
+                _run_distributed(path, store_id, pending, options, summary, client)
         finally:
             summary.seconds = time.monotonic() - start
+            # Counted from the markers: tasks that finished while the run was being
+            # interrupted are done although their results never reached this loop.
+            finished = len(store.done_tasks(path))
             _log_run(
                 path,
-                f"end: {summary.completed} completed, {len(summary.failed)} failed, "
-                f"interrupted={summary.interrupted}",
+                f"end: {finished} of {plan.n_tasks} tasks done "
+                f"({finished - summary.already_done} in this run), "
+                f"{len(summary.failed)} failed, interrupted={summary.interrupted}",
             )
     _raise_failures(summary)
     return summary
@@ -527,8 +612,11 @@ def _run_threads(
     from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
 
     n = options.threads or os.cpu_count() or 1
+    started = time.monotonic()
     stop = threading.Event()
-    progress = Progress(summary.n_tasks, summary.already_done, options.progress, n)
+    progress = Progress(
+        summary.n_tasks, summary.already_done, options.progress, n, started
+    )
     # Tasks running now: on Ctrl-C the pool's threads run on (a running kernel cannot
     # be stopped), so the run waits for them (holding the store's lock) before it
     # returns.
@@ -545,8 +633,11 @@ def _run_threads(
     try:
         try:
             # Inside: a Ctrl-C while compiling is an interruption too.
+            # One warm-up per scheme among the pending tasks: each compiles its own
+            # loops.
             for scheme in sorted({t.args.scheme for t in pending}):
-                warm_up(scheme)
+                first = next(t for t in pending if t.args.scheme == scheme)
+                warm_up(first, announce=options.progress)
             in_flight = {pool.submit(counted, t) for t in _take(queue, window)}
             while in_flight:
                 finished, in_flight = wait(in_flight, return_when=FIRST_COMPLETED)
@@ -603,12 +694,44 @@ class _Counter:
                 self._changed.wait(0.1)
 
 
+def connect_timeout() -> float:
+    """Seconds to wait for an existing scheduler (``$SWEEP_CONNECT_TIMEOUT``, else
+    :data:`CONNECT_TIMEOUT`)."""
+    try:
+        return float(os.environ.get("SWEEP_CONNECT_TIMEOUT", CONNECT_TIMEOUT))
+    except ValueError:
+        return CONNECT_TIMEOUT
+
+
+def connect(options: RunOptions) -> Any:
+    """A ``distributed.Client`` of the existing cluster ``options`` names; says
+    where it connects (stderr) and fails with one message after
+    :func:`connect_timeout` seconds."""
+    from distributed import Client
+
+    where = options.scheduler_file or options.scheduler
+    timeout = connect_timeout()
+    sys.stderr.write(f"connecting to the Dask scheduler {where} …\n")
+    sys.stderr.flush()
+    try:
+        if options.scheduler_file is not None:
+            return Client(scheduler_file=options.scheduler_file, timeout=timeout)
+        return Client(options.scheduler, timeout=timeout)
+    except (OSError, TimeoutError, ValueError) as err:
+        raise SweepError(
+            f"cannot connect to the Dask scheduler {where} within {timeout:g} s: "
+            f"{err}. Check that it runs and that this machine can reach it (or set "
+            f"SWEEP_CONNECT_TIMEOUT for a slow one); nothing was created or changed."
+        ) from None
+
+
 def _run_distributed(
     path: Path,
     store_id: str,
     pending: list[Task],
     options: RunOptions,
     summary: RunSummary,
+    client: Any = None,
 ) -> None:
     import dask
     from distributed import Client, LocalCluster, as_completed
@@ -626,18 +749,7 @@ def _run_distributed(
                 host="127.0.0.1",
             )
         client = Client(cluster)
-    else:
-        where = options.scheduler_file or options.scheduler
-        try:
-            if options.scheduler_file is not None:
-                client = Client(scheduler_file=options.scheduler_file, timeout="60s")
-            else:
-                client = Client(options.scheduler, timeout="60s")
-        except (OSError, TimeoutError, ValueError) as err:
-            raise SweepError(
-                f"cannot connect to the Dask scheduler {where}: {err}. Check that it "
-                f"runs and that this machine can reach it; the store is unchanged."
-            ) from None
+    own_client = cluster is not None
     try:
         n_threads = max(1, sum(client.nthreads().values()))
         progress = Progress(
@@ -688,7 +800,8 @@ def _run_distributed(
                     client.cancel(outstanding, force=True)
             progress.close()
     finally:
-        client.close()
+        if own_client:  # a cluster's client is closed by `run`, which opened it
+            client.close()
         if cluster is not None:
             cluster.close()
 

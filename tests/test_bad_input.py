@@ -1020,6 +1020,13 @@ CASES: list[Case] = [
     Case(
         id="export-onto-the-store-itself",
         argv=("export", "{ws}/s.zarr", "{ws}/s.zarr"),
+        expect=("{ws}/s.zarr", "already exists", "--replace"),
+        setup=(copy_store(),),
+        store="s.zarr",
+    ),
+    Case(
+        id="export-replacing-the-store-itself",
+        argv=("export", "{ws}/s.zarr", "{ws}/s.zarr", "--replace"),
         expect=("{ws}/s.zarr", "cannot write the HDF5 export"),
         setup=(copy_store(),),
         store="s.zarr",
