@@ -96,7 +96,13 @@ class LocalSlurm:
         deadline = time.monotonic() + timeout
         while True:
             info = self.job(job_id)
-            if info["JobState"] not in ("PENDING", "RUNNING", "CONFIGURING", "COMPLETING", "SUSPENDED"):
+            if info["JobState"] not in (
+                "PENDING",
+                "RUNNING",
+                "CONFIGURING",
+                "COMPLETING",
+                "SUSPENDED",
+            ):
                 return info
             if time.monotonic() > deadline:
                 raise TimeoutError(f"job {job_id} still {info['JobState']}")
@@ -196,7 +202,11 @@ def local_slurm(root: Path) -> Iterator[LocalSlurm]:
     subprocess.run(["mungekey", "--create", f"--keyfile={key}"], check=True)
     conf = root / "slurm.conf"
     conf.write_text(_config(root, node, cpus, munge_socket))
-    env = {k: v for k, v in os.environ.items() if not k.startswith(("SLURM_", "SBATCH_", "SRUN_"))}
+    env = {
+        k: v
+        for k, v in os.environ.items()
+        if not k.startswith(("SLURM_", "SBATCH_", "SRUN_"))
+    }
     env["SLURM_CONF"] = str(conf)
     daemons: list[subprocess.Popen[bytes]] = []
     cluster = LocalSlurm(root, node, cpus, env)
@@ -225,7 +235,10 @@ def local_slurm(root: Path) -> Iterator[LocalSlurm]:
             state = cluster.command("sinfo", "--noheader", "--format=%t", check=False)
             if state.strip() == "idle":
                 break
-            if any(d.poll() is not None for d in daemons) or time.monotonic() > deadline:
+            if (
+                any(d.poll() is not None for d in daemons)
+                or time.monotonic() > deadline
+            ):
                 raise RuntimeError(
                     f"Slurm did not come up (sinfo: {state.strip()!r}); see {root}/log"
                 )
@@ -235,7 +248,9 @@ def local_slurm(root: Path) -> Iterator[LocalSlurm]:
         # Jobs first (their processes belong to slurmstepd, not to us), then daemons.
         if daemons:
             with contextlib.suppress(Exception):
-                cluster.command("scancel", "--full", f"--user={os.getuid()}", check=False)
+                cluster.command(
+                    "scancel", "--full", f"--user={os.getuid()}", check=False
+                )
                 deadline = time.monotonic() + 30
                 while (
                     cluster.command("squeue", "--noheader", check=False).strip()

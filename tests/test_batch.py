@@ -147,7 +147,9 @@ def test_scancel_then_resubmit(
     retire = job_log(workdir, first).split("workers retire after ", 1)[1].split("s,")[0]
     assert 60 <= int(retire) <= 90, job_log(workdir, first)
 
-    second = submit(cluster, batch_spec, out, workdir, f"--cpus-per-task={cluster.cpus}")
+    second = submit(
+        cluster, batch_spec, out, workdir, f"--cpus-per-task={cluster.cpus}"
+    )
     info = cluster.wait(second, JOB_PATIENCE)
     assert info["JobState"] == "COMPLETED", job_log(workdir, second)
     assert_stores_identical(batch_reference, out)
@@ -169,7 +171,9 @@ def test_workers_retire_before_the_limit_then_resubmit(
     assert "retired before the time limit" in log, log
     assert_stopped_cleanly(out, 16)
 
-    second = submit(cluster, batch_spec, out, workdir, f"--cpus-per-task={cluster.cpus}")
+    second = submit(
+        cluster, batch_spec, out, workdir, f"--cpus-per-task={cluster.cpus}"
+    )
     info = cluster.wait(second, JOB_PATIENCE)
     assert info["JobState"] == "COMPLETED", job_log(workdir, second)
     assert_stores_identical(batch_reference, out)
@@ -215,7 +219,9 @@ def test_time_limit_then_resubmit(
     assert_stopped_cleanly(out, 16)
     assert not cluster.pids(first)
 
-    second = submit(cluster, batch_spec, out, workdir, f"--cpus-per-task={cluster.cpus}")
+    second = submit(
+        cluster, batch_spec, out, workdir, f"--cpus-per-task={cluster.cpus}"
+    )
     info = cluster.wait(second, JOB_PATIENCE)
     assert info["JobState"] == "COMPLETED", job_log(workdir, second)
     assert_stores_identical(batch_reference, out)

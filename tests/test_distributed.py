@@ -10,6 +10,7 @@ import contextlib
 import json
 import os
 import signal
+import socket
 import subprocess
 import sys
 import time
@@ -217,3 +218,116 @@ def test_slurm_job_script_runs_the_sweep(
         job.wait()
     assert job.returncode == 0, output
     assert_stores_identical(reference, out)
+
+
+def _family(pid: int) -> list[int]:
+    """A process and all its descendants (from /proc)."""
+    children: dict[int, list[int]] = {}
+    for stat in Path("/proc").glob("[0-9]*/stat"):
+        try:
+            fields = stat.read_text().rsplit(")", 1)[1].split()
+        except OSError:
+            continue
+        children.setdefault(int(fields[1]), []).append(int(stat.parent.name))
+    family, todo = [], [pid]
+    while todo:
+        p = todo.pop()
+        family.append(p)
+        todo.extend(children.get(p, []))
+    return family
+
+
+def _listening(pids: list[int]) -> list[tuple[str, int]]:
+    """(host, port) of every listening TCP socket of these processes (from /proc)."""
+    inodes = set()
+    for pid in pids:
+        for fd in Path(f"/proc/{pid}/fd").glob("*"):
+            with contextlib.suppress(OSError):
+                target = os.readlink(fd)
+                if target.startswith("socket:["):
+                    inodes.add(target[8:-1])
+    found = []
+    for table in ("tcp", "tcp6"):
+        for line in Path(f"/proc/net/{table}").read_text().splitlines()[1:]:
+            fields = line.split()
+            if fields[3] == "0A" and fields[9] in inodes:  # 0A: LISTEN
+                host, port = fields[1].split(":")
+                if table == "tcp":
+                    host = socket.inet_ntoa(bytes.fromhex(host)[::-1])
+                found.append((host, int(port, 16)))
+    return found
+
+
+def test_local_cluster_admits_nobody_else_and_is_quiet(
+    tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    """While `sweep run --processes 2` runs, another process on this machine can
+    neither connect to its scheduler, nannies or workers (plain or with TLS credentials
+    of its own) nor find an HTTP server; a worker killed mid-run leaves no tracebacks,
+    and `--quiet` prints nothing but the results."""
+    from distributed import Client
+    from distributed.security import Security
+
+    spec = tmp_path / "slow.toml"  # 16 tasks of 1-2 s on one core
+    spec.write_text(
+        SMALL_SPEC.replace("dt = 1e-3", "dt = 5e-6")
+        .replace("walkers = 3000", "walkers = 16000")
+        .replace("chunk = 500", "chunk = 2000")
+    )
+    out = tmp_path / "private.zarr"
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "sweep.cli", "run", str(spec), "--store", str(out),
+         "--processes", "2", "--quiet"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=cli_env,
+    )  # fmt: skip
+    try:
+        deadline = time.monotonic() + PATIENCE
+        while not (out / "_tasks").is_dir() or not any((out / "_tasks").iterdir()):
+            assert proc.poll() is None and time.monotonic() < deadline
+            time.sleep(0.1)
+        family = _family(proc.pid)
+        ports = _listening(family)
+        # Scheduler, two nannies, two workers: TLS, on the loopback, no HTTP.
+        assert len(ports) == 5, ports
+        assert {host for host, _ in ports} == {"127.0.0.1"}, ports
+        stranger = Security.temporary()
+        for _, port in ports:
+            for address, security in (
+                (f"tcp://127.0.0.1:{port}", None),
+                (f"tls://127.0.0.1:{port}", stranger),
+            ):
+                with pytest.raises((OSError, TimeoutError)):
+                    with Client(address, security=security, timeout="3s") as client:
+                        client.run(os.getpid)  # code in the workers: must not run
+            with socket.create_connection(("127.0.0.1", port), timeout=5) as s:
+                s.sendall(b"GET / HTTP/1.0\r\n\r\n")
+                s.settimeout(5)
+                with contextlib.suppress(OSError):
+                    assert not s.recv(16).startswith(b"HTTP/")
+        # A worker dies (its pid is a child of the driver running the worker code).
+        assert proc.poll() is None, "the run ended before the checks: make it longer"
+        workers = [p for p in family if b"spawn_main" in _cmdline(p)]
+        assert len(workers) == 2
+        os.kill(workers[0], signal.SIGKILL)
+        stdout, stderr = proc.communicate(timeout=PATIENCE)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+    assert proc.returncode == 0, stderr
+    assert "16/16 tasks done" in stdout
+    # Dask's warnings about the strangers' attempts and the restarted worker are all:
+    # no INFO chatter, no tracebacks (resource_tracker's included).
+    expected = ("TLS handshake failed", "Restarting worker")
+    lines = [line for line in stderr.splitlines() if line.strip()]
+    assert all(any(e in line for e in expected) for line in lines), stderr
+
+
+def _cmdline(pid: int) -> bytes:
+    try:
+        return Path(f"/proc/{pid}/cmdline").read_bytes()
+    except OSError:
+        return b""
