@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import os
 import signal
+import socket
 import subprocess
 import sys
 import time
@@ -234,9 +235,14 @@ def test_dask_jobqueue_cluster_runs_a_sweep(
     monkeypatch: pytest.MonkeyPatch,
 ) -> None:
     """The README's dask-jobqueue recipe: a SLURMCluster writes a scheduler file and
-    `sweep run --scheduler-file` uses it."""
+    `sweep run --scheduler-file` uses it. The scheduler listens on this machine's
+    network address without TLS, as on a login node, so the driver warns."""
     pytest.importorskip("dask_jobqueue")
     from dask_jobqueue import SLURMCluster
+
+    host = _network_address()
+    if host is None:
+        pytest.skip("this machine has no network address besides the loopback")
 
     for key, value in cluster.env.items():
         if key.startswith("SLURM_") or key == "PATH":
@@ -254,11 +260,10 @@ def test_dask_jobqueue_cluster_runs_a_sweep(
         log_directory=str(tmp_path / "logs"),
         local_directory=str(tmp_path),
         scheduler_options={
-            "host": "127.0.0.1",
+            "host": host,
             "dashboard_address": None,
             "scheduler_file": str(scheduler_file),
         },
-        worker_extra_args=["--host", "127.0.0.1"],
         job_script_prologue=[f"export PYTHONPATH={os.environ.get('PYTHONPATH', '')}"],
     ) as jobs:
         jobs.scale(jobs=1)
@@ -271,3 +276,16 @@ def test_dask_jobqueue_cluster_runs_a_sweep(
         )  # fmt: skip
     assert result.returncode == 0, result.stderr
     assert_stores_identical(reference, out)
+    assert f"scheduler tcp://{host}:" in result.stderr
+    assert "is not encrypted and not on this machine" in result.stderr
+
+
+def _network_address() -> str | None:
+    """This machine's address on its default route (no packet is sent), or None."""
+    with socket.socket(socket.AF_INET, socket.SOCK_DGRAM) as s:
+        try:
+            s.connect(("192.0.2.1", 9))  # TEST-NET-1 (RFC 5737): never answered
+        except OSError:
+            return None
+        host = s.getsockname()[0]
+    return None if host.startswith("127.") else host

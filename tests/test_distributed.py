@@ -138,6 +138,25 @@ def test_scheduler_file_and_address_match_threads(
     )  # fmt: skip
     assert result.returncode == 0, result.stderr
     assert_stores_identical(reference, by_address)
+    assert "not encrypted" not in result.stderr  # on the loopback: no warning
+
+
+@pytest.mark.parametrize(
+    ("address", "private"),
+    [
+        ("tls://10.0.0.5:8786", True),  # TLS authenticates both ends
+        ("tcp://127.0.0.1:8786", True),
+        ("tcp://[::1]:8786", True),
+        ("tcp://localhost:8786", True),
+        ("tcp://10.0.0.5:8786", False),
+        ("tcp://0.0.0.0:8786", False),
+        ("10.0.0.5:8786", False),  # Dask's default scheme is tcp
+    ],
+)
+def test_scheduler_addresses_open_to_others(address: str, private: bool) -> None:
+    from sweep.execute import _private_address
+
+    assert _private_address(address) is private
 
 
 def test_worker_killed_mid_task_loses_nothing(
