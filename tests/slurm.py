@@ -29,9 +29,20 @@ PROGRAMS = ("slurmctld", "slurmd", "sbatch", "squeue", "scontrol", "scancel", "s
 MUNGE = ("munged", "mungekey")
 
 
+#: Where to look for them: daemons live in /usr/sbin, which a user's PATH may lack.
+SEARCH_PATH = os.pathsep.join([os.environ.get("PATH", ""), "/usr/sbin", "/sbin"])
+
+
+def _which(program: str) -> str:
+    found = shutil.which(program, path=SEARCH_PATH)
+    if found is None:
+        raise FileNotFoundError(program)
+    return found
+
+
 def missing() -> str | None:
     """Why a local Slurm cannot be started here, or None when it can."""
-    absent = [p for p in PROGRAMS + MUNGE if shutil.which(p) is None]
+    absent = [p for p in PROGRAMS + MUNGE if shutil.which(p, path=SEARCH_PATH) is None]
     if absent:
         return (
             f"Slurm is not installed ({', '.join(absent)} missing); "
@@ -60,7 +71,11 @@ class LocalSlurm:
     def command(self, *args: str, check: bool = True) -> str:
         """Run a Slurm client command against this cluster; returns its stdout."""
         result = subprocess.run(
-            args, env=self.env, capture_output=True, text=True, timeout=60
+            [_which(args[0]), *args[1:]],
+            env=self.env,
+            capture_output=True,
+            text=True,
+            timeout=60,
         )
         if check and result.returncode != 0:
             raise RuntimeError(f"{' '.join(args)}: {result.stderr.strip()}")
@@ -71,7 +86,7 @@ class LocalSlurm:
     ) -> str:
         """Submit a job; returns its id."""
         result = subprocess.run(
-            ["sbatch", "--parsable", *args],
+            [_which("sbatch"), "--parsable", *args],
             env={**(env or self.env), "SLURM_CONF": self.env["SLURM_CONF"]},
             capture_output=True,
             text=True,
@@ -164,7 +179,9 @@ InactiveLimit=0
 # Ended jobs stay visible to scontrol this long (seconds), for their final state.
 MinJobAge=600
 NodeName={node} NodeAddr=127.0.0.1 CPUs={cpus} RealMemory={memory} State=UNKNOWN
-PartitionName=test Nodes={node} Default=YES MaxTime=INFINITE State=UP
+# Cores may be shared by jobs: a test's job that idles into its time limit (its
+# workers stopped) should not hold up the others.
+PartitionName=test Nodes={node} Default=YES MaxTime=INFINITE State=UP OverSubscribe=FORCE:4
 """
 
 
@@ -199,7 +216,7 @@ def local_slurm(root: Path) -> Iterator[LocalSlurm]:
     socket_dir = Path(tempfile.mkdtemp(prefix="sweep-munge-"))
     socket_dir.chmod(0o711)
     munge_socket = socket_dir / "socket"
-    subprocess.run(["mungekey", "--create", f"--keyfile={key}"], check=True)
+    subprocess.run([_which("mungekey"), "--create", f"--keyfile={key}"], check=True)
     conf = root / "slurm.conf"
     conf.write_text(_config(root, node, cpus, munge_socket))
     env = {
@@ -208,12 +225,13 @@ def local_slurm(root: Path) -> Iterator[LocalSlurm]:
         if not k.startswith(("SLURM_", "SBATCH_", "SRUN_"))
     }
     env["SLURM_CONF"] = str(conf)
+    env["PATH"] = SEARCH_PATH
     daemons: list[subprocess.Popen[bytes]] = []
     cluster = LocalSlurm(root, node, cpus, env)
     try:
         daemons.append(
             _start(
-                ["munged", "--foreground", f"--key-file={key}",
+                [_which("munged"), "--foreground", f"--key-file={key}",
                  f"--socket={munge_socket}", f"--pid-file={root}/munge/munged.pid",
                  f"--seed-file={root}/munge/munged.seed",
                  f"--log-file={root}/log/munged.log"],
@@ -226,10 +244,15 @@ def local_slurm(root: Path) -> Iterator[LocalSlurm]:
                 raise RuntimeError(f"munged did not start; see {root}/log")
             time.sleep(0.05)
         daemons.append(
-            _start(["slurmctld", "-D", "-f", str(conf)], root / "log" / "slurmctld.out")
+            _start(
+                [_which("slurmctld"), "-D", "-f", str(conf)],
+                root / "log" / "slurmctld.out",
+            )
         )
         daemons.append(
-            _start(["slurmd", "-D", "-f", str(conf)], root / "log" / "slurmd.out")
+            _start(
+                [_which("slurmd"), "-D", "-f", str(conf)], root / "log" / "slurmd.out"
+            )
         )
         while True:
             state = cluster.command("sinfo", "--noheader", "--format=%t", check=False)

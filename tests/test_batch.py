@@ -16,6 +16,7 @@ import subprocess
 import sys
 import time
 from collections.abc import Iterator
+from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
@@ -67,6 +68,42 @@ def batch_reference(batch_spec: Path) -> Path:
     out = batch_spec.parent / "threads.zarr"
     assert run(batch_spec, out, RunOptions(threads=2, progress=False)).complete
     return out
+
+
+@dataclass
+class TimedOutJob:
+    job: str
+    out: Path
+    workdir: Path
+
+
+@pytest.fixture(scope="module", autouse=True)
+def time_limited_job(
+    cluster: slurm.LocalSlurm,
+    batch_spec: Path,
+    tmp_path_factory: pytest.TempPathFactory,
+) -> TimedOutJob:
+    """A job that Slurm's own time limit will end mid-task, submitted before the other
+    tests so that its minute passes while they run (test_time_limit_then_resubmit).
+
+    Slurm's shortest limit is one minute, checked every 30 s. Rather than compute for
+    that long, the job's workers are frozen (SIGSTOP) once some tasks are stored: their
+    tasks in flight stand still, as long tasks would, while the job runs into its
+    limit. Slurm then sends SIGCONT and SIGTERM to every process of the job, and
+    SIGKILL after KillWait.
+    """
+    root = tmp_path_factory.mktemp("time-limit")
+    out, workdir = root / "slurm.zarr", root / "job"
+    job = submit(
+        cluster, batch_spec, out, workdir, "--cpus-per-task=1", "--time=1",
+        env={"SWEEP_WORKER_LIFETIME": "10m"},  # beyond the limit: no retirement
+    )  # fmt: skip
+    wait_for_markers(out, 2, job, cluster)
+    frozen = _worker_processes(cluster, job)
+    assert frozen
+    for pid in frozen:
+        os.kill(pid, signal.SIGSTOP)
+    return TimedOutJob(job, out, workdir)
 
 
 def submit(
@@ -193,41 +230,6 @@ def _worker_processes(cluster: slurm.LocalSlurm, job_id: str) -> list[int]:
     return found
 
 
-def test_time_limit_then_resubmit(
-    cluster: slurm.LocalSlurm, batch_spec: Path, batch_reference: Path, tmp_path: Path
-) -> None:
-    """Slurm's own time limit ends the job mid-task; the next job finishes the sweep.
-
-    Slurm's shortest limit is one minute. Rather than compute for that long, the test
-    freezes the job's workers (SIGSTOP) once some tasks are stored: their tasks in
-    flight stand still, as long tasks would, while the job runs into its limit. Slurm
-    then sends SIGCONT and SIGTERM to every process of the job, and SIGKILL after
-    KillWait.
-    """
-    out, workdir = tmp_path / "slurm.zarr", tmp_path / "job"
-    first = submit(
-        cluster, batch_spec, out, workdir, "--cpus-per-task=1", "--time=1",
-        env={"SWEEP_WORKER_LIFETIME": "10m"},  # beyond the limit: no retirement
-    )  # fmt: skip
-    wait_for_markers(out, 2, first, cluster)
-    frozen = _worker_processes(cluster, first)
-    assert frozen
-    for pid in frozen:
-        os.kill(pid, signal.SIGSTOP)
-    info = cluster.wait(first, JOB_PATIENCE)
-    log = job_log(workdir, first)
-    assert info["JobState"] == "TIMEOUT", log
-    assert_stopped_cleanly(out, 16)
-    assert not cluster.pids(first)
-
-    second = submit(
-        cluster, batch_spec, out, workdir, f"--cpus-per-task={cluster.cpus}"
-    )
-    info = cluster.wait(second, JOB_PATIENCE)
-    assert info["JobState"] == "COMPLETED", job_log(workdir, second)
-    assert_stores_identical(batch_reference, out)
-
-
 def test_dask_jobqueue_cluster_runs_a_sweep(
     cluster: slurm.LocalSlurm,
     small_spec: Path,
@@ -289,3 +291,28 @@ def _network_address() -> str | None:
             return None
         host = s.getsockname()[0]
     return None if host.startswith("127.") else host
+
+
+def test_time_limit_then_resubmit(
+    cluster: slurm.LocalSlurm,
+    batch_spec: Path,
+    batch_reference: Path,
+    time_limited_job: TimedOutJob,
+) -> None:
+    """Slurm's time limit ended the job mid-task (see time_limited_job); the next job
+    finishes the sweep. Last in this file: the limit passes during the other tests."""
+    first, out, workdir = (
+        time_limited_job.job, time_limited_job.out, time_limited_job.workdir,
+    )  # fmt: skip
+    info = cluster.wait(first, JOB_PATIENCE)
+    log = job_log(workdir, first)
+    assert info["JobState"] == "TIMEOUT", log
+    assert_stopped_cleanly(out, 16)
+    assert not cluster.pids(first)
+
+    second = submit(
+        cluster, batch_spec, out, workdir, f"--cpus-per-task={cluster.cpus}"
+    )
+    info = cluster.wait(second, JOB_PATIENCE)
+    assert info["JobState"] == "COMPLETED", job_log(workdir, second)
+    assert_stores_identical(batch_reference, out)
