@@ -649,8 +649,16 @@ def _run_distributed(
             progress.close()
     finally:
         with _hushed(summary.interrupted):
+            if cluster is not None and summary.interrupted:
+                # Workers stopped mid-task report the tasks they drop: expected here.
+                with contextlib.suppress(Exception):
+                    client.run(_hush_logging)
             client.close()
             if cluster is not None:
+                if summary.interrupted:
+                    # Workers first, while the scheduler is up: a worker still in
+                    # a task would otherwise log tracebacks about a lost scheduler.
+                    cluster.sync(_close_workers, cluster)
                 cluster.close()
 
 
@@ -707,6 +715,16 @@ def _local_cluster(n_workers: int) -> Any:
         )
     cluster.sync(_stop_http_server, cluster.scheduler)
     return cluster
+
+
+def _hush_logging() -> None:
+    logging.getLogger("distributed").setLevel(logging.CRITICAL)
+
+
+async def _close_workers(cluster: Any) -> None:
+    import asyncio
+
+    await asyncio.gather(*(w.close(timeout=2) for w in cluster.workers.values()))
 
 
 async def _stop_http_server(server: Any) -> None:

@@ -287,12 +287,7 @@ def test_local_cluster_admits_nobody_else_and_is_quiet(
     from distributed import Client
     from distributed.security import Security
 
-    spec = tmp_path / "slow.toml"  # 16 tasks of 1-2 s on one core
-    spec.write_text(
-        SMALL_SPEC.replace("dt = 1e-3", "dt = 5e-6")
-        .replace("walkers = 3000", "walkers = 16000")
-        .replace("chunk = 500", "chunk = 2000")
-    )
+    spec = _longer_spec(tmp_path)
     out = tmp_path / "private.zarr"
     proc = subprocess.Popen(
         [sys.executable, "-m", "sweep.cli", "run", str(spec), "--store", str(out),
@@ -350,3 +345,60 @@ def _cmdline(pid: int) -> bytes:
         return Path(f"/proc/{pid}/cmdline").read_bytes()
     except OSError:
         return b""
+
+
+def _longer_spec(tmp_path: Path) -> Path:
+    """The small sweep as 16 tasks of 1-2 s on one core."""
+    spec = tmp_path / "longer.toml"
+    spec.write_text(
+        SMALL_SPEC.replace("dt = 1e-3", "dt = 5e-6")
+        .replace("walkers = 3000", "walkers = 16000")
+        .replace("chunk = 500", "chunk = 2000")
+    )
+    return spec
+
+
+def test_sigterm_stops_a_process_cluster_cleanly(
+    tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    """SIGTERM (how batch systems end a job) stops `sweep run --processes` like Ctrl-C:
+    exit 130, finished tasks kept, the lock released, no worker left, no tracebacks."""
+    spec, out = _longer_spec(tmp_path), tmp_path / "terminated.zarr"
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "sweep.cli", "run", str(spec), "--store", str(out),
+         "--processes", "2", "--quiet"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=cli_env,
+    )  # fmt: skip
+    try:
+        deadline = time.monotonic() + PATIENCE
+        while not (out / "_tasks").is_dir() or not any((out / "_tasks").iterdir()):
+            assert proc.poll() is None and time.monotonic() < deadline
+            time.sleep(0.1)
+        family = _family(proc.pid)
+        proc.send_signal(signal.SIGTERM)
+        stdout, stderr = proc.communicate(timeout=PATIENCE)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+    assert proc.returncode == 130, stderr
+    assert "Rerun to resume" in stdout
+    assert [line for line in stderr.splitlines() if line.strip()] == [
+        "interrupted: finished tasks are kept; rerun the same command to resume."
+    ], stderr
+    assert 0 < len(store.done_tasks(out)) < 16
+    assert not (out / store.LOCK_FILE).exists()
+    time.sleep(1.0)  # the resource tracker leaves just after its parent
+    assert not [p for p in family if _alive(p)]
+
+
+def _alive(pid: int) -> bool:
+    """Running (a zombie is dead, waiting for its parent or init to reap it)."""
+    try:
+        state = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0]
+    except OSError:
+        return False
+    return state != "Z"
