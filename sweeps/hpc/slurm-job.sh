@@ -114,7 +114,8 @@ DRIVER_PID=
 # Slurm ends a job (time limit, scancel) with SIGTERM to all its processes, then
 # SIGKILL. The driver stops on its own SIGTERM (releasing the store's lock); this shell
 # waits for it instead of dying first.
-trap 'echo "slurm-job.sh: SIGTERM: stopping" >&2' TERM
+ENDING=
+trap 'ENDING=1; echo "slurm-job.sh: SIGTERM (time limit or scancel): stopping" >&2' TERM
 trap 'kill $DRIVER_PID $WORKERS_PID $SCHEDULER_PID 2>/dev/null || true' EXIT
 
 for _ in $(seq 120); do [ -s "$SCHEDULER_FILE" ] && break; sleep 1; done
@@ -139,7 +140,7 @@ echo "slurm-job.sh: job $SLURM_JOB_ID, workers retire after ${LIFETIME:-no limit
 while kill -0 "$DRIVER_PID" 2>/dev/null && kill -0 "$WORKERS_PID" 2>/dev/null; do
     sleep 2
 done
-if kill -0 "$DRIVER_PID" 2>/dev/null; then
+if [ -z "$ENDING" ] && kill -0 "$DRIVER_PID" 2>/dev/null; then
     echo "slurm-job.sh: the workers have stopped (retired before the time limit);" \
         "stopping the driver" >&2
     kill -TERM "$DRIVER_PID" 2>/dev/null || true
