@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import logging
 import os
+import signal
 import sys
 import warnings
 from collections.abc import Sequence
@@ -264,6 +265,22 @@ def _compare(args: argparse.Namespace) -> int:
     return 1 if result.flagged else 0
 
 
+def _stop_on_sigterm() -> None:
+    """Take SIGTERM like Ctrl-C: finished tasks are kept and the store's lock released.
+
+    Batch systems end a job (time limit, ``scancel``) with SIGTERM and, some seconds
+    later, SIGKILL. Left to Python's default, SIGTERM kills the driver at once and its
+    lock stays behind; a resubmitted job on another node could not take it. Later
+    SIGTERMs are ignored so that the stop in progress is not cut short.
+    """
+
+    def stop(signum: int, frame: object) -> None:
+        signal.signal(signal.SIGTERM, signal.SIG_IGN)
+        raise KeyboardInterrupt
+
+    signal.signal(signal.SIGTERM, stop)
+
+
 def _run(args: argparse.Namespace) -> int:
     from sweep.spec import load_spec
 
@@ -296,6 +313,7 @@ def _run(args: argparse.Namespace) -> int:
     print(units_note(sweep))
     _warn_plan(sweep)
     sys.stdout.flush()
+    _stop_on_sigterm()
     summary = run(sweep, store_path, options)
     if summary.interrupted:
         print(

@@ -13,6 +13,8 @@ from __future__ import annotations
 import contextlib
 import dataclasses
 import errno
+import ipaddress
+import json
 import logging
 import math
 import os
@@ -20,7 +22,7 @@ import socket
 import sys
 import threading
 import time
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -710,6 +712,7 @@ def connect(options: RunOptions) -> Any:
     from distributed import Client
 
     where = options.scheduler_file or options.scheduler
+    _warn_if_open(options)
     timeout = connect_timeout()
     sys.stderr.write(f"connecting to the Dask scheduler {where} …\n")
     sys.stderr.flush()
@@ -725,6 +728,25 @@ def connect(options: RunOptions) -> Any:
         ) from None
 
 
+@contextlib.contextmanager
+def _quiet_dask() -> Iterator[None]:
+    """Dask's own messages at WARNING and above during a run, unless the user set a
+    level (``DASK_LOGGING__DISTRIBUTED=info``, Dask's configuration variable)."""
+    import distributed  # noqa: F401  (its import sets its loggers' levels: first)
+
+    if "DASK_LOGGING__DISTRIBUTED" in os.environ:
+        yield
+        return
+    logger = logging.getLogger("distributed")
+    before = logger.level
+    logger.setLevel(max(before, logging.WARNING))
+    try:
+        yield
+    finally:
+        logger.setLevel(before)
+
+
+@_quiet_dask()
 def _run_distributed(
     path: Path,
     store_id: str,
@@ -733,22 +755,14 @@ def _run_distributed(
     summary: RunSummary,
     client: Any = None,
 ) -> None:
-    import dask
-    from distributed import Client, LocalCluster, as_completed
+    from distributed import Client, as_completed
 
     stop = threading.Event()
     cluster = None
     if options.processes is not None:
-        # Tasks that kill their worker are retried a few times, then reported.
-        with dask.config.set({"distributed.scheduler.allowed-failures": 3}):
-            cluster = LocalCluster(
-                n_workers=options.processes,
-                threads_per_worker=1,
-                processes=True,
-                dashboard_address=None,
-                host="127.0.0.1",
-            )
-        client = Client(cluster)
+        cluster = _local_cluster(options.processes)
+        client = Client(cluster)  # with the cluster's credentials
+        client.register_plugin(_no_http_server(), name="sweep-no-http-server")
     own_client = cluster is not None
     try:
         n_threads = max(1, sum(client.nthreads().values()))
@@ -800,10 +814,145 @@ def _run_distributed(
                     client.cancel(outstanding, force=True)
             progress.close()
     finally:
-        if own_client:  # a cluster's client is closed by `run`, which opened it
-            client.close()
-        if cluster is not None:
-            cluster.close()
+        with _hushed(summary.interrupted):
+            if cluster is not None and summary.interrupted:
+                # Workers stopped mid-task report the tasks they drop: expected here.
+                with contextlib.suppress(Exception):
+                    client.run(_hush_logging)
+            if own_client:  # a cluster's client is closed by `run`, which opened it
+                client.close()
+            if cluster is not None:
+                if summary.interrupted:
+                    # Workers first, while the scheduler is up: a worker still in
+                    # a task would otherwise log tracebacks about a lost scheduler.
+                    cluster.sync(_close_workers, cluster)
+                cluster.close()
+
+
+@contextlib.contextmanager
+def _hushed(stopping: bool) -> Iterator[None]:
+    """When a run stops mid-task, closing cuts connections in use and Dask logs
+    tracebacks about them that tell the user nothing: keep only critical messages."""
+    if not stopping:
+        yield
+        return
+    loggers = [logging.getLogger(n) for n in ("distributed", "tornado", "asyncio")]
+    before = [logger.level for logger in loggers]
+    for logger in loggers:
+        logger.setLevel(logging.CRITICAL)
+    try:
+        yield
+    finally:
+        for logger, level in zip(loggers, before):
+            logger.setLevel(level)
+
+
+def _local_cluster(n_workers: int) -> Any:
+    """A ``LocalCluster`` that only this process can use.
+
+    Without credentials, anyone on the machine who finds the scheduler's port (it is in
+    Dask's log) could connect and run code in the workers as the user of the run. So:
+    TLS with a certificate made for this run alone (kept in memory, handed to the
+    worker processes by their nannies), every socket on 127.0.0.1, and no HTTP server.
+    Dask opens one on the scheduler (port 8787) and on each worker even without a
+    dashboard: it serves no routes here and is closed once the cluster is up.
+    """
+    import dask
+    from distributed import LocalCluster
+    from distributed.security import Security
+
+    # Tasks that kill their worker are retried a few times, then reported.
+    with dask.config.set(
+        {
+            "distributed.scheduler.allowed-failures": 3,
+            "distributed.scheduler.http.routes": [],
+            "distributed.worker.http.routes": [],
+        }
+    ):
+        cluster = LocalCluster(
+            n_workers=n_workers,
+            threads_per_worker=1,
+            processes=True,
+            host="127.0.0.1",
+            protocol="tls://",
+            security=Security.temporary(),
+            dashboard_address="127.0.0.1:0",  # None would mean port 8787
+            scheduler_kwargs={"dashboard": False},
+            silence_logs=logging.WARNING,
+        )
+    cluster.sync(_stop_http_server, cluster.scheduler)
+    return cluster
+
+
+def _hush_logging() -> None:
+    logging.getLogger("distributed").setLevel(logging.CRITICAL)
+
+
+async def _close_workers(cluster: Any) -> None:
+    import asyncio
+
+    await asyncio.gather(*(w.close(timeout=2) for w in cluster.workers.values()))
+
+
+async def _stop_http_server(server: Any) -> None:
+    server.http_server.stop()
+
+
+def _no_http_server() -> Any:
+    """A worker plugin closing each worker's HTTP port as it joins (a worker restarted
+    after a crash opens a new one). Made here: distributed is imported only when used."""
+    from distributed.diagnostics.plugin import WorkerPlugin
+
+    class NoHttpServer(WorkerPlugin):
+        async def setup(self, worker: Any) -> None:
+            worker.http_server.stop()
+
+    return NoHttpServer()
+
+
+def _warn_if_open(options: RunOptions) -> None:
+    """Warn when an existing cluster's scheduler is open to others (plain TCP, not on
+    this machine)."""
+    where = options.scheduler_file or options.scheduler
+    address = options.scheduler
+    if options.scheduler_file is not None:
+        try:
+            address = json.loads(Path(options.scheduler_file).read_text())["address"]
+        except (OSError, ValueError, KeyError, TypeError):
+            address = None  # the connection says what is wrong
+    if address is not None and not _private_address(address):
+        log.warning(
+            "the Dask scheduler %s (from %s) is not encrypted and not on this "
+            "machine: anyone who can reach it can run code in its workers as you. "
+            'Start it with TLS (README, "Clusters and batch systems"; '
+            "sweeps/hpc/slurm-job.sh does).",
+            address,
+            where,
+        )
+
+
+def _private_address(address: str) -> bool:
+    """True for a ``tls://`` address (it authenticates) or one on the loopback."""
+    from distributed.comm.addressing import get_address_host, parse_address
+
+    try:
+        scheme, _ = parse_address(address)
+        if scheme in ("tls", "inproc"):
+            return True
+        host = get_address_host(address)
+    except (ValueError, TypeError):
+        return False
+    try:
+        return ipaddress.ip_address(host.strip("[]")).is_loopback
+    except ValueError:
+        pass
+    try:
+        infos = socket.getaddrinfo(host, None)
+    except OSError:
+        return False
+    return bool(infos) and all(
+        ipaddress.ip_address(info[4][0]).is_loopback for info in infos
+    )
 
 
 def _take(queue: Iterable[Task], n: int) -> list[Task]:
