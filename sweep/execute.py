@@ -152,7 +152,7 @@ def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
             task, out_time, out_wall, out_position, out_survival, out_fpt
         )
     steps = simulate(
-        task.generator(),
+        task.stream_state(),
         n,
         a.start,
         a.uniform_start,
