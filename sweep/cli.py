@@ -476,8 +476,8 @@ def _bench(args: argparse.Namespace) -> int:
     )
 
     print(
-        f"rates on one core, the fastest run (other jobs only slow a run down) of "
-        f"{args.repeats} repetitions;"
+        f"rates on one core in the measuring thread's CPU time, the fastest run (other "
+        f"jobs only slow a run down) of {args.repeats} repetitions;"
     )
     print(
         f"each repetition runs kernel, limit and ceiling in turn {PAIRS} times, then "
