@@ -1,9 +1,11 @@
 """The walker kernel: Brownian walkers in a box or ball, with absorbing targets.
 
-Pure computation: numba ``njit(nogil=True)``, a numpy ``Generator`` passed in (one per
-task, never shared between threads), preallocated outputs, no I/O, no validation. The
-kernel and every helper it calls live in this one file because numba's on-disk cache does
-not notice edits to helpers in other files.
+Pure computation: numba ``njit(nogil=True)``, the task's random stream passed in (SFC64's
+state, kept in local variables by :mod:`kernels.rng`; one per task, never shared between
+threads), preallocated outputs, no I/O, no validation. The kernel and every helper it
+calls except the generator live in this one file because numba's on-disk cache does not
+notice edits to helpers in other files (after editing ``kernels/rng.py``, delete
+``kernels/__pycache__``).
 
 Each axis moves as ``dX = drift dt + sqrt(2 D) dW``; a step draws one standard normal
 per axis. Walls:
@@ -27,8 +29,9 @@ import numpy as np
 from numba import njit
 
 # numpy's ziggurat tables and the raw bit-generator calls, as numba ships them for its
-# own Generator support (tests/kernels/test_walkers.py checks that _normal reproduces
-# numpy's standard_normal stream bit for bit, so a change here is caught).
+# own Generator support: the former normal sampler, on a Generator's bit generator, for
+# `sweep bench`'s former ceiling (tests/kernels/test_walkers.py checks that _normal
+# reproduces numpy's standard_normal stream bit for bit).
 from numba.np.random._constants import (
     fi_double,
     ki_double,
