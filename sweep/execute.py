@@ -25,7 +25,6 @@ from typing import Any
 import numpy as np
 
 from kernels import spheres
-from kernels.rng import initial_state
 from kernels.walkers import simulate
 from sweep import store
 from sweep.errors import StoreError, SweepError, TaskError
@@ -230,7 +229,7 @@ def simulate_spheres_moves(
     a = task.args
     moves = np.zeros(2, dtype=np.int64)
     spheres.simulate(
-        initial_state(np.random.SeedSequence(task.entropy)),
+        task.stream_state(),
         task.n_walkers,
         a.start,
         a.uniform_start,

@@ -99,7 +99,9 @@ def test_bench_measures_every_case_and_target() -> None:
 
 
 def test_end_to_end_keeps_a_share_of_the_bench_rate() -> None:
-    e = EndToEnd("interval 1-D", "bridge", run_rate=150e6, bench_rate=200e6, wall_rate=1e8)
+    e = EndToEnd(
+        "interval 1-D", "bridge", run_rate=150e6, bench_rate=200e6, wall_rate=1e8
+    )
     assert e.kept == 0.75 and e.kept_wall == 0.5
     rows = [_row("interval 1-D", o) for o in ("bridge", "endpoint")]
     (*_, (name, kept, wanted, met)) = verdicts(

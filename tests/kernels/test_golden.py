@@ -46,8 +46,8 @@ fpt_bins = 30
 
 #: Short runs through each compiled loop and every kind of draw: step normals,
 #: bridge uniforms and hitting times (inverse Gaussian, Levy), exit points, uniform
-#: starts; box (1-D, 3-D), box with targets, ball with a target, and 4-D (the array
-#: loop).
+#: starts; box (1-D, 3-D), box with targets, ball with a target, 4-D (the array loop),
+#: and the spheres scheme (kernels/spheres.py: jumps and layer steps).
 RUNS: dict[str, str] = {
     "interval-drift-bridge": _HEAD.format(seed=1, monitoring="")
     + """
@@ -98,6 +98,27 @@ lower = [0.0, 0.0, 0.0, 0.0]
 upper = [1.0, 1.0, 1.0, 1.0]
 walls = { x_lower = "absorbing", x_upper = "reflecting", y_lower = "reflecting", y_upper = "reflecting", z_lower = "absorbing", z_upper = "absorbing", x3_lower = "reflecting", x3_upper = "reflecting" }
 """,
+    "spheres-cube-target": """
+[sweep]
+seed = 5
+walkers = 300
+[time]
+dt = 0.001
+horizon = 3.0
+scheme = "spheres"
+[record]
+survival = { stop = 3.0, points = 7 }
+fpt_bins = 30
+[motion]
+dimension = 3
+diffusivity = 1.0
+start = "uniform"
+[domain]
+lower = [-1.0, -1.0, -1.0]
+upper = [1.0, 1.0, 1.0]
+walls = { x_lower = "reflecting", x_upper = "reflecting", y_lower = "reflecting", y_upper = "reflecting", z_lower = "absorbing", z_upper = "reflecting" }
+targets = [{ center = [0.0, 0.0, 0.0], radius = 0.2 }]
+""",
 }
 
 #: sha256 of each run's outputs (first task), in the order of :func:`digest`.
@@ -114,6 +135,9 @@ GOLDEN: dict[str, str] = {
     "box-4d-endpoint": (
         "c731b89f84a5c641bc861bcedbabd624ab00a90a8dbdf3c94f37ccf66bdc5190"
     ),
+    "spheres-cube-target": (
+        "c5842c71784e92dc0a708234dd65ab1b141ed77e66866680fd23bbd2b7ad886b"
+    ),
 }
 
 
@@ -127,7 +151,7 @@ def digest(name: str) -> tuple[str, str]:
         output.wall,
         output.position,
         output.survival,
-        output.occupancy,
+        output.occupancy if output.occupancy is not None else np.zeros(0),
         output.fpt_histogram,
         np.array([steps], dtype=np.int64),
     ):
