@@ -1,9 +1,11 @@
 """The walker kernel: Brownian walkers in a box or ball, with absorbing targets.
 
-Pure computation: numba ``njit(nogil=True)``, a numpy ``Generator`` passed in (one per
-task, never shared between threads), preallocated outputs, no I/O, no validation. The
-kernel and every helper it calls live in this one file because numba's on-disk cache does
-not notice edits to helpers in other files.
+Pure computation: numba ``njit(nogil=True)``, the task's random stream passed in (SFC64's
+state, kept in local variables by :mod:`kernels.rng`; one per task, never shared between
+threads), preallocated outputs, no I/O, no validation. The kernel and every helper it
+calls except the generator live in this one file because numba's on-disk cache does not
+notice edits to helpers in other files (after editing ``kernels/rng.py``, delete
+``kernels/__pycache__``).
 
 Each axis moves as ``dX = drift dt + sqrt(2 D) dW``; a step draws one standard normal
 per axis. Walls:
@@ -27,8 +29,9 @@ import numpy as np
 from numba import njit
 
 # numpy's ziggurat tables and the raw bit-generator calls, as numba ships them for its
-# own Generator support (tests/kernels/test_walkers.py checks that _normal reproduces
-# numpy's standard_normal stream bit for bit, so a change here is caught).
+# own Generator support: the former normal sampler, on a Generator's bit generator, for
+# `sweep bench`'s former ceiling (tests/kernels/test_walkers.py checks that _normal
+# reproduces numpy's standard_normal stream bit for bit).
 from numba.np.random._constants import (
     fi_double,
     ki_double,
@@ -37,6 +40,8 @@ from numba.np.random._constants import (
     ziggurat_nor_r,
 )
 from numba.np.random.generator_core import next_double, next_uint64
+
+from kernels import rng
 
 
 @njit(nogil=True, cache=True)
@@ -91,24 +96,56 @@ def _normal_rare(bits, idx, r, rabs, x):  # type: ignore[no-untyped-def]
         x = float(np.int64(rabs)) * wi_double[idx]
 
 
-@njit(nogil=True, cache=True)
-def _wald(bits, mean, shape):  # type: ignore[no-untyped-def]
-    """Inverse-Gaussian variate, numpy's ``Generator.wald`` draw for draw."""
-    mu_2l = mean / (2.0 * shape)
-    y = _normal(bits)
-    y = mean * y * y
-    x = mean + mu_2l * (y - np.sqrt(4.0 * shape * y + y * y))
-    if next_double(bits) <= mean / (mean + x):
-        return x
-    return mean * mean / x
+# The kernel's random stream ``g``: the four SFC64 words of kernels/rng.py as one
+# tuple of int64 bit patterns, threaded through every helper that draws (each returns
+# it advanced). int64, not uint64: the tests' uncompiled loop (``_simulate.py_func``)
+# carries ``g`` through Python, whose integers numba would type as int64 or uint64 by
+# their value, one compilation per mix and wrong shifts for the int64 ones; with int64
+# throughout they keep one type. The casts cost nothing compiled (same bits).
 
 
 @njit(nogil=True, cache=True)
-def draw_normals(rng, n_steps, dimension):  # type: ignore[no-untyped-def]
+def _words(g):  # type: ignore[no-untyped-def]
+    """The stream ``g`` as kernels/rng.py's four uint64 words."""
+    return np.uint64(g[0]), np.uint64(g[1]), np.uint64(g[2]), np.uint64(g[3])
+
+
+@njit(nogil=True, cache=True)
+def _stream(a, b, c, w):  # type: ignore[no-untyped-def]
+    """Four uint64 words as the stream ``g``."""
+    return np.int64(a), np.int64(b), np.int64(c), np.int64(w)
+
+
+@njit(nogil=True, cache=True)
+def _gauss(g):  # type: ignore[no-untyped-def]
+    """A standard normal from the stream ``g``; returns ``(z, g)``, ``g`` advanced."""
+    a, b, c, w = _words(g)
+    z, a, b, c, w = rng.normal(a, b, c, w)
+    return z, _stream(a, b, c, w)
+
+
+@njit(nogil=True, cache=True)
+def _uniform(g):  # type: ignore[no-untyped-def]
+    """A double in [0, 1) from the stream ``g``; returns ``(u, g)``."""
+    a, b, c, w = _words(g)
+    u, a, b, c, w = rng.uniform(a, b, c, w)
+    return u, _stream(a, b, c, w)
+
+
+@njit(nogil=True, cache=True)
+def _wald(g, mean, shape):  # type: ignore[no-untyped-def]
+    """An inverse-Gaussian variate from the stream ``g``; returns ``(x, g)``."""
+    a, b, c, w = _words(g)
+    x, a, b, c, w = rng.wald(mean, shape, a, b, c, w)
+    return x, _stream(a, b, c, w)
+
+
+@njit(nogil=True, cache=True)
+def draw_normals(generator, n_steps, dimension):  # type: ignore[no-untyped-def]
     """Draw ``n_steps * dimension`` standard normals as a d-dimensional walk would (the
     kernels' speed limit, see :mod:`kernels.ceiling`); returns their sum so the
     compiler cannot drop the draws."""
-    bits = rng.bit_generator
+    bits = generator.bit_generator
     total = 0.0
     for _ in range(n_steps):
         for _ in range(dimension):
@@ -139,8 +176,9 @@ SURFACE_MARGIN = 1e-12
 
 
 @njit(nogil=True, cache=True)
-def _hit_fraction(bits, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
-    """Fraction of the step (0, 1] at which the path first touched the wall.
+def _hit_fraction(g, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+    """Fraction of the step (0, 1] at which the path first touched the wall, and the
+    stream ``g`` after the draws.
 
     ``alpha`` > 0 is the start's distance to the wall, ``gamma`` >= 0 the end's distance
     (either side). Given a crossing, the hitting time is tau = h U / (h + U) with
@@ -148,20 +186,20 @@ def _hit_fraction(bits, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[
     distributed when gamma = 0. Without the bridge the step end is used.
     """
     if not bridge:
-        return 1.0
+        return 1.0, g
     if alpha <= 0.0:
-        return 0.0
+        return 0.0, g
     shape = alpha * alpha / (2.0 * diffusivity)
     if gamma > 0.0:
-        u = _wald(bits, dt * alpha / gamma, shape)
+        u, g = _wald(g, dt * alpha / gamma, shape)
     else:
-        z = _normal(bits)
+        z, g = _gauss(g)
         u = shape / (z * z) if z != 0.0 else math.inf
-    return u / (dt + u)
+    return u / (dt + u), g
 
 
 def simulate(  # type: ignore[no-untyped-def]
-    rng,
+    state,
     n_walkers,
     start,
     uniform_start,
@@ -197,8 +235,10 @@ def simulate(  # type: ignore[no-untyped-def]
 
     Parameters
     ----------
-    rng : numpy.random.Generator
-        This task's own generator; it is advanced.
+    state : uint64 (4,)
+        This task's random stream: SFC64's state (:func:`kernels.rng.initial_state`
+        of the task's SeedSequence), loaded into local variables once and
+        overwritten with the state after the last draw.
     n_walkers : int
     start : float64 (d,)
         Start point (ignored when ``uniform_start``).
@@ -261,7 +301,7 @@ def simulate(  # type: ignore[no-untyped-def]
     # A plain-Python dispatcher: an njit one would compile all twelve loops at its
     # first call.
     a = (
-        rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
+        state, n_walkers, start, uniform_start, lower, upper, absorbing_low,
         absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
         target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
         occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins, out_time,
@@ -292,7 +332,7 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
     numba.literally(shape)
     numba.literally(dim)
     (
-        rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
+        state, n_walkers, start, uniform_start, lower, upper, absorbing_low,
         absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
         target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
         occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins, out_time,
@@ -301,7 +341,10 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
     ) = a  # fmt: skip
     d = start.shape[0]
     n_targets = target_radius.shape[0]
-    bits = rng.bit_generator  # every draw below comes from it (_normal, next_double)
+    # The random stream, kept in local variables: every draw below takes it and
+    # returns it advanced (kernels/rng.py); int64 bit patterns (see _words).
+    words = state.view(np.int64)
+    g = (words[0], words[1], words[2], words[3])
     # Compile-time constants of each loop: its tests of the domain's kind fold away
     # (a box with a target ran 8-11 % faster than with them as run-time tests, median
     # of paired runs; DEVELOPERS.md, "Kernels").
@@ -379,7 +422,8 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
         if uniform_start:
             while True:
                 for i in range(d):
-                    x[i] = lower[i] + (upper[i] - lower[i]) * next_double(bits)
+                    u, g = _uniform(g)
+                    x[i] = lower[i] + (upper[i] - lower[i]) * u
                 if _free(
                     x, is_ball, ball_center, ball_radius, target_center, target_radius
                 ):
@@ -416,13 +460,16 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                 while step < limit:
                     step += 1
                     # 2. Free increment, mirrored at reflecting faces.
-                    y0 = x0 + s0 + sigma * _normal(bits)
+                    z, g = _gauss(g)
+                    y0 = x0 + s0 + sigma * z
                     y1 = x1
                     y2 = x2
                     if dim >= 2:
-                        y1 = x1 + s1 + sigma * _normal(bits)
+                        z, g = _gauss(g)
+                        y1 = x1 + s1 + sigma * z
                     if dim >= 3:
-                        y2 = x2 + s2 + sigma * _normal(bits)
+                        z, g = _gauss(g)
+                        y2 = x2 + s2 + sigma * z
                     if not is_ball:
                         if y0 < rl0 or y0 > rh0:
                             y0 = _fold(y0, rl0, rh0)
@@ -445,35 +492,35 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                             p = min(p, (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2))
                         if p <= cut:
                             if (x0 - al0) * (y0 - al0) <= cut:
-                                frac, hit_wall = _earliest(
-                                    bits, x0 - al0, y0 - al0, 0, frac, hit_wall, kill_scale,
+                                frac, hit_wall, g = _earliest(
+                                    g, x0 - al0, y0 - al0, 0, frac, hit_wall, kill_scale,
                                     diffusivity, dt, bridge,
                                 )  # fmt: skip
                             if (x0 - ah0) * (y0 - ah0) <= cut:
-                                frac, hit_wall = _earliest(
-                                    bits, ah0 - x0, ah0 - y0, 1, frac, hit_wall, kill_scale,
+                                frac, hit_wall, g = _earliest(
+                                    g, ah0 - x0, ah0 - y0, 1, frac, hit_wall, kill_scale,
                                     diffusivity, dt, bridge,
                                 )  # fmt: skip
                             if dim >= 2:
                                 if (x1 - al1) * (y1 - al1) <= cut:
-                                    frac, hit_wall = _earliest(
-                                        bits, x1 - al1, y1 - al1, 2, frac, hit_wall,
+                                    frac, hit_wall, g = _earliest(
+                                        g, x1 - al1, y1 - al1, 2, frac, hit_wall,
                                         kill_scale, diffusivity, dt, bridge,
                                     )  # fmt: skip
                                 if (x1 - ah1) * (y1 - ah1) <= cut:
-                                    frac, hit_wall = _earliest(
-                                        bits, ah1 - x1, ah1 - y1, 3, frac, hit_wall,
+                                    frac, hit_wall, g = _earliest(
+                                        g, ah1 - x1, ah1 - y1, 3, frac, hit_wall,
                                         kill_scale, diffusivity, dt, bridge,
                                     )  # fmt: skip
                             if dim >= 3:
                                 if (x2 - al2) * (y2 - al2) <= cut:
-                                    frac, hit_wall = _earliest(
-                                        bits, x2 - al2, y2 - al2, 4, frac, hit_wall,
+                                    frac, hit_wall, g = _earliest(
+                                        g, x2 - al2, y2 - al2, 4, frac, hit_wall,
                                         kill_scale, diffusivity, dt, bridge,
                                     )  # fmt: skip
                                 if (x2 - ah2) * (y2 - ah2) <= cut:
-                                    frac, hit_wall = _earliest(
-                                        bits, ah2 - x2, ah2 - y2, 5, frac, hit_wall,
+                                    frac, hit_wall, g = _earliest(
+                                        g, ah2 - x2, ah2 - y2, 5, frac, hit_wall,
                                         kill_scale, diffusivity, dt, bridge,
                                     )  # fmt: skip
                     if general:
@@ -493,8 +540,8 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                                 d1 = ball_radius - math.sqrt(rb1)
                                 d2 = ball_radius - math.sqrt(rb2)
                                 if d1 * d2 <= cut:
-                                    f = _crossing(
-                                        bits,
+                                    f, g = _crossing(
+                                        g,
                                         d1,
                                         d2,
                                         kill_scale,
@@ -519,8 +566,8 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                                 d1 = math.sqrt(r1_0) - target_radius[0]
                                 d2 = math.sqrt(r2) - target_radius[0]
                                 if d1 * d2 <= cut:
-                                    f = _crossing(
-                                        bits, d1, d2, kill_scale, diffusivity, dt,
+                                    f, g = _crossing(
+                                        g, d1, d2, kill_scale, diffusivity, dt,
                                         bridge,
                                     )  # fmt: skip
                                     if f < frac:
@@ -530,14 +577,14 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                         if n_targets > 1:
                             # The others in a helper: kept out of this loop, the
                             # common one-target case runs 4 % faster.
-                            frac, hit_wall, far = _other_targets(
-                                bits, x0, x1, x2, y0, y1, y2, far, target_center,
+                            frac, hit_wall, far, g = _other_targets(
+                                g, x0, x1, x2, y0, y1, y2, far, target_center,
                                 target_radius, reach2, cut, frac, hit_wall, n_box_walls,
                                 kill_scale, diffusivity, dt, bridge,
                             )  # fmt: skip
                     if hit_wall >= 0:
-                        x0, x1, x2 = _bridge_point(
-                            bits, dim, x0, x1, x2, y0, y1, y2, frac, sigma
+                        x0, x1, x2, g = _bridge_point(
+                            g, dim, x0, x1, x2, y0, y1, y2, frac, sigma
                         )
                         break
                     x0 = y0
@@ -594,7 +641,8 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                 near = False
                 for i in range(d):
                     xi = x[i]
-                    yi = xi + drift_step[i] + sigma * _normal(bits)
+                    z, g = _gauss(g)
+                    yi = xi + drift_step[i] + sigma * z
                     if yi < refl_lo[i] or yi > refl_hi[i]:
                         yi = _fold(yi, refl_lo[i], refl_hi[i])
                     xo[i] = xi
@@ -606,8 +654,8 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                 # 3. Absorbing faces near the step: crossed at the end or (bridge) in
                 #    between; the earliest crossing wins.
                 if near:
-                    frac, hit_wall = _face_crossing(
-                        bits,
+                    frac, hit_wall, g = _face_crossing(
+                        g,
                         xo,
                         x,
                         abs_lo,
@@ -628,8 +676,8 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                             d1 = ball_radius - _norm(xo, ball_center)
                             d2 = ball_radius - _norm(x, ball_center)
                             if d1 * d2 <= cut:
-                                frac, hit_wall = _earliest(
-                                    bits, d1, d2, n_targets, frac, hit_wall, kill_scale,
+                                frac, hit_wall, g = _earliest(
+                                    g, d1, d2, n_targets, frac, hit_wall, kill_scale,
                                     diffusivity, dt, bridge,
                                 )  # fmt: skip
                     for k in range(n_targets):
@@ -643,13 +691,13 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
                         d1 = math.sqrt(r1) - target_radius[k]
                         d2 = math.sqrt(r2) - target_radius[k]
                         if d1 * d2 <= cut:
-                            frac, hit_wall = _earliest(
-                                bits, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale,
+                            frac, hit_wall, g = _earliest(
+                                g, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale,
                                 diffusivity, dt, bridge,
                             )  # fmt: skip
                 if hit_wall >= 0:
-                    _exit_point(
-                        bits, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
+                    g = _exit_point(
+                        g, xo, x, frac, sigma, hit_wall, n_box_walls, lower, upper,
                         is_ball, ball_center, ball_radius, target_center, target_radius,
                     )  # fmt: skip
                     break
@@ -683,6 +731,7 @@ def _simulate(a, shape, dim):  # type: ignore[no-untyped-def]
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out_survival[k] += above
+    words[0], words[1], words[2], words[3] = g
     return steps_done
 
 
@@ -700,7 +749,7 @@ def _loop(shape, dim):  # type: ignore[no-untyped-def]
 
     @njit(nogil=True, cache=True)
     def loop(  # type: ignore[no-untyped-def]
-        rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
+        state, n_walkers, start, uniform_start, lower, upper, absorbing_low,
         absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
         target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
         occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins, out_time,
@@ -708,7 +757,7 @@ def _loop(shape, dim):  # type: ignore[no-untyped-def]
         out_fpt_hist,
     ):  # fmt: skip
         a = (
-            rng, n_walkers, start, uniform_start, lower, upper, absorbing_low,
+            state, n_walkers, start, uniform_start, lower, upper, absorbing_low,
             absorbing_high, ball_center, ball_radius, ball_absorbing, target_center,
             target_radius, diffusivity, drift, dt, n_steps, bridge, survival_times,
             occupancy_steps, occupancy_lower, occupancy_upper, occupancy_bins,
@@ -730,12 +779,12 @@ _LOOPS = {
 
 @njit(nogil=True, cache=True)
 def _other_targets(  # type: ignore[no-untyped-def]
-    bits, x0, x1, x2, y0, y1, y2, far, target_center, target_radius, reach2, cut,
+    g, x0, x1, x2, y0, y1, y2, far, target_center, target_radius, reach2, cut,
     frac, hit_wall, n_box_walls, kill_scale, diffusivity, dt, bridge,
 ):  # fmt: skip
     """The register loop's targets 1, 2, ... for the step (x0, x1, x2) -> (y0, y1, y2)
     (unused axes 0): the earliest crossing, in index order, after target 0's. Returns
-    (frac, hit_wall, far); bit k of ``far`` (k < 63) marks a step start beyond reach of
+    (frac, hit_wall, far, g); bit k of ``far`` (k < 63) marks a step start beyond reach of
     target k (the last step's end), so its distance need not be computed again."""
     for k in range(1, target_radius.shape[0]):
         r2 = _r2(target_center, k, y0, y1, y2)
@@ -752,18 +801,19 @@ def _other_targets(  # type: ignore[no-untyped-def]
         d1 = math.sqrt(r1) - target_radius[k]
         d2 = math.sqrt(r2) - target_radius[k]
         if d1 * d2 <= cut:
-            frac, hit_wall = _earliest(
-                bits, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
+            frac, hit_wall, g = _earliest(
+                g, d1, d2, n_box_walls + k, frac, hit_wall, kill_scale, diffusivity,
                 dt, bridge,
             )  # fmt: skip
-    return frac, hit_wall, far
+    return frac, hit_wall, far, g
 
 
 @njit(nogil=True, cache=True)
 def _face_crossing(  # type: ignore[no-untyped-def]
-    bits, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity, dt, bridge
+    g, xo, x, abs_lo, abs_hi, cut, kill_scale, diffusivity, dt, bridge
 ):
-    """(fraction of the step, wall index) of the earliest face crossing, or (2.0, -1).
+    """(fraction of the step, wall index) of the earliest face crossing, or (2.0, -1),
+    and the stream ``g`` after the draws.
 
     Called only for steps that end on, beyond or (bridge) near an absorbing face.
     """
@@ -778,22 +828,22 @@ def _face_crossing(  # type: ignore[no-untyped-def]
             d1 = xo[i] - a if side == 0 else a - xo[i]
             d2 = x[i] - a if side == 0 else a - x[i]
             if d1 * d2 <= cut:
-                frac, wall = _earliest(
-                    bits, d1, d2, 2 * i + side, frac, wall, kill_scale, diffusivity,
+                frac, wall, g = _earliest(
+                    g, d1, d2, 2 * i + side, frac, wall, kill_scale, diffusivity,
                     dt, bridge,
                 )  # fmt: skip
-    return frac, wall
+    return frac, wall, g
 
 
 @njit(nogil=True, cache=True)
-def _earliest(bits, d1, d2, wall, frac, hit_wall, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
-    """(frac, wall) after resolving one surface near the step (distances ``d1``,
+def _earliest(g, d1, d2, wall, frac, hit_wall, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+    """(frac, wall, g) after resolving one surface near the step (distances ``d1``,
     ``d2``, see :func:`_crossing`): its crossing fraction and index ``wall`` if earlier
-    than ``frac``, else ``frac`` and ``hit_wall`` unchanged."""
-    f = _crossing(bits, d1, d2, kill_scale, diffusivity, dt, bridge)
+    than ``frac``, else ``frac`` and ``hit_wall`` unchanged; ``g``, the stream."""
+    f, g = _crossing(g, d1, d2, kill_scale, diffusivity, dt, bridge)
     if f < frac:
-        return f, wall
-    return frac, hit_wall
+        return f, wall, g
+    return frac, hit_wall, g
 
 
 @njit(nogil=True, cache=True)
@@ -842,25 +892,26 @@ def _fold(y, lo, hi):  # type: ignore[no-untyped-def]
 
 
 @njit(nogil=True, cache=True)
-def _crossing(bits, d1, d2, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
-    """Step fraction at which a face was first touched, or 2.0 when it was not.
+def _crossing(g, d1, d2, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
+    """Step fraction at which a face was first touched, or 2.0 when it was not; and
+    the stream ``g`` after the draws.
 
     ``d1`` > 0 and ``d2`` are the signed distances of the step's start and end from
     the face (negative: beyond it). An end inside is killed with the bridge crossing
     probability exp(-d1 d2 / (D dt)).
     """
     if d2 > 0.0:
-        u = next_double(bits)
+        u, g = _uniform(g)
         z = d1 * d2 * kill_scale
         # Survival, u >= exp(-z), is mostly decided without exp: e^z >= the cubic
         # 1 + z + z^2/2 + z^3/6, so u * cubic >= 1 + margin implies it. The margin,
         # far above the rounding of both sides, makes the decision the same as
         # exp's in every case, so the draws stay bit-identical.
         if u * (1.0 + z * (1.0 + z * (0.5 + z * (1.0 / 6.0)))) >= EXP_MARGIN:
-            return 2.0
+            return 2.0, g
         if u >= math.exp(-z):
-            return 2.0
-    return _hit_fraction(bits, d1, abs(d2), diffusivity, dt, bridge)
+            return 2.0, g
+    return _hit_fraction(g, d1, abs(d2), diffusivity, dt, bridge)
 
 
 @njit(nogil=True, cache=True)
@@ -927,10 +978,11 @@ def _mirror(y0, y1, y2, c0, c1, c2, radius):  # type: ignore[no-untyped-def]
 
 @njit(nogil=True, cache=True)
 def _exit_point(  # type: ignore[no-untyped-def]
-    bits, x, y, frac, sigma, wall, n_box_walls, lower, upper,
+    g, x, y, frac, sigma, wall, n_box_walls, lower, upper,
     is_ball, ball_center, ball_radius, target_center, target_radius,
 ):  # fmt: skip
-    """Overwrite ``y`` with the position at absorption, a fraction ``frac`` into the step.
+    """Overwrite ``y`` with the position at absorption, a fraction ``frac`` into the step;
+    returns the stream ``g`` after the draws.
 
     Off the wall's normal the path is a Brownian bridge between x and y: a normal with
     mean x + (y - x) frac and variance sigma^2 frac (1 - frac). The point is then put
@@ -939,13 +991,14 @@ def _exit_point(  # type: ignore[no-untyped-def]
     d = x.shape[0]
     spread = sigma * math.sqrt(max(frac * (1.0 - frac), 0.0))
     for i in range(d):
-        y[i] = x[i] + (y[i] - x[i]) * frac + spread * _normal(bits)
+        z, g = _gauss(g)
+        y[i] = x[i] + (y[i] - x[i]) * frac + spread * z
     if wall < n_box_walls:
         axis = wall // 2
         for i in range(d):
             y[i] = min(max(y[i], lower[i]), upper[i])
         y[axis] = lower[axis] if wall % 2 == 0 else upper[axis]
-        return
+        return g
     if wall - n_box_walls < target_radius.shape[0]:
         k = wall - n_box_walls
         _project(y, target_center[k], target_radius[k])
@@ -954,22 +1007,26 @@ def _exit_point(  # type: ignore[no-untyped-def]
     if not is_ball:
         for i in range(d):
             y[i] = min(max(y[i], lower[i]), upper[i])
+    return g
 
 
 @njit(nogil=True, cache=True)
-def _bridge_point(bits, dim, x0, x1, x2, y0, y1, y2, frac, sigma):  # type: ignore[no-untyped-def]
+def _bridge_point(g, dim, x0, x1, x2, y0, y1, y2, frac, sigma):  # type: ignore[no-untyped-def]
     """The first part of :func:`_exit_point` on scalars (the first ``dim`` axes drawn,
     the others returned as 0): the bridge's position a fraction ``frac`` into the step
-    (x0, x1, x2) -> (y0, y1, y2)."""
+    (x0, x1, x2) -> (y0, y1, y2), and the stream ``g`` after the draws."""
     spread = sigma * math.sqrt(max(frac * (1.0 - frac), 0.0))
-    z0 = x0 + (y0 - x0) * frac + spread * _normal(bits)
+    z, g = _gauss(g)
+    z0 = x0 + (y0 - x0) * frac + spread * z
     z1 = 0.0
     z2 = 0.0
     if dim >= 2:
-        z1 = x1 + (y1 - x1) * frac + spread * _normal(bits)
+        z, g = _gauss(g)
+        z1 = x1 + (y1 - x1) * frac + spread * z
     if dim >= 3:
-        z2 = x2 + (y2 - x2) * frac + spread * _normal(bits)
-    return z0, z1, z2
+        z, g = _gauss(g)
+        z2 = x2 + (y2 - x2) * frac + spread * z
+    return z0, z1, z2, g
 
 
 @njit(nogil=True, cache=True)

@@ -30,7 +30,6 @@ from typing import Any
 import numpy as np
 
 from kernels import spheres
-from kernels.rng import initial_state
 from kernels.walkers import simulate
 from sweep import store
 from sweep.errors import StoreError, SweepError, TaskError
@@ -160,7 +159,7 @@ def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
             task, out_time, out_wall, out_position, out_survival, out_fpt
         )
     steps = simulate(
-        task.generator(),
+        task.stream_state(),
         n,
         a.start,
         a.uniform_start,
@@ -238,7 +237,7 @@ def simulate_spheres_moves(
     a = task.args
     moves = np.zeros(2, dtype=np.int64)
     spheres.simulate(
-        initial_state(np.random.SeedSequence(task.entropy)),
+        task.stream_state(),
         task.n_walkers,
         a.start,
         a.uniform_start,

@@ -11,7 +11,9 @@ The only module that imports zarr. Rules it keeps (see DEVELOPERS.md, "Store"):
   files (zarr does not write chunks that are all fill value);
 * one runner at a time holds ``_lock.json``; a lock left by a dead process on this host
   is taken over with a notice;
-* a store made by another definition is refused with the differences listed;
+* a store made by another definition is refused with the differences listed, and one
+  made with other random streams (:data:`kernels.STREAM_VERSION`) with both versions
+  named;
 * nothing is read as numbers without proof: ``_seal.json`` (written at creation) holds
   the store's random id and the checksum of every file the driver wrote, each marker
   the store's id and the size and checksum of every chunk file its task wrote (or
@@ -45,6 +47,7 @@ import xarray as xr
 import zarr
 from numpy.typing import NDArray
 
+from kernels import STREAM_VERSION
 from sweep.errors import (
     StaleStoreError,
     StoreDamagedError,
@@ -76,9 +79,9 @@ MARKER_NAME = re.compile(r"p(\d+)-c(\d+)\.json")
 ABSENT = "absent"
 #: A store is built as ``.<name>.creating-<pid>-<random>`` beside it, then renamed.
 CREATING = ".creating-"
-KERNEL_FILE = Path(__file__).resolve().parent.parent / "kernels" / "walkers.py"
-#: The spheres scheme's kernel (time.scheme = "spheres").
-SPHERES_FILE = KERNEL_FILE.parent / "spheres.py"
+#: The stream version of stores made before versions were recorded (they carry a
+#: "fingerprint" of the kernel's source instead): numpy's bit generator.
+UNVERSIONED_STREAM = 1
 
 
 def tool_version() -> str:
@@ -90,16 +93,16 @@ def tool_version() -> str:
         return "0+unknown"
 
 
-def fingerprint() -> dict[str, str]:
-    """What besides the definition decides the bits a task writes."""
+def provenance() -> dict[str, str]:
+    """The libraries a store was made with, recorded for the reader but not compared
+    on resume: compatibility follows :data:`kernels.STREAM_VERSION` (the golden test
+    notices a library update that changes the numbers)."""
     import numba
 
     return {
-        "kernel_sha256": hashlib.sha256(KERNEL_FILE.read_bytes()).hexdigest(),
-        "spheres_kernel_sha256": hashlib.sha256(SPHERES_FILE.read_bytes()).hexdigest(),
         "numpy": np.__version__,
         "numba": numba.__version__,
-        "bit_generator": BIT_GENERATOR.__name__,
+        "generator": f"{BIT_GENERATOR.__name__} (kernels/rng.py)",
     }
 
 
@@ -198,7 +201,8 @@ def _create(path: Path, plan: Plan) -> None:
                 "store_id": store_id,
                 "spec": sweep.canonical,
                 "spec_hash": sweep.spec_hash,
-                "fingerprint": fingerprint(),
+                "stream_version": STREAM_VERSION,
+                "provenance": provenance(),
                 "tool_version": tool_version(),
                 "created": datetime.datetime.now(datetime.UTC).isoformat(
                     timespec="seconds"
@@ -633,11 +637,26 @@ def load_sweep(path: str | Path) -> Sweep:
     )
 
 
+def stream_version(attrs: Mapping[str, Any]) -> int:
+    """The random-stream version of the store with attributes ``attrs``."""
+    return int(attrs.get("stream_version", UNVERSIONED_STREAM))
+
+
 def check_matches(path: Path, plan: Plan) -> None:
-    """Refuse a store made by another definition, kernel or library version."""
+    """Refuse a store made with other random streams or by another definition."""
     attrs = read_attrs(path, writing=True)
-    stored = {"spec": attrs["spec"], "fingerprint": attrs["fingerprint"]}
-    wanted = {"spec": plan.sweep.canonical, "fingerprint": fingerprint()}
+    version = stream_version(attrs)
+    if version != STREAM_VERSION:
+        raise StoreMismatchError(
+            f"{path}: this store's walkers were drawn with random stream version "
+            f"{version}, and this version of brownian-sweep draws stream version "
+            f"{STREAM_VERSION} (CHANGELOG.md says what changed): the same seeds now "
+            "give other numbers, so resuming would mix two streams in one sample. "
+            f"Finish it with a brownian-sweep that draws stream version {version}, or "
+            "start the sweep again under another --store path; nothing was changed."
+        )
+    stored = {"spec": attrs["spec"]}
+    wanted = {"spec": plan.sweep.canonical}
     if stored == wanted:
         return
     lines = [

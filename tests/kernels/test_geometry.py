@@ -21,6 +21,7 @@ import pytest
 from numpy.typing import NDArray
 from scipy import integrate, stats
 
+from kernels.rng import initial_state
 from kernels.walkers import BALL, BOX_TARGETS, simulate
 from sweep import analytic
 from tests.kernels.test_walkers import (
@@ -125,7 +126,7 @@ def run(domain: Domain, n_walkers: int, seed: int, kernel: Any = simulate) -> Ru
         steps=0,
     )
     steps = kernel(
-        np.random.default_rng(seed),
+        initial_state(np.random.SeedSequence(seed)),
         n_walkers,
         np.array(domain.start, f64),
         bool(domain.uniform_start),
@@ -959,8 +960,8 @@ REFLECTING_DISC = ball(
 )  # fmt: skip
 @pytest.mark.parametrize("loop", ["registers", "arrays"])
 def test_general_loop_python_identical_to_compiled(domain: Domain, loop: str) -> None:
-    # numba's Generator methods reproduce NumPy's streams from the same bit generator,
-    # so the uncompiled loop (ball and target code in) must give the compiled kernel's
+    # The uncompiled loop draws through the same compiled samplers from the same
+    # stream, so it (ball and target code in) must give the compiled kernel's
     # outputs to the last bit, in both the register loop (d <= 3) and the array loop.
     dim = domain.dimension if loop == "registers" else 0
     shape = BALL if domain.is_ball else BOX_TARGETS

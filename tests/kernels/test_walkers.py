@@ -6,7 +6,7 @@ Three kinds of check:
   (two-sample KS, chi-square, z on proportions), since the two draw random numbers in
   different orders;
 * determinism: same seed, same bits; the uncompiled step loop (``_simulate.py_func``) gives
-  exactly the compiled kernel's output (numba's Generator methods reproduce NumPy's streams);
+  exactly the compiled kernel's output (both draw through the compiled kernels/rng.py);
 * closed forms from ``docs/analytic-reference.md`` (section named beside each
   check), as z-scores ``|estimate - exact| <= Z_STAT * SE`` with fixed seeds.
 
@@ -27,7 +27,15 @@ from numba import njit
 from numpy.typing import NDArray
 from scipy import special, stats
 
-from kernels.walkers import BOX, _normal, _simulate, draw_normals, simulate
+from kernels.rng import initial_state
+from kernels.walkers import (
+    BOX,
+    _hit_fraction,
+    _normal,
+    _simulate,
+    draw_normals,
+    simulate,
+)
 from tests.kernels.reference import simulate_reference
 from tests.tolerances import P_MIN, Z_STAT
 
@@ -76,13 +84,19 @@ class Result(NamedTuple):
     steps: int
 
 
+def stream(seed: int) -> NDArray[np.uint64]:
+    """A kernel's random stream (SFC64 state) from the integer ``seed``."""
+    return initial_state(np.random.SeedSequence(seed))
+
+
 def run_kernel(
     box: Box,
     n_walkers: int,
-    rng: np.random.Generator,
+    state: NDArray[np.uint64],
     kernel: Callable[..., Any] = simulate,
 ) -> Result:
-    """Allocate outputs and call ``kernel`` (``simulate`` or its ``py_func``)."""
+    """Allocate outputs and call ``kernel`` (``simulate`` or its ``py_func``) on the
+    stream ``state`` (:func:`stream`), which it advances."""
     d = len(box.start)
     time = np.empty(n_walkers, dtype=np.float64)
     wall = np.empty(n_walkers, dtype=np.int16)
@@ -90,7 +104,7 @@ def run_kernel(
     survival = np.zeros(len(box.survival_times), dtype=np.int64)
     final = np.empty((n_walkers, d), dtype=np.float64)
     steps = kernel(
-        rng,
+        state,
         n_walkers,
         np.array(box.start, dtype=np.float64),
         False,  # uniform_start
@@ -286,7 +300,7 @@ def test_simulate_matches_reference_in_distribution(case: str, bridge: bool) -> 
     box = replace(REFERENCE_CASES[case], bridge=bridge)
     seed = 20240 + list(REFERENCE_CASES).index(case) + 100 * bridge
     context = f"seed {seed}, {asdict(box)}"
-    kernel = run_kernel(box, N_REFERENCE, np.random.default_rng(seed))
+    kernel = run_kernel(box, N_REFERENCE, stream(seed))
     reference = run_reference(box, N_REFERENCE, np.random.default_rng(seed + 1))
     n = N_REFERENCE
     d = len(box.start)
@@ -412,14 +426,14 @@ def test_normal_sampler_reproduces_numpy_stream(bit_generator: Any) -> None:
 
 
 def test_simulate_same_seed_bit_identical() -> None:
-    first = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
-    again = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
+    first = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, stream(11))
+    again = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, stream(11))
     assert_results_identical(first, again)
 
 
 def test_simulate_different_seeds_differ() -> None:
-    first = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
-    other = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(12))
+    first = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, stream(11))
+    other = run_kernel(RECTANGLE_MIXED_DRIFT, 2000, stream(12))
     assert not np.array_equal(first.time, other.time, equal_nan=True)
     assert not np.array_equal(first.final, other.final, equal_nan=True)
 
@@ -428,8 +442,8 @@ def test_simulate_first_walker_independent_of_walker_count() -> None:
     # Walkers consume one shared stream in order, so walker 0 of a run does not
     # depend on how many walkers follow it.
     box = replace(RECTANGLE_MIXED_DRIFT, survival_times=())
-    many = run_kernel(box, 50, np.random.default_rng(5))
-    one = run_kernel(box, 1, np.random.default_rng(5))
+    many = run_kernel(box, 50, stream(5))
+    one = run_kernel(box, 1, stream(5))
     for name in ("time", "wall", "position", "final"):
         np.testing.assert_array_equal(
             getattr(one, name), getattr(many, name)[:1], err_msg=name
@@ -484,18 +498,18 @@ def uncompiled_loop(shape: int, dim: int) -> Callable[..., Any]:
 )  # fmt: skip
 @pytest.mark.parametrize("loop", ["registers", "arrays"])
 def test_simulate_py_func_identical_to_compiled(box: Box, loop: str) -> None:
-    # numba's Generator methods (random, standard_normal, wald) reproduce NumPy's
-    # streams from the same bit generator, so the uncompiled function must agree to
-    # the last bit, and leave the generator in the same state. Both step loops (scalar
+    # The uncompiled loop draws through the same compiled samplers (kernels/rng.py)
+    # from the same stream, so it must agree to the last bit and leave the stream in
+    # the same state. Both step loops (scalar
     # registers for d <= 3, arrays for any d) must give the same bits.
     d = len(box.start)
     dim = d if loop == "registers" and d <= 3 else 0
-    compiled_rng = np.random.default_rng(99)
-    python_rng = np.random.default_rng(99)
-    compiled = run_kernel(box, 30, compiled_rng)
-    python = run_kernel(box, 30, python_rng, kernel=uncompiled_loop(BOX, dim))
+    compiled_state = stream(99)
+    python_state = stream(99)
+    compiled = run_kernel(box, 30, compiled_state)
+    python = run_kernel(box, 30, python_state, kernel=uncompiled_loop(BOX, dim))
     assert_results_identical(compiled, python)
-    assert compiled_rng.bit_generator.state == python_rng.bit_generator.state
+    np.testing.assert_array_equal(compiled_state, python_state)
 
 
 # --------------------------------------------------------------------------- analytic
@@ -513,7 +527,7 @@ def interval_aa_run(dt: float, bridge: bool, n_walkers: int, seed: int) -> Resul
         X0_P, L_P, True, True, diffusivity=D_P, dt=dt,
         n_steps=round(HORIZON_AA / dt), bridge=bridge,
     )  # fmt: skip
-    result = run_kernel(box, n_walkers, np.random.default_rng(seed))
+    result = run_kernel(box, n_walkers, stream(seed))
     assert np.all(result.wall >= 0), "walkers censored: lengthen HORIZON_AA"
     return result
 
@@ -562,7 +576,7 @@ def test_interval_absorbing_reflecting_mean_exit_time() -> None:
         X0_P, L_P, True, False, diffusivity=D_P, dt=dt, n_steps=round(40.0 / dt),
         bridge=True,
     )  # fmt: skip
-    result = run_kernel(box, 50_000, np.random.default_rng(2))
+    result = run_kernel(box, 50_000, stream(2))
     assert np.all(result.wall == 0)
     mean, se = mean_and_se(result.time)
     # E T = x0 (2L - x0) / (2D): Redner (2001) Ch. 2, reflecting/absorbing interval
@@ -622,7 +636,7 @@ def half_line_run() -> tuple[Box, Result]:
         bridge=True,
         survival_times=HALF_LINE_TIMES,
     )
-    return box, run_kernel(box, 100_000, np.random.default_rng(4))
+    return box, run_kernel(box, 100_000, stream(4))
 
 
 def test_half_line_survival() -> None:
@@ -653,7 +667,7 @@ def test_half_line_drift_toward_wall_inverse_gaussian() -> None:
         absorbing_high=(False,), diffusivity=D_P, drift=(-v,), dt=dt,
         n_steps=round(300.0 / dt), bridge=True,
     )  # fmt: skip
-    result = run_kernel(box, 20_000, np.random.default_rng(6))
+    result = run_kernel(box, 20_000, stream(6))
     assert np.all(result.wall == 0)
     # T ~ IG(mean x0/v, shape x0^2/(2D)),
     # i.e. scipy.stats.invgauss(2D/(x0 v), scale=x0^2/(2D)):
@@ -675,7 +689,7 @@ def test_free_motion_mean_and_variance(drift: tuple[float, float]) -> None:
     start = (0.3, -1.2)
     box = free_space(start, drift, diffusivity=D_P, dt=0.01, n_steps=50)
     n = 100_000
-    result = run_kernel(box, n, np.random.default_rng(70 + int(drift != (0.0, 0.0))))
+    result = run_kernel(box, n, stream(70 + int(drift != (0.0, 0.0))))
     assert np.all(result.wall == -1)
     t = box.horizon
     for axis in range(2):
@@ -698,13 +712,13 @@ def test_free_motion_covariance_at_two_times() -> None:
     start, drift = (0.3, -1.2), (0.5, -0.2)
     dt, n = 0.01, 5000
     first = free_space(start, drift, diffusivity=D_P, dt=dt, n_steps=30)
-    rng = np.random.default_rng(8)
-    at_t1 = run_kernel(first, n, rng).final
+    state = stream(8)  # each call continues the stream where the last one stopped
+    at_t1 = run_kernel(first, n, state).final
     # Continue each walker from its own X(t1): the kernel takes one start point.
     at_t2 = np.empty_like(at_t1)
     for i in range(n):
         more = replace(first, start=tuple(at_t1[i]), n_steps=50)
-        at_t2[i] = run_kernel(more, 1, rng).final[0]
+        at_t2[i] = run_kernel(more, 1, state).final[0]
     t1, t2 = first.horizon, first.horizon + 50 * dt
     context = f"t1 {t1}, t2 {t2}, {asdict(first)}"
     # Cov[X_i(s), X_j(t)] = 2 D min(s, t) delta_ij, whatever the drift: Karlin & Taylor
@@ -737,7 +751,7 @@ def test_free_motion_covariance_at_two_times() -> None:
 )  # fmt: skip
 def test_reflecting_box_conserves_walkers(box: Box) -> None:
     n = 5000
-    result = run_kernel(box, n, np.random.default_rng(9))
+    result = run_kernel(box, n, stream(9))
     np.testing.assert_array_equal(result.wall, np.full(n, -1))
     assert np.all(np.isnan(result.time))
     assert np.all(np.isnan(result.position))
@@ -754,7 +768,7 @@ def test_reflecting_box_conserves_walkers(box: Box) -> None:
     "box", [INTERVAL_AA, RECTANGLE_MIXED_DRIFT], ids=["interval", "rectangle"]
 )
 def test_simulate_one_walker(box: Box, seed: int) -> None:
-    result = run_kernel(box, 1, np.random.default_rng(seed))
+    result = run_kernel(box, 1, stream(seed))
     t = result.time[0]
     if result.wall[0] >= 0:
         assert 0.0 < t <= box.horizon
@@ -781,7 +795,7 @@ def test_simulate_single_step(bridge: bool, mu: float) -> None:
         absorbing_high=(False,), diffusivity=diffusivity, drift=(mu,), dt=dt,
         n_steps=1, bridge=bridge, survival_times=(dt / 2, dt),
     )  # fmt: skip
-    result = run_kernel(box, n, np.random.default_rng(10 + int(mu)))
+    result = run_kernel(box, n, stream(10 + int(mu)))
     assert result.steps == n
     absorbed = result.wall == 0
     assert np.all(result.time[absorbed] <= dt)
@@ -810,6 +824,24 @@ def test_simulate_single_step(bridge: bool, mu: float) -> None:
     check_proportion("absorbed in one step", int(absorbed.sum()), n, probability, box)
 
 
+@njit(nogil=True)
+def hit_fractions(
+    state: NDArray[np.uint64],
+    n: int,
+    alpha: float,
+    gamma: float,
+    diffusivity: float,
+    h: float,
+) -> NDArray[np.float64]:
+    """``n`` draws of the kernel's ``_hit_fraction`` (bridge on) from ``state``."""
+    words = state.view(np.int64)  # the kernel's form of the stream (walkers._words)
+    g = (words[0], words[1], words[2], words[3])
+    out = np.empty(n)
+    for i in range(n):
+        out[i], g = _hit_fraction(g, alpha, gamma, diffusivity, h, True)
+    return out
+
+
 @pytest.mark.parametrize(
     ("x2", "case"),
     [(0.9, "end-inside"), (1.05, "end-beyond"), (1.0, "end-on-wall")],
@@ -821,18 +853,10 @@ def test_hit_fraction_law(x2: float, case: str) -> None:
     # IG(mean h alpha / gamma, shape alpha^2 / (2D)), scipy.stats.invgauss; Levy
     # (scipy.stats.levy) when gamma = 0. analytic.md F6 [derived]; time change of the
     # bridge: Karatzas & Shreve (1991) Sec. 5.6.B [from memory].
-    from kernels.walkers import _hit_fraction
-
     a, x1, diffusivity, h, n = 1.0, 0.8, 0.8, 0.05, 20_000
     alpha, gamma = a - x1, abs(a - x2)
     shape = alpha**2 / (2 * diffusivity)
-    rng = np.random.default_rng(14)
-    fractions = np.array(
-        [
-            _hit_fraction(rng.bit_generator, alpha, gamma, diffusivity, h, True)
-            for _ in range(n)
-        ]
-    )
+    fractions = hit_fractions(stream(14), n, alpha, gamma, diffusivity, h)
     assert np.all((fractions > 0.0) & (fractions < 1.0))
     if gamma > 0.0:
         law = stats.invgauss((h * alpha / gamma) / shape, scale=shape)
@@ -853,7 +877,7 @@ def test_simulate_start_next_to_absorbing_wall(bridge: bool) -> None:
         x0, 1.0, True, True, diffusivity=diffusivity, dt=dt, n_steps=5, bridge=bridge,
         survival_times=(dt,),
     )  # fmt: skip
-    result = run_kernel(box, n, np.random.default_rng(11))
+    result = run_kernel(box, n, stream(11))
     first_step = int(n - result.survival[0])
     sigma = math.sqrt(2 * diffusivity * dt)
     if bridge:
@@ -883,7 +907,7 @@ def test_simulate_start_next_to_absorbing_wall(bridge: bool) -> None:
 def test_narrow_reflecting_box_huge_steps_keeps_walkers_inside(box: Box) -> None:
     # sqrt(2 D dt) is ~1400 box widths: each step folds many times.
     n = 2000
-    result = run_kernel(box, n, np.random.default_rng(12))
+    result = run_kernel(box, n, stream(12))
     np.testing.assert_array_equal(result.wall, np.full(n, -1))
     np.testing.assert_array_equal(result.survival, np.full(2, n))
     assert np.all((result.final >= box.lower) & (result.final <= box.upper))
