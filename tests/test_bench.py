@@ -150,6 +150,7 @@ def test_quick_bench_keeps_no_rates(tmp_path: Path) -> None:
             "--remeasure",
             "0",
             "--no-compile-times",
+            "--no-spheres",
         ],
         capture_output=True,
         text=True,
@@ -160,6 +161,7 @@ def test_quick_bench_keeps_no_rates(tmp_path: Path) -> None:
     assert "rates not kept" in result.stdout
     assert "of limit" in result.stdout and "end to end" in result.stdout
     assert "first call per kernel variant" not in result.stdout
+    assert "spheres scheme over steps" not in result.stdout
     assert not (tmp_path / "rates.json").exists()
 
 
