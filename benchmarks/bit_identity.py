@@ -4,7 +4,8 @@ Runs a few hundred small configurations (1-4 dimensions, every wall mix, balls w
 absorbing and reflecting surfaces, targets, drift, occupancy snapshots, uniform starts,
 endpoint and bridge monitoring, first-passage histograms) through the kernel of a git
 revision (default ``main``) and through this checkout's kernel, and demands equal
-outputs to the last bit, the same walker-step count and the same generator state after.
+outputs to the last bit, the same walker-step count and the same generator state after
+(both kernels start from the same SFC64 state, ``kernels.rng.initial_state``).
 A refactor of the kernel that must not change the numbers is checked with it before
 every commit::
 
@@ -14,7 +15,10 @@ every commit::
 The revision's ``kernels/walkers.py`` is written to a cache directory keyed by its
 content (so numba's on-disk cache of it survives between runs) and imported from there.
 Both kernels get inputs made by this checkout's ``kernels.inputs``; a revision before
-the named inputs (a 31-argument ``simulate``) gets them field by field. A change of the random streams is not a refactor: it fails here by design.
+the named inputs (a 31-argument ``simulate``) gets them field by field. A change of the
+random streams is not a refactor: it fails here by design, and a revision of another
+stream version (``kernels.STREAM_VERSION``; version 1 took a numpy ``Generator``) is
+refused.
 """
 
 from __future__ import annotations
@@ -35,6 +39,7 @@ from typing import Any
 import numpy as np
 
 from kernels import inputs, walkers
+from kernels.rng import initial_state
 
 ROOT = Path(__file__).resolve().parent.parent
 #: Walkers per configuration: enough that every branch (both faces, targets, the
@@ -165,7 +170,7 @@ def _inputs(config: dict[str, Any]) -> tuple[Any, Any, Any]:
 
 def run(module: ModuleType, config: dict[str, Any], seed: int) -> dict[str, Any]:
     """Every output of one run of ``module``'s kernel, and the generator's end state."""
-    rng = np.random.Generator(np.random.SFC64(seed))
+    rng = initial_state(np.random.SeedSequence(seed))  # advanced in place
     g, m, r = _inputs(config)
     out = inputs.allocate(N_WALKERS, g, r)
     if len(inspect.signature(module.simulate).parameters) <= 6:
@@ -183,7 +188,7 @@ def run(module: ModuleType, config: dict[str, Any], seed: int) -> dict[str, Any]
         )  # fmt: skip
     result = out._asdict()
     result["steps"] = int(steps)
-    result["state"] = repr(rng.bit_generator.state)
+    result["state"] = rng.copy()
     return result
 
 
@@ -200,6 +205,14 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--ref", default="main", help="git revision (default: main)")
     args = parser.parse_args(argv)
     reference = reference_module(args.ref)
+    first = next(iter(inspect.signature(reference.simulate).parameters))
+    if first == "rng":
+        print(
+            f"{args.ref}'s kernel draws from a numpy Generator (stream version 1): "
+            "its numbers differ from this kernel's by design; compare with a revision "
+            "of stream version 2"
+        )
+        return 2
     legacy = len(inspect.signature(reference.simulate).parameters) > 6
     configs = configurations()
     failures = 0

@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator and kernels/walkers.py: 160270a6168791c76ed5cd59e5cf7902
+Digest of template, generator, kernels/walkers.py and rng.py: 2cece2cb0fdd4335ba39fda976563784
 """
 
 # ruff: noqa
@@ -22,13 +22,14 @@ from kernels.walkers import (
     _fold,
     _free,
     _random_state,
+    _store_state,
     draw_normal,
     draw_uniform,
 )
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box1(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -41,7 +42,7 @@ def simulate_loop_box1(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -230,11 +231,12 @@ def simulate_loop_box1(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box2(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -247,7 +249,7 @@ def simulate_loop_box2(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -491,11 +493,12 @@ def simulate_loop_box2(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box3(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -508,7 +511,7 @@ def simulate_loop_box3(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -807,11 +810,12 @@ def simulate_loop_box3(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box4(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -824,7 +828,7 @@ def simulate_loop_box4(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -1178,11 +1182,12 @@ def simulate_loop_box4(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box5(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -1195,7 +1200,7 @@ def simulate_loop_box5(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -1604,11 +1609,12 @@ def simulate_loop_box5(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box6(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -1621,7 +1627,7 @@ def simulate_loop_box6(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -2085,11 +2091,12 @@ def simulate_loop_box6(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box7(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -2102,7 +2109,7 @@ def simulate_loop_box7(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -2621,11 +2628,12 @@ def simulate_loop_box7(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box8(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -2638,7 +2646,7 @@ def simulate_loop_box8(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -3212,11 +3220,12 @@ def simulate_loop_box8(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box_targets1(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -3229,7 +3238,7 @@ def simulate_loop_box_targets1(rng, n_walkers, geometry, motion, recording, out)
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -3439,6 +3448,7 @@ def simulate_loop_box_targets1(rng, n_walkers, geometry, motion, recording, out)
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -3475,7 +3485,7 @@ def other_targets_box_targets1(
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box_targets2(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -3488,7 +3498,7 @@ def simulate_loop_box_targets2(rng, n_walkers, geometry, motion, recording, out)
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -3753,6 +3763,7 @@ def simulate_loop_box_targets2(rng, n_walkers, geometry, motion, recording, out)
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -3789,7 +3800,7 @@ def other_targets_box_targets2(
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box_targets3(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -3802,7 +3813,7 @@ def simulate_loop_box_targets3(rng, n_walkers, geometry, motion, recording, out)
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -4122,6 +4133,7 @@ def simulate_loop_box_targets3(rng, n_walkers, geometry, motion, recording, out)
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -4158,7 +4170,7 @@ def other_targets_box_targets3(
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box_targets4(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -4171,7 +4183,7 @@ def simulate_loop_box_targets4(rng, n_walkers, geometry, motion, recording, out)
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -4546,6 +4558,7 @@ def simulate_loop_box_targets4(rng, n_walkers, geometry, motion, recording, out)
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -4582,7 +4595,7 @@ def other_targets_box_targets4(
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box_targets5(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -4595,7 +4608,7 @@ def simulate_loop_box_targets5(rng, n_walkers, geometry, motion, recording, out)
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -5025,6 +5038,7 @@ def simulate_loop_box_targets5(rng, n_walkers, geometry, motion, recording, out)
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -5061,7 +5075,7 @@ def other_targets_box_targets5(
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box_targets6(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -5074,7 +5088,7 @@ def simulate_loop_box_targets6(rng, n_walkers, geometry, motion, recording, out)
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -5559,6 +5573,7 @@ def simulate_loop_box_targets6(rng, n_walkers, geometry, motion, recording, out)
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -5595,7 +5610,7 @@ def other_targets_box_targets6(
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box_targets7(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -5608,7 +5623,7 @@ def simulate_loop_box_targets7(rng, n_walkers, geometry, motion, recording, out)
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -6148,6 +6163,7 @@ def simulate_loop_box_targets7(rng, n_walkers, geometry, motion, recording, out)
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -6184,7 +6200,7 @@ def other_targets_box_targets7(
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_box_targets8(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -6197,7 +6213,7 @@ def simulate_loop_box_targets8(rng, n_walkers, geometry, motion, recording, out)
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -6792,6 +6808,7 @@ def simulate_loop_box_targets8(rng, n_walkers, geometry, motion, recording, out)
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -6828,7 +6845,7 @@ def other_targets_box_targets8(
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_ball2(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -6841,7 +6858,7 @@ def simulate_loop_ball2(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -7080,6 +7097,7 @@ def simulate_loop_ball2(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -7130,7 +7148,7 @@ def mirror_ball2(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_ball3(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -7143,7 +7161,7 @@ def simulate_loop_ball3(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -7417,6 +7435,7 @@ def simulate_loop_ball3(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -7467,7 +7486,7 @@ def mirror_ball3(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_ball4(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -7480,7 +7499,7 @@ def simulate_loop_ball4(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -7789,6 +7808,7 @@ def simulate_loop_ball4(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -7839,7 +7859,7 @@ def mirror_ball4(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_ball5(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -7852,7 +7872,7 @@ def simulate_loop_ball5(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -8196,6 +8216,7 @@ def simulate_loop_ball5(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -8246,7 +8267,7 @@ def mirror_ball5(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_ball6(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -8259,7 +8280,7 @@ def simulate_loop_ball6(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -8638,6 +8659,7 @@ def simulate_loop_ball6(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -8688,7 +8710,7 @@ def mirror_ball6(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_ball7(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -8701,7 +8723,7 @@ def simulate_loop_ball7(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -9115,6 +9137,7 @@ def simulate_loop_ball7(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 
@@ -9165,7 +9188,7 @@ def mirror_ball7(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
-def simulate_loop_ball8(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -9178,7 +9201,7 @@ def simulate_loop_ball8(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -9627,6 +9650,7 @@ def simulate_loop_ball8(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 

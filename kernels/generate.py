@@ -9,10 +9,11 @@ module differs. The rules the template follows are in its docstring: ``for i in 
 unrolled per axis (``name_i`` -> ``name0``, ``name1``, ...), ``sum``/``min``/``tuple``
 of ``E for i in AXES`` written out, ``if static(...)`` decided per kind of domain and
 dimension, every template function emitted once per (kind, dimension) under a suffixed
-name. The generated module's header carries a digest of the template, of this file and
-of ``kernels/walkers.py``: numba's on-disk cache keys a function by its own file only,
-so an edit of a helper in walkers.py must change ``_loops.py`` too (the test insists)
-for the cached loops to be recompiled.
+name. The generated module's header carries a digest of the template, of this file,
+of ``kernels/walkers.py`` and of ``kernels/rng.py``: numba's on-disk cache keys a
+function by its own file only, so an edit of a helper in walkers.py or of the
+generator must change ``_loops.py`` too (the test insists) for the cached loops to be
+recompiled.
 """
 
 from __future__ import annotations
@@ -33,7 +34,8 @@ DIMENSIONS = range(1, 9)
 #: Names the template imports from kernels/walkers.py.
 HELPERS = (
     "BRIDGE_CUTOFF", "REACH", "SURFACE_MARGIN", "_cell_next", "_crossing",
-    "_earliest", "_fold", "_free", "_random_state", "draw_normal", "draw_uniform",
+    "_earliest", "_fold", "_free", "_random_state", "_store_state", "draw_normal",
+    "draw_uniform",
 )  # fmt: skip
 
 _STATIC_IF = re.compile(r"^(\s*)(if|elif) static\((.*)\):\s*$")
@@ -206,9 +208,12 @@ KINDS_CONSTANTS = {"BOX": 0, "BOX_TARGETS": 1, "BALL": 2}
 
 
 def digest() -> str:
-    """sha256 of the template, this generator and kernels/walkers.py."""
+    """sha256 of the template, this generator, kernels/walkers.py and kernels/rng.py
+    (the generator the seam calls)."""
     h = hashlib.sha256()
-    for path in (TEMPLATE, Path(__file__).resolve(), HERE / "walkers.py"):
+    for path in (
+        TEMPLATE, Path(__file__).resolve(), HERE / "walkers.py", HERE / "rng.py"
+    ):  # fmt: skip
         h.update(path.read_bytes())
     return h.hexdigest()[:32]
 
@@ -221,7 +226,7 @@ def generate() -> str:
         "EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).",
         "",
         "One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.",
-        f"Digest of template, generator and kernels/walkers.py: {digest()}",
+        f"Digest of template, generator, kernels/walkers.py and rng.py: {digest()}",
         '"""',
         "",
         "# ruff: noqa",

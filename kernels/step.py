@@ -30,7 +30,8 @@ for d > 3 is gone), and leaves one readable loop per case to step through with
 
 Draws: every draw goes through the generator seam of ``kernels/walkers.py``
 (``draw_normal``, ``draw_uniform``; ``_crossing`` draws the bridge's), with the random
-state ``rs`` threaded through explicitly. The order of draws and the arithmetic are
+state ``rs`` (SFC64's four words, kernels/rng.py) threaded through explicitly and
+written back into ``state`` at the end. The order of draws and the arithmetic are
 those of the kernel before this template (``benchmarks/bit_identity.py`` checks it).
 
 Adding a kind of surface: its parameters go into ``Geometry`` (``kernels/inputs.py``);
@@ -40,7 +41,7 @@ in section 5 ("exit point"), and a wall index after the existing ones.
 """
 
 
-def simulate_loop(rng, n_walkers, geometry, motion, recording, out):
+def simulate_loop(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
     lower, upper = geometry.lower, geometry.upper
@@ -53,7 +54,7 @@ def simulate_loop(rng, n_walkers, geometry, motion, recording, out):
     record_final = out.final.shape[0] > 0
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
-    rs = _random_state(rng)  # threaded through every draw below
+    rs = _random_state(state)  # threaded through every draw below
     if static(KIND == BALL):
         n_box_walls = 0
     else:
@@ -321,6 +322,7 @@ def simulate_loop(rng, n_walkers, geometry, motion, recording, out):
     for k in range(n_survival - 1, -1, -1):
         above += hist[k + 1]
         out.survival[k] += above
+    _store_state(state, rs)
     return steps_done
 
 

@@ -1,7 +1,8 @@
 """The walker kernel: Brownian walkers in a box or ball, with absorbing targets.
 
-Pure computation: numba ``njit(nogil=True)``, a numpy ``Generator`` passed in (one per
-task, never shared between threads), preallocated outputs, no I/O, no validation.
+Pure computation: numba ``njit(nogil=True)``, the task's random stream passed in (SFC64's
+state, kept in local variables by :mod:`kernels.rng`; one per task, never shared between
+threads), preallocated outputs, no I/O, no validation.
 
 Where things are: the step loop is written once, in the template ``kernels/step.py``,
 and generated per kind of domain and dimension into ``kernels/_loops.py`` (do not
@@ -30,13 +31,12 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit, types
-from numba.core import cgutils
-from numba.core.extending import box
+from numba import njit
 
 # numpy's ziggurat tables and the raw bit-generator calls, as numba ships them for its
-# own Generator support (tests/kernels/test_walkers.py checks that _normal reproduces
-# numpy's standard_normal stream bit for bit, so a change here is caught).
+# own Generator support: the former normal sampler, on a Generator's bit generator, for
+# `sweep bench`'s former ceiling (tests/kernels/test_walkers.py checks that _normal
+# reproduces numpy's standard_normal stream bit for bit).
 from numba.np.random._constants import (
     fi_double,
     ki_double,
@@ -45,7 +45,9 @@ from numba.np.random._constants import (
     ziggurat_nor_r,
 )
 from numba.np.random.generator_core import next_double, next_uint64
+from numpy.typing import NDArray
 
+from kernels import rng
 from kernels.inputs import Geometry, Motion, Outputs, Recording
 
 
@@ -101,69 +103,78 @@ def _normal_rare(bits, idx, r, rabs, x):  # type: ignore[no-untyped-def]
         x = float(np.int64(rabs)) * wi_double[idx]
 
 
-@njit(nogil=True, cache=True)
-def _wald(bits, mean, shape):  # type: ignore[no-untyped-def]
-    """Inverse-Gaussian variate, numpy's ``Generator.wald`` draw for draw."""
-    mu_2l = mean / (2.0 * shape)
-    y = _normal(bits)
-    y = mean * y * y
-    x = mean + mu_2l * (y - np.sqrt(4.0 * shape * y + y * y))
-    if next_double(bits) <= mean / (mean + x):
-        return x
-    return mean * mean / x
-
-
 # ------------------------------------------------------------------ the generator seam
 # Every draw of the step loop goes through these three, and the random state ``rs``
 # is threaded explicitly through every helper that draws (``z, rs = draw_normal(rs)``):
-# changing the generator (say, to a state kept in local variables) changes these
-# three functions and :func:`_random_state`, nothing else. Today ``rs`` is the task
-# Generator's bit generator and the draws are numpy's own (see _normal). The wrappers
-# are left to LLVM to inline: forcing it in numba's IR (inline="always") measured the
-# reflecting box with a target 3-6 % slower (paired medians) and the rest within noise.
-
-
-@box(types.NumPyRandomBitGeneratorType)
-def _box_bit_generator(typ, val, c):  # type: ignore[no-untyped-def]
-    """Hand a bit generator back to Python as the object it came from, so that the
-    uncompiled step loop (the tests' ``_simulate.py_func``) can call compiled helpers
-    that return the state. Not used by compiled code."""
-    struct = cgutils.create_struct_proxy(typ)(c.context, c.builder, value=val)
-    c.pyapi.incref(struct.parent)
-    return struct.parent
+# changing the generator changes these three functions, :func:`_random_state` and
+# :func:`_store_state`, nothing else. ``rs`` is the task's stream: the four SFC64 words
+# of kernels/rng.py (kept in local variables) as one tuple of int64 bit patterns.
+# int64, not uint64: the tests' uncompiled loop (a generated loop's ``py_func``)
+# carries ``rs`` through Python, whose integers numba would type as int64 or uint64 by
+# their value, one compilation per mix and wrong shifts for the int64 ones; with int64
+# throughout they keep one type. The casts cost nothing compiled (same bits). The
+# wrappers are left to LLVM to inline: forcing it in numba's IR (inline="always")
+# measured the reflecting box with a target 3-6 % slower (paired medians) and the rest
+# within noise.
 
 
 @njit(nogil=True, cache=True)
-def _random_state(rng):  # type: ignore[no-untyped-def]
-    """The random state the step loop threads through its draws, from the task's
-    Generator."""
-    return rng.bit_generator
+def _words(rs):  # type: ignore[no-untyped-def]
+    """The stream ``rs`` as kernels/rng.py's four uint64 words."""
+    return np.uint64(rs[0]), np.uint64(rs[1]), np.uint64(rs[2]), np.uint64(rs[3])
+
+
+@njit(nogil=True, cache=True)
+def _stream(a, b, c, w):  # type: ignore[no-untyped-def]
+    """Four uint64 words as the stream ``rs``."""
+    return np.int64(a), np.int64(b), np.int64(c), np.int64(w)
+
+
+@njit(nogil=True, cache=True)
+def _random_state(state):  # type: ignore[no-untyped-def]
+    """The random state the step loop threads through its draws, loaded from the
+    task's SFC64 ``state`` (uint64 (4,), :func:`kernels.rng.initial_state`)."""
+    words = state.view(np.int64)
+    return words[0], words[1], words[2], words[3]
+
+
+@njit(nogil=True, cache=True)
+def _store_state(state, rs):  # type: ignore[no-untyped-def]
+    """Write the stream ``rs`` after the last draw back into ``state``."""
+    words = state.view(np.int64)
+    words[0], words[1], words[2], words[3] = rs
 
 
 @njit(nogil=True, cache=True)
 def draw_normal(rs):  # type: ignore[no-untyped-def]
-    """(standard normal, new state): ``Generator.standard_normal()``'s stream."""
-    return _normal(rs), rs
+    """(standard normal, new state): :func:`kernels.rng.normal`."""
+    a, b, c, w = _words(rs)
+    z, a, b, c, w = rng.normal(a, b, c, w)
+    return z, _stream(a, b, c, w)
 
 
 @njit(nogil=True, cache=True)
 def draw_uniform(rs):  # type: ignore[no-untyped-def]
-    """(uniform on [0, 1), new state): ``Generator.random()``'s stream."""
-    return next_double(rs), rs
+    """(uniform on [0, 1), new state): :func:`kernels.rng.uniform`."""
+    a, b, c, w = _words(rs)
+    u, a, b, c, w = rng.uniform(a, b, c, w)
+    return u, _stream(a, b, c, w)
 
 
 @njit(nogil=True, cache=True)
 def draw_wald(rs, mean, shape):  # type: ignore[no-untyped-def]
-    """(inverse Gaussian variate, new state): ``Generator.wald``'s stream."""
-    return _wald(rs, mean, shape), rs
+    """(inverse Gaussian variate, new state): :func:`kernels.rng.wald`."""
+    a, b, c, w = _words(rs)
+    x, a, b, c, w = rng.wald(mean, shape, a, b, c, w)
+    return x, _stream(a, b, c, w)
 
 
 @njit(nogil=True, cache=True)
-def draw_normals(rng, n_steps, dimension):  # type: ignore[no-untyped-def]
+def draw_normals(generator, n_steps, dimension):  # type: ignore[no-untyped-def]
     """Draw ``n_steps * dimension`` standard normals as a d-dimensional walk would (the
     kernels' speed limit, see :mod:`kernels.ceiling`); returns their sum so the
     compiler cannot drop the draws."""
-    bits = rng.bit_generator
+    bits = generator.bit_generator
     total = 0.0
     for _ in range(n_steps):
         for _ in range(dimension):
@@ -219,7 +230,7 @@ def _hit_fraction(rs, alpha, gamma, diffusivity, dt, bridge):  # type: ignore[no
 
 
 def simulate(
-    rng: np.random.Generator,
+    state: NDArray[np.uint64],
     n_walkers: int,
     geometry: Geometry,
     motion: Motion,
@@ -230,8 +241,10 @@ def simulate(
 
     Parameters
     ----------
-    rng : numpy.random.Generator
-        This task's own generator; it is advanced.
+    state : uint64 (4,)
+        This task's random stream: SFC64's state (:func:`kernels.rng.initial_state`
+        of the task's SeedSequence), loaded into local variables once and
+        overwritten with the state after the last draw.
     n_walkers : int
     geometry, motion, recording : Geometry, Motion, Recording
         Made by :mod:`kernels.inputs` (``geometry``, ``motion``, ``recording``).
@@ -253,7 +266,7 @@ def simulate(
     else:
         kind = BOX
     loop = _loops.LOOPS[kind, geometry.lower.shape[0]]
-    return loop(rng, n_walkers, geometry, motion, recording, out)  # type: ignore[no-any-return]
+    return loop(state, n_walkers, geometry, motion, recording, out)  # type: ignore[no-any-return]
 
 
 #: Kinds of domain, each stepped by its own compiled loops (KIND in kernels/step.py):

@@ -21,7 +21,8 @@ import numpy as np
 import xarray as xr
 
 from sweep import analytic, stats, store
-from sweep.spec import PointSpec, Sweep
+from sweep.plan import coordinate_columns
+from sweep.spec import PointSpec, Sweep, key_quantity
 
 #: |z| above this fails a check. With a handful of statistics per point and thousands
 #: of points, 5 standard errors keeps false alarms rare (two-sided 5.7e-7 per check).
@@ -57,26 +58,73 @@ class CheckReport:
     store: str
     rows: tuple[CheckRow, ...]
     unchecked: tuple[tuple[int, str], ...]
+    #: Tasks with a completion marker, and all tasks of the sweep: a check of an
+    #: unfinished store covers the finished tasks only, and its verdict says so.
+    tasks_done: int = 0
+    tasks_total: int = 0
 
     @property
-    def passed(self) -> bool:
+    def compared(self) -> int:
+        """How many comparisons were made (0: nothing had a closed form)."""
+        return len(self.rows)
+
+    @property
+    def passed(self) -> bool | None:
+        """True when every comparison passed, False when one failed, None when nothing
+        was compared (which is not a pass)."""
+        if not self.rows:
+            return None
         return all(r.passed for r in self.rows)
+
+    @property
+    def complete(self) -> bool:
+        return self.tasks_done >= self.tasks_total
+
+    @property
+    def exit_code(self) -> int:
+        """1 when a comparison failed, else 0 (also when nothing was compared)."""
+        return 1 if self.passed is False else 0
 
     def verdict(self) -> str:
         """One line: all passed, how many failed, or that nothing could be compared
-        (no point has a closed form), which is not a pass."""
+        (no point has a closed form), which is not a pass; an unfinished store adds
+        how many tasks are done and what that means."""
+        return self.outcome() + self.incomplete_note()
+
+    def outcome(self) -> str:
+        """The verdict without the note on an unfinished store."""
         if not self.rows:
-            return "nothing compared: no point could be checked (reasons above)"
-        if self.passed:
-            return f"all {len(self.rows)} checks passed"
-        failed = sum(not r.passed for r in self.rows)
-        return f"{failed} of {len(self.rows)} checks FAILED"
+            text = (
+                "nothing compared: no point could be checked (the reason is given "
+                "for each point)"
+            )
+        elif self.passed:
+            text = f"all {len(self.rows)} checks passed"
+        else:
+            failed = sum(not r.passed for r in self.rows)
+            text = f"{failed} of {len(self.rows)} checks FAILED"
+        return text
+
+    def incomplete_note(self) -> str:
+        """ "" for a finished store, else what an unfinished one means for the verdict."""
+        if self.complete:
+            return ""
+        return (
+            f"; store INCOMPLETE: {self.tasks_done} of {self.tasks_total} tasks done, "
+            "so these checks cover the finished walkers only (points without any are "
+            "not checked); rerun `sweep run` to finish"
+        )
 
     def to_json(self) -> str:
         return json.dumps(
             {
                 "store": self.store,
+                "compared": self.compared,
                 "passed": self.passed,
+                "verdict": self.verdict(),
+                "complete": self.complete,
+                "tasks_done": self.tasks_done,
+                "tasks_total": self.tasks_total,
                 "z_pass": Z_PASS,
                 "rows": [_finite(asdict(r)) for r in self.rows],
                 "unchecked": [{"point": p, "reason": why} for p, why in self.unchecked],
@@ -105,19 +153,31 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
         if int(ds["walkers_done"][p]) == 0:
             unchecked.append((p, "no finished tasks yet"))
             continue
+        censored = float(mean["censored"][p]) if mean is not None else math.nan
         reason = unsupported(point)
         if reason:
-            unchecked.append((p, reason))
+            if concentric(point) and split is not None and censored == 0.0:
+                rows += _concentric_rows(p, point, split.isel(point=p))
+                unchecked.append((p, "survival and mean: " + reason))
+            else:
+                unchecked.append((p, reason))
             continue
-        rows += _survival_rows(p, point, surv.isel(point=p))
-        if mean is not None and split is not None:
-            censored = float(mean["censored"][p])
-            if censored == 0.0:
-                rows += _mean_rows(p, point, mean.isel(point=p))
-                rows += _splitting_rows(p, point, split.isel(point=p))
-                if cosines is not None:
-                    rows += _exit_rows(p, point, cosines.isel(point=p))
-    return CheckReport(store=name, rows=tuple(rows), unchecked=tuple(unchecked))
+        found = _survival_rows(p, point, surv.isel(point=p))
+        if mean is not None and split is not None and censored == 0.0:
+            found += _mean_rows(p, point, mean.isel(point=p))
+            found += _splitting_rows(p, point, split.isel(point=p))
+            if cosines is not None:
+                found += _exit_rows(p, point, cosines.isel(point=p))
+        if not found:
+            unchecked.append((p, _nothing_comparable(point, censored)))
+        rows += found
+    return CheckReport(
+        store=name,
+        rows=tuple(rows),
+        unchecked=tuple(unchecked),
+        tasks_done=int(ds["done"].sum()),
+        tasks_total=int(ds["done"].size),
+    )
 
 
 # --------------------------------------------------------------------------- which
@@ -130,6 +190,8 @@ def unsupported(point: PointSpec) -> str:
         return "uniform start: no closed form implemented"
     if dom.targets:
         return "absorbing targets: no closed form"
+    if not any(dom.wall_absorbing()):
+        return "no absorbing wall: every walker is censored"
     if dom.shape == "ball":
         if not dom.surface_absorbing:
             return "reflecting ball: nothing absorbs"
@@ -146,6 +208,18 @@ def unsupported(point: PointSpec) -> str:
         if m.drift[i] != 0.0 and reflecting and absorbing:
             return "drift toward a reflecting wall: mirror reflection is not exact"
     return ""
+
+
+def _nothing_comparable(point: PointSpec, censored: float) -> str:
+    """Why a point with closed forms still gave no comparison."""
+    low, high = SURVIVAL_RANGE
+    why = f"the exact survival is outside {low:g}-{high:g} at every stored time"
+    if censored > 0:
+        why += (
+            f"; the mean and splitting are compared only without censored walkers "
+            f"({censored:.1%} censored: lengthen time.horizon)"
+        )
+    return why
 
 
 def _walls(point: PointSpec) -> list[tuple[str, str]]:
@@ -280,6 +354,8 @@ def _mean_rows(p: int, point: PointSpec, mean: xr.Dataset) -> list[CheckRow]:
     if not math.isfinite(exact):
         return []
     est, se = float(mean["estimate"]), float(mean["stderr"])
+    if not (se > 0 and math.isfinite(se)):
+        return []  # fewer than two absorbed walkers: no standard error to judge by
     bias = _allowance(point, exact_mean, exact)
     if point.domain.shape == "ball":
         source = "(R^2 - r0^2) / (2 d D) (Oksendal, Example 7.4.2) [from memory]"
@@ -290,33 +366,90 @@ def _mean_rows(p: int, point: PointSpec, mean: xr.Dataset) -> list[CheckRow]:
     return [_row(p, "mean first-passage time", est, se, exact, source, bias)]
 
 
-def _splitting_rows(p: int, point: PointSpec, split: xr.Dataset) -> list[CheckRow]:
+def _absorbing_axis(point: PointSpec) -> int | None:
+    """The one axis of a box whose two faces absorb while no other face does, else
+    None. Axes are independent in a box (analytic reference D), so the walker leaves
+    through that axis' upper face with the 1-D interval's splitting probability along
+    it, whatever the other axes (reflecting or unbounded) do."""
     m, dom = point.motion, point.domain
-    if (
-        dom.shape != "box"
-        or m.dimension != 1
-        or not (dom.absorbing_low[0] and dom.absorbing_high[0])
-    ):
+    if dom.shape != "box" or dom.targets or m.start is None:
+        return None
+    absorbing = [
+        i for i in range(m.dimension) if dom.absorbing_low[i] or dom.absorbing_high[i]
+    ]
+    if len(absorbing) != 1:
+        return None
+    i = absorbing[0]
+    return i if dom.absorbing_low[i] and dom.absorbing_high[i] else None
+
+
+def _splitting_rows(p: int, point: PointSpec, split: xr.Dataset) -> list[CheckRow]:
+    axis = _absorbing_axis(point)
+    if axis is None:
         return []
-    assert m.start is not None
     exact = _exact_splitting(point)
-    est = float(split["estimate"].sel(wall="x_upper"))
+    wall = point.domain.wall_names()[2 * axis + 1]
+    est = float(split["estimate"].sel(wall=wall))
     n = float(split["n"])
     se = math.sqrt(exact * (1 - exact) / n)
     bias = _allowance(point, _exact_splitting, exact)
     source = "splitting probability (Redner 2001 ch. 2) [from memory]"
-    return [_row(p, "P(exit at x_upper)", est, se, exact, source, bias)]
+    if point.motion.dimension > 1:
+        source += "; axes independent in a box (product rule, analytic reference D)"
+    return [_row(p, f"P(absorbed at {wall})", est, se, exact, source, bias)]
 
 
 def _exact_splitting(point: PointSpec) -> float:
     m, dom = point.motion, point.domain
-    assert m.start is not None
-    length = dom.upper[0] - dom.lower[0]
+    axis = _absorbing_axis(point)
+    assert m.start is not None and axis is not None
+    length = dom.upper[axis] - dom.lower[axis]
     return float(
         analytic.interval_splitting(
-            m.start[0] - dom.lower[0], length, m.diffusivity, m.drift[0]
+            m.start[axis] - dom.lower[axis], length, m.diffusivity, m.drift[axis]
         )
     )
+
+
+def concentric(point: PointSpec) -> bool:
+    """An absorbing ball (d = 2, 3, no drift, a point start) around one target at its
+    centre: the splitting between the two has a closed form (analytic reference J6),
+    though survival and the mean first-passage time have none here."""
+    m, dom = point.motion, point.domain
+    return (
+        dom.shape == "ball"
+        and dom.surface_absorbing
+        and m.dimension in (2, 3)
+        and m.start is not None
+        and all(v == 0.0 for v in m.drift)
+        and len(dom.targets) == 1
+        and tuple(dom.targets[0].center) == tuple(dom.center)
+    )
+
+
+def _concentric_rows(p: int, point: PointSpec, split: xr.Dataset) -> list[CheckRow]:
+    m, dom = point.motion, point.domain
+    assert m.start is not None
+    target = dom.targets[0]
+    r0 = math.dist(m.start, dom.center)
+
+    def exact_of(q: PointSpec) -> float:
+        return analytic.concentric_splitting(
+            r0, target.radius, q.domain.radius, m.dimension
+        )
+
+    exact = exact_of(point)
+    n = float(split["n"])
+    est = float(split["estimate"].sel(wall="target_0"))
+    se = math.sqrt(exact * (1 - exact) / n)
+    # Endpoint monitoring: both spheres move outward (the target inward) by the
+    # shift; only the outer one is moved here, like the other closed forms' columns.
+    bias = _allowance(point, exact_of, exact)
+    source = (
+        "concentric absorbing spheres, harmonic in r (analytic reference J6; "
+        "Redner 2001 ch. 6) [from memory]"
+    )
+    return [_row(p, "P(absorbed at target_0)", est, se, exact, source, bias)]
 
 
 def _exit_geometry(
@@ -392,12 +525,110 @@ def _exit_rows(p: int, point: PointSpec, cosines: xr.Dataset) -> list[CheckRow]:
 # --------------------------------------------------------------------------- text
 
 
-def format_table(
-    report: CheckReport,
-    swept: Sequence[str] = (),
-    values: Sequence[Sequence[object]] = (),
-) -> str:
-    """The report as an aligned text table, one row per comparison."""
+# ------------------------------------------------------------------ parameter names
+
+
+def parameters(sweep: Sweep) -> dict[str, list[object]]:
+    """Every swept parameter by its one name, the store's coordinate name
+    (``diffusivity``, ``upper_x``, ``target_0_radius``), with its value per point;
+    vectors split per axis as in the store. Tables, legends and plots use these."""
+    return coordinate_columns(sweep)
+
+
+def parameter_header(name: str, sweep: Sweep) -> str:
+    """``name [unit]`` for a parameter with units, else the bare name."""
+    quantity = key_quantity(name)
+    return sweep.units.label(name, quantity) if quantity else name
+
+
+def show_value(value: object) -> str:
+    """A parameter value as a table cell (shortest exact float form)."""
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    return str(value)
+
+
+def point_labels(sweep: Sweep) -> list[str]:
+    """``name=value, ...`` per point (legends and point lists), in parameter names;
+    columns that do not vary (the fixed axes of a swept vector) are left out."""
+    columns = {
+        k: v
+        for k, v in parameters(sweep).items()
+        if len({show_value(x) for x in v}) > 1
+    }
+    if not columns:
+        return ["point 0"] * sweep.n_points
+    return [
+        ", ".join(f"{k}={show_value(v[p])}" for k, v in columns.items())
+        for p in range(sweep.n_points)
+    ]
+
+
+def describe(sweep: Sweep) -> str:
+    """What the sweep simulates, in two lines with units: the domain and its walls,
+    the motion, the time stepping, and which parameters vary (values of point 0
+    for those)."""
+    p0 = sweep.points[0]
+    m, dom, tm, u = p0.motion, p0.domain, p0.timing, sweep.units
+
+    def unit(quantity: str) -> str:
+        text = u.of(quantity)
+        return "" if text == "definition units" else f" {text}"
+
+    def vec(values: Sequence[float]) -> str:
+        return "[" + ", ".join(show_value(float(v)) for v in values) + "]"
+
+    kinds = dict(zip(dom.wall_names(), dom.wall_absorbing(), strict=True))
+    if dom.shape == "ball":
+        where = (
+            f"{m.dimension}-D ball, centre {vec(dom.center)}, radius "
+            f"{show_value(dom.radius)}{unit('length')}, "
+            f"{'absorbing' if dom.surface_absorbing else 'reflecting'} wall"
+        )
+    else:
+        sides = ", ".join(
+            f"{name} {'absorbing' if kinds[name] else 'reflecting'}"
+            for name, lo_hi in zip(
+                dom.wall_names(),
+                [v for pair in zip(dom.lower, dom.upper, strict=True) for v in pair],
+                strict=False,
+            )
+            if math.isfinite(lo_hi)
+        )
+        where = (
+            f"{m.dimension}-D box from {vec(dom.lower)} to {vec(dom.upper)}"
+            f"{unit('length')} ({sides})"
+        )
+    if dom.targets:
+        where += "; absorbing targets " + ", ".join(
+            f"target_{i} at {vec(t.center)} radius {show_value(t.radius)}"
+            for i, t in enumerate(dom.targets)
+        )
+    start = "uniform" if m.start is None else vec(m.start)
+    motion = (
+        f"walkers from {start}, diffusivity {show_value(m.diffusivity)}"
+        f"{unit('diffusivity')}"
+    )
+    if any(m.drift):
+        motion += f", drift {vec(m.drift)}{unit('velocity')}"
+    motion += (
+        f"; dt {show_value(tm.dt)}{unit('time')}, horizon "
+        f"{show_value(tm.horizon)}{unit('time')}"
+    )
+    varied = (
+        f"; varied: {', '.join(parameters(sweep))} (values above: point 0)"
+        if sweep.swept
+        else ""
+    )
+    return (
+        f"{sweep.name}: {sweep.n_points} point(s) x {sweep.walkers:,} walkers; "
+        f"{where}\n{motion}{varied}"
+    )
+
+
+def format_table(report: CheckReport, sweep: Sweep | None = None) -> str:
+    """The report as an aligned text table, one row per comparison; with ``sweep``,
+    preceded by each point's parameter values."""
     biased = any(r.allowance for r in report.rows)
     header: tuple[str, ...] = ("point", "statistic", "simulated ± 95% CI", "exact", "z")
     header += ("expected dt bias", "verdict") if biased else ("verdict",)
@@ -415,12 +646,11 @@ def format_table(
             row += (f"{r.allowance:+.3g}" if r.allowance else "0",)
         lines.append((*row, "ok" if r.passed else "FAIL"))
     blocks = []
-    if values and swept:
+    if sweep is not None and sweep.swept:
         blocks.append(
             "points:\n"
             + "\n".join(
-                f"  point {i}: " + ", ".join(f"{k} = {v}" for k, v in zip(swept, vals))
-                for i, vals in enumerate(values)
+                f"  point {i}: {label}" for i, label in enumerate(point_labels(sweep))
             )
         )
     # No header over no rows: it would read like a table that lost its lines.
@@ -428,15 +658,20 @@ def format_table(
     table += [f"{who}: not checked ({why})" for who, why in _unchecked_runs(report)]
     blocks.append("\n".join(table))
     text = "\n\n".join(blocks)
+    unfinished = report.incomplete_note().removeprefix("; ")
+    unfinished = f"\n{unfinished[0].upper()}{unfinished[1:]}." if unfinished else ""
     if not report.rows:
-        return f"{text}\n\n{report.verdict()}."
+        return f"{text}\n\n{report.outcome()}.{unfinished}"
     note = (
         "\nendpoint monitoring lets walkers slip out and back between steps; the expected "
         "bias column is the shifted-wall prediction (not added to the tolerance)."
         if biased
         else ""
     )
-    return f"{text}\n\n{report.verdict()} (|z| <= {Z_PASS:g}; z = (simulated - exact) / standard error){note}"
+    return (
+        f"{text}\n\n{report.outcome()} (|z| <= {Z_PASS:g}; z = (simulated - exact) / "
+        f"standard error){note}{unfinished}"
+    )
 
 
 def text_table(rows: Sequence[Sequence[str]]) -> str:

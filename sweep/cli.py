@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import logging
 import os
+import signal
 import sys
 import warnings
 from collections.abc import Sequence
@@ -19,6 +20,16 @@ from typing import Any
 from sweep.errors import SweepError, SweepWarning
 
 MAX_TABLE_POINTS = 20
+STORE_HELP = "zarr store directory made by `sweep run`"
+
+
+def _version() -> str:
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("brownian-sweep")
+    except PackageNotFoundError:  # a source tree without install
+        return "0+unknown"
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -29,12 +40,15 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument(
         "--traceback", action="store_true", help="show full tracebacks of errors"
     )
+    parser.add_argument("--version", action="version", version=f"sweep {_version()}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
     run = sub.add_parser("run", help="run or resume a sweep into a zarr store")
-    run.add_argument("spec", help="sweep definition (TOML)")
+    run.add_argument("definition", help="sweep definition file (TOML)")
     run.add_argument(
-        "--store", help="zarr store directory (default: <definition name>.zarr)"
+        "--store",
+        help="zarr store directory (default: <definition file name>.zarr in the "
+        "current directory; its absolute path is printed at start and end)",
     )
     where = run.add_mutually_exclusive_group()
     where.add_argument(
@@ -50,7 +64,7 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--quiet", action="store_true", help="no progress line")
 
     status = sub.add_parser("status", help="progress of a store, per point")
-    status.add_argument("store")
+    status.add_argument("store", help=STORE_HELP)
 
     verify = sub.add_parser(
         "verify",
@@ -63,16 +77,16 @@ def build_parser() -> argparse.ArgumentParser:
         help="headline numbers per point: censoring, mean first-passage time, "
         "splitting, with 95 %% intervals",
     )
-    summary.add_argument("store")
+    summary.add_argument("store", help=STORE_HELP)
 
     check = sub.add_parser("check", help="compare a store with analytic results")
-    check.add_argument("store")
+    check.add_argument("store", help=STORE_HELP)
     check.add_argument("--json", action="store_true", help="machine-readable output")
 
     plan = sub.add_parser(
         "plan", help="show the points, tasks and work of a definition"
     )
-    plan.add_argument("spec")
+    plan.add_argument("definition", help="sweep definition file (TOML)")
     plan.add_argument(
         "--cores",
         type=int,
@@ -98,8 +112,16 @@ def build_parser() -> argparse.ArgumentParser:
     )
 
     export = sub.add_parser("export", help="copy a store to an HDF5 file")
-    export.add_argument("store")
-    export.add_argument("out", help="HDF5 file to write")
+    export.add_argument("store", help=STORE_HELP)
+    export.add_argument(
+        "out", help="HDF5 file to write (an existing file is kept unless --replace)"
+    )
+    export.add_argument(
+        "--replace",
+        action="store_true",
+        help="replace OUT if it exists (it is replaced only once the export is "
+        "complete)",
+    )
     export.add_argument(
         "--points", help="point indices to export, e.g. 0,3,5-9 (default: all)"
     )
@@ -108,7 +130,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
 
     report = sub.add_parser("report", help="figures and an HTML page for a store")
-    report.add_argument("store")
+    report.add_argument("store", help=STORE_HELP)
     report.add_argument("--out", required=True, help="directory for the report")
 
     bench = sub.add_parser(
@@ -133,8 +155,19 @@ def build_parser() -> argparse.ArgumentParser:
     bench.add_argument(
         "--spheres",
         action="store_true",
-        help="instead: walkers per CPU-second of time.scheme = spheres over steps "
-        "(reflecting cube with a small target; about a minute)",
+        help="only the rows of time.scheme = spheres: walkers per CPU-second of "
+        "spheres over steps (reflecting cube with a small target; about a minute)",
+    )
+    bench.add_argument(
+        "--no-spheres",
+        action="store_true",
+        help="leave out the spheres-over-steps rows (they are printed last)",
+    )
+    bench.add_argument(
+        "--no-compile-times",
+        action="store_true",
+        help="skip timing each kernel variant's first call in a fresh process with an "
+        "empty cache (about a minute of compiling)",
     )
     return parser
 
@@ -243,11 +276,27 @@ def _compare(args: argparse.Namespace) -> int:
     return 1 if result.flagged else 0
 
 
+def _stop_on_sigterm() -> None:
+    """Take SIGTERM like Ctrl-C: finished tasks are kept and the store's lock released.
+
+    Batch systems end a job (time limit, ``scancel``) with SIGTERM and, some seconds
+    later, SIGKILL. Left to Python's default, SIGTERM kills the driver at once and its
+    lock stays behind; a resubmitted job on another node could not take it. Later
+    SIGTERMs are ignored so that the stop in progress is not cut short.
+    """
+
+    def stop(signum: int, frame: object) -> None:
+        signal.signal(signal.SIGTERM, signal.SIG_IGN)
+        raise KeyboardInterrupt
+
+    signal.signal(signal.SIGTERM, stop)
+
+
 def _run(args: argparse.Namespace) -> int:
     from sweep.spec import load_spec
 
     # Validate before importing dask, numba and xarray: bad input answers in a blink.
-    sweep = load_spec(args.spec)
+    sweep = load_spec(args.definition)
     from sweep.execute import RunOptions, run
 
     # The options next, before the checks' imports (xarray): a bad scheduler option
@@ -262,7 +311,21 @@ def _run(args: argparse.Namespace) -> int:
     from sweep.check import check_dataset, format_table
     from sweep.store import open_dataset
 
-    summary = run(sweep, args.store, options)
+    # Absolute from the start: a relative default silently starts a new store when
+    # run from another directory, so say where the store is.
+    store_path = (
+        Path(args.store or f"{Path(sweep.source).stem}.zarr").expanduser().absolute()
+    )
+    from sweep.check import describe
+    from sweep.report import units_note
+
+    print(f"store: {store_path}")
+    print(describe(sweep))
+    print(units_note(sweep))
+    _warn_plan(sweep)
+    sys.stdout.flush()
+    _stop_on_sigterm()
+    summary = run(sweep, store_path, options)
     if summary.interrupted:
         print(
             f"sweep: stopped; {summary.store} keeps every finished task. Rerun to resume."
@@ -277,7 +340,7 @@ def _run(args: argparse.Namespace) -> int:
         return 130
     done = summary.already_done + summary.completed
     print(
-        f"{summary.store}: {done}/{summary.n_tasks} tasks done "
+        f"store: {summary.store}: {done}/{summary.n_tasks} tasks done "
         f"({summary.completed} now, {summary.already_done} before); "
         f"{summary.walker_steps / 1e6:.1f} M walker-steps in {summary.seconds:.1f} s."
     )
@@ -290,16 +353,26 @@ def _run(args: argparse.Namespace) -> int:
         return 0
     ds = open_dataset(summary.store)
     report = check_dataset(ds, sweep, str(summary.store))
-    print()
-    if report.unchecked:
-        # Points without a closed form get their numbers here; checked points show
-        # theirs in the comparison below.
-        from sweep.report import headline_table
+    from sweep.report import headline_table
 
-        print(headline_table(ds, sweep))
-        print()
-    print(format_table(report, sweep.swept, sweep.values))
-    return 0 if report.passed else 1
+    # The numbers the study is about (censored fraction, mean, splitting per wall),
+    # then the comparison with closed forms where they exist.
+    print()
+    print(headline_table(ds, sweep))
+    print()
+    print(format_table(report, sweep))
+    print(f"\nstore: {summary.store}")
+    return report.exit_code
+
+
+def _warn_plan(sweep: object) -> None:
+    """`sweep plan`'s warnings on the definition's choices (coarse dt, short horizon),
+    repeated before a run starts."""
+    from sweep.sizing import point_warnings
+
+    for i, point in enumerate(sweep.points):  # type: ignore[attr-defined]
+        for warning in point_warnings(i, point):
+            print(f"warning: {warning}")
 
 
 def _status(args: argparse.Namespace) -> int:
@@ -315,13 +388,22 @@ def _status(args: argparse.Namespace) -> int:
         per_point.setdefault(int(m["point"]), []).append(m)  # type: ignore[arg-type]
     holder = store.lock_holder(path)
     print(
-        f"store {path}: sweep {sweep.name!r}, {sweep.n_points} points x {n_c} tasks, spec {attrs['spec_hash'][:12]}"
+        f"store {path}: sweep {sweep.name!r}, {sweep.n_points} points x {n_c} tasks, definition hash {attrs['spec_hash'][:12]}"
     )
     if holder:
         print(
             f"running now: pid {holder.get('pid')} on {holder.get('host')} since {holder.get('started')}"
         )
-    header = ["point", *sweep.swept, "tasks", "walkers", "censored"]
+    from sweep.check import parameter_header, parameters, show_value
+
+    columns = parameters(sweep)
+    header = [
+        "point",
+        *(parameter_header(name, sweep) for name in columns),
+        "tasks",
+        "walkers",
+        "censored",
+    ]
     rows = [header]
     total = 0
     for p in range(sweep.n_points):
@@ -333,7 +415,7 @@ def _status(args: argparse.Namespace) -> int:
         rows.append(
             [
                 str(p),
-                *(str(v) for v in sweep.values[p]),
+                *(show_value(values[p]) for values in columns.values()),
                 f"{len(ms)}/{n_c}",
                 str(walkers),
                 frac,
@@ -380,8 +462,8 @@ def _check(args: argparse.Namespace) -> int:
         print(report.to_json())
     else:
         sweep = load_sweep(args.store)
-        print(format_table(report, sweep.swept, sweep.values))
-    return 0 if report.passed else 1
+        print(format_table(report, sweep))
+    return report.exit_code
 
 
 def _plan(args: argparse.Namespace) -> int:
@@ -389,7 +471,7 @@ def _plan(args: argparse.Namespace) -> int:
     from sweep.sizing import human_bytes, human_seconds, memory_limit, size
     from sweep.spec import load_spec
 
-    sweep = load_spec(args.spec)
+    sweep = load_spec(args.definition)
     plan = make_plan(sweep)
     sizing = size(plan)
     cores = args.cores or os.cpu_count() or 1
@@ -401,7 +483,12 @@ def _plan(args: argparse.Namespace) -> int:
     )
     print(f"  tasks:           {plan.n_tasks:,}")
     if sweep.swept:
+        from sweep.plan import coordinate_columns
+
+        # The definition's key, then the name tables, plots and the store use.
+        names = list(coordinate_columns(sweep))
         print(f"  swept:           {', '.join(sweep.swept)}")
+        print(f"  named:           {', '.join(names)} (in tables, plots and the store)")
     print(
         f"  walker-steps:    about {sizing.walker_steps_expected:.3g} expected, at most "
         f"{sizing.walker_steps_bound:.3g} (no walker absorbed before the horizon)"
@@ -419,6 +506,7 @@ def _plan(args: argparse.Namespace) -> int:
             f"{steps:.3g} steps per walker (pilot of {PILOT_WALKERS} walkers per "
             f"point); a jump counts as {JUMP_STEPS:g} walker-steps above"
         )
+    print(f"                   ({sizing.estimate_note})")
     print(f"  disk:            at most {human_bytes(sizing.disk_bytes)} (uncompressed)")
     limit, where = memory_limit()
     allowed = f" ({where} allows {human_bytes(limit)})" if limit else ""
@@ -458,7 +546,9 @@ def _export(args: argparse.Namespace) -> int:
     variables = (
         [v.strip() for v in args.variables.split(",")] if args.variables else None
     )
-    out = export_hdf5(args.store, args.out, points=points, variables=variables)
+    out = export_hdf5(
+        args.store, args.out, points=points, variables=variables, replace=args.replace
+    )
     print(f"wrote {out}")
     return 0
 
@@ -495,7 +585,11 @@ def _bench(args: argparse.Namespace) -> int:
         DEFAULT_WALKERS,
         HEADER,
         PAIRS,
+        UNITS,
         busy_note,
+        compile_times,
+        end_to_end,
+        end_to_end_line,
         machine_note,
         run_bench,
         thread_line,
@@ -504,13 +598,19 @@ def _bench(args: argparse.Namespace) -> int:
     )
 
     print(
-        f"walker-steps per second on one core, the fastest run (other jobs only slow a "
-        f"run down) of {args.repeats} repetitions;"
+        f"rates on one core in the measuring thread's CPU time, the fastest run (other "
+        f"jobs only slow a run down) of {args.repeats} repetitions;"
     )
     print(
-        f"each repetition runs kernel and ceiling in turn {PAIRS} times, then numpy once;"
+        f"each repetition runs kernel, limit and ceiling in turn {PAIRS} times, then "
+        "numpy's bulk sampler and the numpy walk once;"
     )
-    print("spread: how far the median run fell short of the fastest.")
+    print(
+        "limit: SFC64 kept in registers with the ziggurat, d normals per walker-step, "
+        "summed;\nbulk: numpy's Generator(SFC64).standard_normal(out=...); "
+        "spread: how far the median run fell short of the fastest."
+    )
+    print(UNITS)
     print(HEADER)
     rows, threads = run_bench(
         repeats=args.repeats,
@@ -548,8 +648,19 @@ def _bench(args: argparse.Namespace) -> int:
             f"(rates not kept for `sweep plan`: fewer than {DEFAULT_WALKERS} walkers "
             "per call)"
         )
+    print("\nend to end (start-up and compilation excluded):")
+    e2e = end_to_end(rows, walkers=args.walkers)
+    for e in e2e:
+        print(f"  {end_to_end_line(e)}", flush=True)
+    if not args.no_compile_times:
+        print(
+            "\nfirst call per kernel variant, s (a fresh process; cold: empty numba "
+            "cache, i.e. compiling; cached: its second start):"
+        )
+        for case, cold, cached in compile_times():
+            print(f"  {case:26} cold {cold:6.1f}   cached {cached:5.2f}")
     print("\ntargets:")
-    for name, measured, wanted, met in verdicts(rows, speedup):
+    for name, measured, wanted, met in verdicts(rows, speedup, e2e):
         # One decimal: a ratio of 69.6 % must not print as a "70 %" that is not met.
         shown = f"{measured:.1%}" if wanted < 1 else f"{measured:.2f}x"
         want = f"{wanted:.0%}" if wanted < 1 else f"{wanted:.1f}x"
@@ -559,6 +670,9 @@ def _bench(args: argparse.Namespace) -> int:
     note = busy_note(rows)
     if note:
         print(f"\n{note}")
+    if not args.no_spheres:
+        print("\nspheres scheme over steps (time.scheme = spheres):")
+        _bench_spheres()
     return 0
 
 

@@ -38,7 +38,7 @@ import xarray as xr
 from scipy import special
 
 from sweep import stats
-from sweep.check import text_table
+from sweep.check import parameters, show_value, text_table
 from sweep.errors import CompareError
 from sweep.spec import PointSpec, Sweep
 from sweep.store import load_sweep, open_dataset
@@ -315,10 +315,11 @@ def _proportion_row(
 
 
 def _label(sweep: Sweep, p: int) -> str:
+    # Parameters by their one name (the store's coordinates), as every table shows.
     return ", ".join(
-        f"{key} = {value}"
-        for key, value in zip(sweep.swept, sweep.values[p])
-        if key.rpartition(".")[2] not in REFINABLE_TIME_KEYS
+        f"{name} = {show_value(values[p])}"
+        for name, values in parameters(sweep).items()
+        if name not in REFINABLE_TIME_KEYS
     )
 
 

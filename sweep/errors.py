@@ -29,7 +29,8 @@ class StoreError(SweepError, OSError):
 
 
 class StoreMismatchError(StoreError):
-    """A store was created by a different sweep definition."""
+    """A store was created by a different sweep definition or with other random
+    streams."""
 
 
 class StoreLockedError(StoreError):

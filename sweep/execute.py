@@ -11,7 +11,10 @@ bit-identical whichever is used.
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import errno
+import ipaddress
+import json
 import logging
 import math
 import os
@@ -19,7 +22,7 @@ import socket
 import sys
 import threading
 import time
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -28,7 +31,6 @@ import numpy as np
 
 from kernels import spheres
 from kernels.inputs import allocate
-from kernels.rng import initial_state
 from kernels.walkers import simulate
 from sweep import store
 from sweep.errors import StoreError, SweepError, TaskError
@@ -41,6 +43,9 @@ log = logging.getLogger(__name__)
 #: At most this many tasks per worker thread are in flight on a distributed cluster,
 #: so 10^5 tasks do not flood the scheduler.
 WINDOW_PER_WORKER = 4
+#: Seconds to wait for an existing Dask scheduler before giving up (the environment
+#: variable SWEEP_CONNECT_TIMEOUT overrides it).
+CONNECT_TIMEOUT = 30.0
 
 
 @dataclass(frozen=True)
@@ -144,7 +149,7 @@ def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
         return _simulate_spheres(
             task, out.time, out.wall, out.position, out.survival, out.fpt_hist
         )
-    steps = simulate(task.generator(), n, a.geometry, a.motion, a.recording, out)
+    steps = simulate(task.stream_state(), n, a.geometry, a.motion, a.recording, out)
     n_snap = out.occupancy.shape[0]
     occupancy = None
     if n_snap:
@@ -193,7 +198,7 @@ def simulate_spheres_moves(
     g, m, r = a.geometry, a.motion, a.recording
     moves = np.zeros(2, dtype=np.int64)
     spheres.simulate(
-        initial_state(np.random.SeedSequence(task.entropy)),
+        task.stream_state(),
         task.n_walkers,
         m.start,
         m.uniform_start,
@@ -285,8 +290,66 @@ def run_task(
         }
 
 
-def warm_up(scheme: str = "steps") -> None:
-    """Compile the kernel of ``scheme`` once in the driver before tasks fan out."""
+#: Seconds the warm-up may take before it is announced as compiling (loading
+#: compiled kernels from numba's cache takes about a second on a busy machine;
+#: compiling one takes 5-15 s).
+COMPILE_NOTICE_AFTER = 3.0
+#: Steps of the warm-up's single walker.
+WARM_UP_STEPS = 16
+
+
+def warm_up(
+    task: Task | None = None, announce: bool = False, scheme: str = "steps"
+) -> None:
+    """Compile the kernel loop ``task`` needs (one walker of it; default: a 1-D
+    interval with ``scheme``) in the driver, before tasks fan out.
+
+    With ``announce``, a warm-up that is still running after
+    :data:`COMPILE_NOTICE_AFTER` seconds (numba compiling rather than loading its
+    cache) is said on stderr, and how long it took once done.
+    """
+    if task is not None:
+        # One walker for a few steps: compiling needs a call, not a simulation (a
+        # walker of a fine-dt point could otherwise run for seconds).
+        job = dataclasses.replace(
+            task,
+            n_walkers=1,
+            args=dataclasses.replace(
+                task.args,
+                motion=task.args.motion._replace(
+                    n_steps=min(task.args.motion.n_steps, WARM_UP_STEPS)
+                ),
+            ),
+        )
+    else:
+        job = _tiny_task(scheme)
+    if not announce:
+        simulate_task(job)
+        return
+    start = time.monotonic()
+    failure: list[BaseException] = []
+
+    def compile_it() -> None:
+        try:
+            simulate_task(job)
+        except BaseException as err:  # re-raised in the caller's thread
+            failure.append(err)
+
+    worker = threading.Thread(target=compile_it, name="sweep-warm-up", daemon=True)
+    worker.start()
+    worker.join(COMPILE_NOTICE_AFTER)
+    if worker.is_alive():
+        sys.stderr.write("compiling kernels (first run only)…\n")
+        sys.stderr.flush()
+        while worker.is_alive():
+            worker.join(0.1)  # short waits keep Ctrl-C responsive
+        sys.stderr.write(f"kernels compiled in {time.monotonic() - start:.1f} s.\n")
+        sys.stderr.flush()
+    if failure:
+        raise failure[0]
+
+
+def _tiny_task(scheme: str = "steps") -> Task:
     from sweep.spec import parse_spec
 
     tiny = parse_spec(
@@ -309,7 +372,7 @@ def warm_up(scheme: str = "steps") -> None:
         """,
         source="<warm-up>",
     )
-    simulate_task(make_plan(tiny).tasks[0])
+    return make_plan(tiny).tasks[0]
 
 
 # --------------------------------------------------------------------------- progress
@@ -318,13 +381,23 @@ def warm_up(scheme: str = "steps") -> None:
 class Progress:
     """One status line on stderr: tasks done/total, walker-steps per second, time left."""
 
-    def __init__(self, total: int, done: int, enabled: bool, concurrency: int) -> None:
+    def __init__(
+        self,
+        total: int,
+        done: int,
+        enabled: bool,
+        concurrency: int,
+        started: float | None = None,
+    ) -> None:
         self.total = total
         self.done = done
         self.start_done = done
         self.enabled = enabled
         self.steps = 0
         self.t0 = time.monotonic()
+        #: When the run started (before compiling): "elapsed" counts from here; rates
+        #: and time left from ``t0``, when tasks began.
+        self.started = self.t0 if started is None else started
         self.last = 0.0
         self.tty = sys.stderr.isatty()
         self.concurrency = concurrency
@@ -354,7 +427,7 @@ class Progress:
         bar = "#" * filled + "." * (width - filled)
         line = (
             f"[{bar}] {self.done}/{self.total} tasks  {rate / 1e6:8.2f} M walker-steps/s  "
-            f"elapsed {_duration(elapsed)}  left {eta}"
+            f"elapsed {_duration(now - self.started)}  left {eta}"
         )
         sys.stderr.write(("\r" + line) if self.tty else (line + "\n"))
         sys.stderr.flush()
@@ -416,6 +489,18 @@ def run(
         # Workers of an existing cluster have their own memory; locally we know it.
         local = options.threads or options.processes or os.cpu_count() or 1
         check_memory(sweep, local)
+    # An existing cluster first: nothing is created before a connection exists.
+    client = connect(options) if options.kind == "cluster" else None
+    try:
+        return _run_prepared(plan, store_path, options, client)
+    finally:
+        if client is not None:
+            client.close()
+
+
+def _run_prepared(
+    plan: Any, store_path: str | Path, options: RunOptions, client: Any
+) -> RunSummary:
     path = store.prepare(store_path, plan)
     with store.runner_lock(path):
         removed = store.clean_partials(path)
@@ -439,13 +524,17 @@ def run(
             if options.kind == "threads":
                 _run_threads(path, store_id, pending, options, summary)
             else:
-                _run_distributed(path, store_id, pending, options, summary)
+                _run_distributed(path, store_id, pending, options, summary, client)
         finally:
             summary.seconds = time.monotonic() - start
+            # Counted from the markers: tasks that finished while the run was being
+            # interrupted are done although their results never reached this loop.
+            finished = len(store.done_tasks(path))
             _log_run(
                 path,
-                f"end: {summary.completed} completed, {len(summary.failed)} failed, "
-                f"interrupted={summary.interrupted}",
+                f"end: {finished} of {plan.n_tasks} tasks done "
+                f"({finished - summary.already_done} in this run), "
+                f"{len(summary.failed)} failed, interrupted={summary.interrupted}",
             )
     _raise_failures(summary)
     return summary
@@ -488,8 +577,11 @@ def _run_threads(
     from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
 
     n = options.threads or os.cpu_count() or 1
+    started = time.monotonic()
     stop = threading.Event()
-    progress = Progress(summary.n_tasks, summary.already_done, options.progress, n)
+    progress = Progress(
+        summary.n_tasks, summary.already_done, options.progress, n, started
+    )
     # Tasks running now: on Ctrl-C the pool's threads run on (a running kernel cannot
     # be stopped), so the run waits for them (holding the store's lock) before it
     # returns.
@@ -506,8 +598,11 @@ def _run_threads(
     try:
         try:
             # Inside: a Ctrl-C while compiling is an interruption too.
+            # One warm-up per scheme among the pending tasks: each compiles its own
+            # loops.
             for scheme in sorted({t.args.scheme for t in pending}):
-                warm_up(scheme)
+                first = next(t for t in pending if t.args.scheme == scheme)
+                warm_up(first, announce=options.progress)
             in_flight = {pool.submit(counted, t) for t in _take(queue, window)}
             while in_flight:
                 finished, in_flight = wait(in_flight, return_when=FIRST_COMPLETED)
@@ -564,41 +659,74 @@ class _Counter:
                 self._changed.wait(0.1)
 
 
+def connect_timeout() -> float:
+    """Seconds to wait for an existing scheduler (``$SWEEP_CONNECT_TIMEOUT``, else
+    :data:`CONNECT_TIMEOUT`)."""
+    try:
+        return float(os.environ.get("SWEEP_CONNECT_TIMEOUT", CONNECT_TIMEOUT))
+    except ValueError:
+        return CONNECT_TIMEOUT
+
+
+def connect(options: RunOptions) -> Any:
+    """A ``distributed.Client`` of the existing cluster ``options`` names; says
+    where it connects (stderr) and fails with one message after
+    :func:`connect_timeout` seconds."""
+    from distributed import Client
+
+    where = options.scheduler_file or options.scheduler
+    _warn_if_open(options)
+    timeout = connect_timeout()
+    sys.stderr.write(f"connecting to the Dask scheduler {where} …\n")
+    sys.stderr.flush()
+    try:
+        if options.scheduler_file is not None:
+            return Client(scheduler_file=options.scheduler_file, timeout=timeout)
+        return Client(options.scheduler, timeout=timeout)
+    except (OSError, TimeoutError, ValueError) as err:
+        raise SweepError(
+            f"cannot connect to the Dask scheduler {where} within {timeout:g} s: "
+            f"{err}. Check that it runs and that this machine can reach it (or set "
+            f"SWEEP_CONNECT_TIMEOUT for a slow one); nothing was created or changed."
+        ) from None
+
+
+@contextlib.contextmanager
+def _quiet_dask() -> Iterator[None]:
+    """Dask's own messages at WARNING and above during a run, unless the user set a
+    level (``DASK_LOGGING__DISTRIBUTED=info``, Dask's configuration variable)."""
+    import distributed  # noqa: F401  (its import sets its loggers' levels: first)
+
+    if "DASK_LOGGING__DISTRIBUTED" in os.environ:
+        yield
+        return
+    logger = logging.getLogger("distributed")
+    before = logger.level
+    logger.setLevel(max(before, logging.WARNING))
+    try:
+        yield
+    finally:
+        logger.setLevel(before)
+
+
+@_quiet_dask()
 def _run_distributed(
     path: Path,
     store_id: str,
     pending: list[Task],
     options: RunOptions,
     summary: RunSummary,
+    client: Any = None,
 ) -> None:
-    import dask
-    from distributed import Client, LocalCluster, as_completed
+    from distributed import Client, as_completed
 
     stop = threading.Event()
     cluster = None
     if options.processes is not None:
-        # Tasks that kill their worker are retried a few times, then reported.
-        with dask.config.set({"distributed.scheduler.allowed-failures": 3}):
-            cluster = LocalCluster(
-                n_workers=options.processes,
-                threads_per_worker=1,
-                processes=True,
-                dashboard_address=None,
-                host="127.0.0.1",
-            )
-        client = Client(cluster)
-    else:
-        where = options.scheduler_file or options.scheduler
-        try:
-            if options.scheduler_file is not None:
-                client = Client(scheduler_file=options.scheduler_file, timeout="60s")
-            else:
-                client = Client(options.scheduler, timeout="60s")
-        except (OSError, TimeoutError, ValueError) as err:
-            raise SweepError(
-                f"cannot connect to the Dask scheduler {where}: {err}. Check that it "
-                f"runs and that this machine can reach it; the store is unchanged."
-            ) from None
+        cluster = _local_cluster(options.processes)
+        client = Client(cluster)  # with the cluster's credentials
+        client.register_plugin(_no_http_server(), name="sweep-no-http-server")
+    own_client = cluster is not None
     try:
         n_threads = max(1, sum(client.nthreads().values()))
         progress = Progress(
@@ -649,9 +777,145 @@ def _run_distributed(
                     client.cancel(outstanding, force=True)
             progress.close()
     finally:
-        client.close()
-        if cluster is not None:
-            cluster.close()
+        with _hushed(summary.interrupted):
+            if cluster is not None and summary.interrupted:
+                # Workers stopped mid-task report the tasks they drop: expected here.
+                with contextlib.suppress(Exception):
+                    client.run(_hush_logging)
+            if own_client:  # a cluster's client is closed by `run`, which opened it
+                client.close()
+            if cluster is not None:
+                if summary.interrupted:
+                    # Workers first, while the scheduler is up: a worker still in
+                    # a task would otherwise log tracebacks about a lost scheduler.
+                    cluster.sync(_close_workers, cluster)
+                cluster.close()
+
+
+@contextlib.contextmanager
+def _hushed(stopping: bool) -> Iterator[None]:
+    """When a run stops mid-task, closing cuts connections in use and Dask logs
+    tracebacks about them that tell the user nothing: keep only critical messages."""
+    if not stopping:
+        yield
+        return
+    loggers = [logging.getLogger(n) for n in ("distributed", "tornado", "asyncio")]
+    before = [logger.level for logger in loggers]
+    for logger in loggers:
+        logger.setLevel(logging.CRITICAL)
+    try:
+        yield
+    finally:
+        for logger, level in zip(loggers, before):
+            logger.setLevel(level)
+
+
+def _local_cluster(n_workers: int) -> Any:
+    """A ``LocalCluster`` that only this process can use.
+
+    Without credentials, anyone on the machine who finds the scheduler's port (it is in
+    Dask's log) could connect and run code in the workers as the user of the run. So:
+    TLS with a certificate made for this run alone (kept in memory, handed to the
+    worker processes by their nannies), every socket on 127.0.0.1, and no HTTP server.
+    Dask opens one on the scheduler (port 8787) and on each worker even without a
+    dashboard: it serves no routes here and is closed once the cluster is up.
+    """
+    import dask
+    from distributed import LocalCluster
+    from distributed.security import Security
+
+    # Tasks that kill their worker are retried a few times, then reported.
+    with dask.config.set(
+        {
+            "distributed.scheduler.allowed-failures": 3,
+            "distributed.scheduler.http.routes": [],
+            "distributed.worker.http.routes": [],
+        }
+    ):
+        cluster = LocalCluster(
+            n_workers=n_workers,
+            threads_per_worker=1,
+            processes=True,
+            host="127.0.0.1",
+            protocol="tls://",
+            security=Security.temporary(),
+            dashboard_address="127.0.0.1:0",  # None would mean port 8787
+            scheduler_kwargs={"dashboard": False},
+            silence_logs=logging.WARNING,
+        )
+    cluster.sync(_stop_http_server, cluster.scheduler)
+    return cluster
+
+
+def _hush_logging() -> None:
+    logging.getLogger("distributed").setLevel(logging.CRITICAL)
+
+
+async def _close_workers(cluster: Any) -> None:
+    import asyncio
+
+    await asyncio.gather(*(w.close(timeout=2) for w in cluster.workers.values()))
+
+
+async def _stop_http_server(server: Any) -> None:
+    server.http_server.stop()
+
+
+def _no_http_server() -> Any:
+    """A worker plugin closing each worker's HTTP port as it joins (a worker restarted
+    after a crash opens a new one). Made here: distributed is imported only when used."""
+    from distributed.diagnostics.plugin import WorkerPlugin
+
+    class NoHttpServer(WorkerPlugin):
+        async def setup(self, worker: Any) -> None:
+            worker.http_server.stop()
+
+    return NoHttpServer()
+
+
+def _warn_if_open(options: RunOptions) -> None:
+    """Warn when an existing cluster's scheduler is open to others (plain TCP, not on
+    this machine)."""
+    where = options.scheduler_file or options.scheduler
+    address = options.scheduler
+    if options.scheduler_file is not None:
+        try:
+            address = json.loads(Path(options.scheduler_file).read_text())["address"]
+        except (OSError, ValueError, KeyError, TypeError):
+            address = None  # the connection says what is wrong
+    if address is not None and not _private_address(address):
+        log.warning(
+            "the Dask scheduler %s (from %s) is not encrypted and not on this "
+            "machine: anyone who can reach it can run code in its workers as you. "
+            'Start it with TLS (README, "Clusters and batch systems"; '
+            "sweeps/hpc/slurm-job.sh does).",
+            address,
+            where,
+        )
+
+
+def _private_address(address: str) -> bool:
+    """True for a ``tls://`` address (it authenticates) or one on the loopback."""
+    from distributed.comm.addressing import get_address_host, parse_address
+
+    try:
+        scheme, _ = parse_address(address)
+        if scheme in ("tls", "inproc"):
+            return True
+        host = get_address_host(address)
+    except (ValueError, TypeError):
+        return False
+    try:
+        return ipaddress.ip_address(host.strip("[]")).is_loopback
+    except ValueError:
+        pass
+    try:
+        infos = socket.getaddrinfo(host, None)
+    except OSError:
+        return False
+    return bool(infos) and all(
+        ipaddress.ip_address(info[4][0]).is_loopback for info in infos
+    )
 
 
 def _take(queue: Iterable[Task], n: int) -> list[Task]:

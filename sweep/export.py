@@ -49,6 +49,7 @@ def export_hdf5(
     points: Sequence[int] | None = None,
     variables: Sequence[str] | None = None,
     compression: str | None = "gzip",
+    replace: bool = False,
 ) -> Path:
     """Copy a store to an HDF5 file.
 
@@ -65,12 +66,18 @@ def export_hdf5(
         Variables to export (default: every data variable present).
     compression : str or None
         HDF5 filter for the datasets ("gzip", "lzf" or None).
+    replace : bool
+        Replace ``out`` if it exists. Without it an existing file (of any kind: a
+        definition, another export) is refused and left as it is.
 
     Returns
     -------
     Path
         ``out``.
     """
+    out = Path(out)
+    if not replace:
+        _refuse_existing(out)
     ds = store.open_dataset(path, verify=True)
     attrs = store.read_attrs(path)
     n_points = ds.sizes["point"]
@@ -90,7 +97,6 @@ def export_hdf5(
                 f"{', '.join(names)}."
             )
         names = list(variables)
-    out = Path(out)
     parent = out.absolute().parent
     if not parent.is_dir():
         raise StoreError(
@@ -108,7 +114,20 @@ def export_hdf5(
             for name in names:
                 _write_variable(h5, name, ds[name], compression)
             _write_scales(h5, ds, names)
-        os.replace(tmp, out)
+        if replace:
+            os.replace(tmp, out)
+        else:
+            # A hard link fails if ``out`` appeared meanwhile: never overwritten.
+            try:
+                os.link(tmp, out)
+            except FileExistsError:
+                _refuse_existing(out)
+                raise
+            except OSError:  # no hard links on this file system
+                _refuse_existing(out)
+                os.replace(tmp, out)
+            else:
+                tmp.unlink()
     except OSError as err:
         with contextlib.suppress(OSError):
             tmp.unlink(missing_ok=True)
@@ -121,6 +140,14 @@ def export_hdf5(
             tmp.unlink(missing_ok=True)
         raise
     return out
+
+
+def _refuse_existing(out: Path) -> None:
+    if out.exists() or out.is_symlink():
+        raise StoreError(
+            f"{out}: already exists; the export leaves it as it is. Choose another "
+            f"output path, or pass --replace to overwrite it."
+        )
 
 
 def _write_attrs(h5: h5py.File, attrs: dict[str, Any], ds: xr.Dataset) -> None:

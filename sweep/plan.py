@@ -21,10 +21,12 @@ from kernels import inputs
 from sweep.analytic import centre_exit_table
 from sweep.spec import PointSpec, Sweep, axis_names
 
-#: The bit generator of every task's stream. SFC64 (a small fast chaotic generator with
-#: a 64-bit counter; passes PractRand and TestU01 per numpy's documentation) draws
-#: normals inside numba kernels about 1.15-1.35x as fast as PCG64 on the development
-#: machines (DEVELOPERS.md, "Kernels"); streams come from SeedSequence as before.
+#: The generator of every task's stream, as numpy names it. SFC64 (a small fast chaotic
+#: generator with a 64-bit counter; passes PractRand and TestU01 per numpy's
+#: documentation): the kernel keeps its four words in local variables
+#: (kernels/rng.py), seeded from the task's SeedSequence exactly as
+#: ``np.random.SFC64`` seeds itself, so ``Generator(BIT_GENERATOR(seq))`` draws the
+#: same numbers (DEVELOPERS.md, "Kernels").
 BIT_GENERATOR = np.random.SFC64
 
 #: The spheres scheme jumps while a walker's protective radius exceeds HANDOVER
@@ -86,9 +88,14 @@ class Task:
     def name(self) -> str:
         return f"point {self.point}, chunk {self.chunk}"
 
-    def generator(self) -> np.random.Generator:
-        """A fresh Generator for this task (never share one between threads)."""
-        return np.random.Generator(BIT_GENERATOR(np.random.SeedSequence(self.entropy)))
+    def stream_state(self) -> NDArray[np.uint64]:
+        """A fresh copy of this task's random stream for the kernel: SFC64's state,
+        uint64 (4,), seeded from the task's SeedSequence as ``SFC64`` seeds itself
+        (``kernels.rng.initial_state``); the kernel advances it in place, so never
+        share one between threads."""
+        from kernels.rng import initial_state  # numba: imported only when running
+
+        return initial_state(np.random.SeedSequence(self.entropy))
 
 
 @dataclass(frozen=True)

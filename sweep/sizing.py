@@ -7,6 +7,7 @@ kernel speed, cached by ``sweep bench`` or measured here in about a second.
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 import json
 import math
@@ -14,6 +15,8 @@ import os
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
+
+import numpy as np
 
 from sweep.errors import PlanError
 from sweep.plan import Plan, Task, make_plan
@@ -48,6 +51,9 @@ class Sizing:
     task_memory_bytes: float
     rate_per_core: float
     warnings: tuple[str, ...] = field(default=())
+    #: How the expected work was found: "closed forms", "pilot" (some points had
+    #: none and were sampled), with a sentence for `sweep plan`.
+    estimate_note: str = ""
 
     def run_seconds(self, cores: int) -> float:
         return self.walker_steps_expected / (self.rate_per_core * max(cores, 1))
@@ -133,8 +139,9 @@ def sphere_moves(point: PointSpec) -> tuple[float, float]:
     return float(moves[0]) / n, float(moves[1]) / n
 
 
-def expected_steps(point: PointSpec) -> float:
-    """Expected steps per walker: mean first-passage time capped by the horizon.
+def expected_steps(point: PointSpec) -> float | None:
+    """Expected steps per walker: mean first-passage time capped by the horizon, or
+    None where no closed form (nor rule of thumb) gives the mean.
 
     For the spheres scheme: step-equivalents, the pilot's steps plus its jumps
     weighted by :data:`JUMP_STEPS`.
@@ -150,15 +157,15 @@ def expected_steps(point: PointSpec) -> float:
     if narrow is not None:
         return float(min(narrow / point.timing.dt, horizon_steps))
     if check.unsupported(point):
-        return float(horizon_steps)
+        return None
     try:
         mean = check.exact_mean(point)
     except (NotImplementedError, ValueError):
-        return float(horizon_steps)
+        return None
     return float(min(mean / point.timing.dt, horizon_steps))
 
 
-def _expected_per_point(sweep: Sweep) -> list[float]:
+def _expected_per_point(sweep: Sweep) -> list[float | None]:
     """:func:`expected_steps` of every point; spheres points beyond
     :data:`PILOT_POINTS` (evenly spaced) are priced at the mean of those piloted."""
     spheres = [i for i, p in enumerate(sweep.points) if p.timing.scheme == "spheres"]
@@ -170,9 +177,43 @@ def _expected_per_point(sweep: Sweep) -> list[float]:
         for i, p in enumerate(sweep.points)
     ]
     if piloted:
-        mean = sum(out[i] for i in piloted) / len(piloted)
-        out = [mean if math.isnan(v) else v for v in out]
+        mean = sum(float(out[i] or 0.0) for i in piloted) / len(piloted)
+        out = [mean if v is not None and math.isnan(v) else v for v in out]
     return out
+
+
+#: A pilot runs this many walkers of a point without a closed form ...
+STEP_PILOT_WALKERS = 256
+#: ... for at most this many walker-steps (it stops them at an earlier horizon) ...
+STEP_PILOT_BUDGET = 1e7
+#: ... at up to this many such points, evenly spread (the others are scaled from
+#: them by their horizons).
+STEP_PILOT_POINTS = 4
+
+
+def pilot_steps(plan: Plan, point: int) -> tuple[float, float]:
+    """(low, high) bounds of the mean steps per walker of ``point``, from a pilot of
+    :data:`STEP_PILOT_WALKERS` walkers of its first task's random stream, stopped after
+    :data:`STEP_PILOT_BUDGET` walker-steps in all. Equal bounds when the pilot
+    reached the point's horizon; otherwise walkers still free at the pilot's
+    earlier stop may take anything up to the remaining steps."""
+    from sweep.execute import simulate_task
+
+    task = next(t for t in plan.tasks if t.point == point)
+    horizon = task.args.motion.n_steps
+    cap = int(max(1, min(horizon, STEP_PILOT_BUDGET // STEP_PILOT_WALKERS)))
+    walkers = min(STEP_PILOT_WALKERS, task.n_walkers)
+    pilot = dataclasses.replace(
+        task,
+        n_walkers=walkers,
+        args=dataclasses.replace(
+            task.args, motion=task.args.motion._replace(n_steps=cap)
+        ),
+    )
+    output, steps = simulate_task(pilot)
+    mean = steps / walkers
+    free = float(np.count_nonzero(output.wall < 0)) / walkers
+    return mean, mean + free * (horizon - cap)
 
 
 def _narrow_escape_time(point: PointSpec) -> float | None:
@@ -329,7 +370,43 @@ def _axes(dimension: int) -> list[str]:
 def size(plan: Plan) -> Sizing:
     """Everything ``sweep plan`` prints about ``plan``."""
     sweep = plan.sweep
-    expected = sum(_expected_per_point(sweep)) * sweep.walkers
+    per_point = _expected_per_point(sweep)
+    unknown = [i for i, e in enumerate(per_point) if e is None]
+    note = "from closed forms of the mean first-passage time"
+    if unknown:
+        picks = sorted(
+            {
+                unknown[round(k)]
+                for k in np.linspace(0, len(unknown) - 1, STEP_PILOT_POINTS)
+            }
+        )
+        bounds = {i: pilot_steps(plan, i) for i in picks}
+        capped = any(high > low for low, high in bounds.values())
+        # Points not piloted: the piloted points' mean share of their horizons.
+        share = float(
+            np.mean(
+                [
+                    high / sweep.points[i].timing.n_steps
+                    for i, (_, high) in bounds.items()
+                ]
+            )
+        )
+        for i in unknown:
+            per_point[i] = (
+                bounds[i][1] if i in bounds else share * sweep.points[i].timing.n_steps
+            )
+        note = (
+            f"{len(unknown)} of {sweep.n_points} points have no closed form: estimated "
+            f"from a pilot of {STEP_PILOT_WALKERS} walkers at {len(picks)} of them"
+            + ("" if len(picks) == len(unknown) else " (the others scaled by horizon)")
+            + (
+                "; some pilot walkers were still free when it stopped, so this is "
+                "an upper bound"
+                if capped
+                else ""
+            )
+        )
+    expected = sum(float(e) for e in per_point if e is not None) * sweep.walkers
     warnings: list[str] = []
     for i, point in enumerate(sweep.points):
         warnings += point_warnings(i, point)
@@ -354,6 +431,7 @@ def size(plan: Plan) -> Sizing:
         task_memory_bytes=task_memory(sweep),
         rate_per_core=rate,
         warnings=tuple(warnings),
+        estimate_note=note,
     )
 
 

@@ -64,7 +64,7 @@ MAX_FPT_BINS = 1_000_000
 DEFAULT_SURVIVAL_POINTS = 101
 
 SECTIONS: dict[str, tuple[str, ...]] = {
-    "sweep": ("name", "seed", "walkers", "chunk", "description"),
+    "sweep": ("name", "seed", "walkers", "chunk", "description", "units"),
     "motion": ("dimension", "diffusivity", "drift", "start"),
     "time": ("dt", "horizon", "monitoring", "scheme"),
     "domain": (
@@ -143,7 +143,7 @@ class Domain:
         """Names of every wall in the order of stored wall indices.
 
         Box faces ``<axis>_lower``, ``<axis>_upper`` come first (also reflecting ones, so
-        indices do not depend on wall kinds), then ``target_<i>``, then ``surface``
+        indices do not depend on wall kinds), then ``target_<i>``, then ``wall``
         for a ball.
         """
         names: list[str] = []
@@ -152,7 +152,7 @@ class Domain:
                 names += [f"{axis}_lower", f"{axis}_upper"]
         names += [f"target_{i}" for i in range(len(self.targets))]
         if self.shape == "ball":
-            names.append("surface")
+            names.append("wall")
         return tuple(names)
 
     def wall_absorbing(self) -> tuple[bool, ...]:
@@ -259,6 +259,71 @@ class PointSpec:
         )
 
 
+#: What is shown in place of a unit the definition does not name.
+NO_UNITS = "definition units"
+
+#: Powers of (length, time) of every quantity that carries units; the dotted keys of
+#: the definition map to these through :func:`key_quantity`.
+QUANTITIES: dict[str, tuple[int, int]] = {
+    "length": (1, 0),
+    "time": (0, 1),
+    "diffusivity": (2, -1),
+    "velocity": (1, -1),
+    "rate": (0, -1),
+}
+
+
+@dataclass(frozen=True)
+class Units:
+    """The definition's units (``[sweep] units = { length = "um", time = "s" }``):
+    free text, a label only (numbers are in these units; nothing is converted).
+    An empty string: not named."""
+
+    length: str = ""
+    time: str = ""
+
+    def of(self, quantity: str, per_length_power: int = 0) -> str:
+        """The unit of a quantity of :data:`QUANTITIES` as text ("um^2/s"), or
+        :data:`NO_UNITS` when a unit it needs is not named. ``per_length_power``
+        divides by length to that power (densities per volume)."""
+        length, time = QUANTITIES[quantity]
+        length -= per_length_power
+        if (length and not self.length) or (time and not self.time):
+            return NO_UNITS
+        top = [_power(self.length, length)] if length > 0 else []
+        top += [_power(self.time, time)] if time > 0 else []
+        bottom = [_power(self.length, -length)] if length < 0 else []
+        bottom += [_power(self.time, -time)] if time < 0 else []
+        text = " ".join(top) or "1"
+        return f"{text}/{' '.join(bottom)}" if bottom else text
+
+    def label(self, name: str, quantity: str, per_length_power: int = 0) -> str:
+        """``name [unit]`` for axis labels and table headers."""
+        return f"{name} [{self.of(quantity, per_length_power)}]"
+
+
+def _power(unit: str, power: int) -> str:
+    return unit if power == 1 else f"{unit}^{power}"
+
+
+def key_quantity(key: str) -> str | None:
+    """The quantity (a key of :data:`QUANTITIES`) of a dotted definition key or a
+    store coordinate name, or None for dimensionless ones (wall kinds, counts)."""
+    leaf = key.split(".")[-1]
+    leaf = leaf.removeprefix("target_").lstrip("0123456789_")
+    for axis_suffix in ("_x", "_y", "_z"):
+        leaf = leaf.removesuffix(axis_suffix)
+    if leaf in ("diffusivity",):
+        return "diffusivity"
+    if leaf in ("drift", "reactivity"):
+        return "velocity"
+    if leaf in ("start", "lower", "upper", "center", "radius", "length"):
+        return "length"
+    if leaf in ("dt", "horizon", "time", "stop", "times"):
+        return "time"
+    return None
+
+
 @dataclass(frozen=True)
 class Sweep:
     """A validated sweep: the points to simulate and how many walkers each gets.
@@ -289,6 +354,8 @@ class Sweep:
     canonical: dict[str, Any] = field(compare=False, repr=False)
     #: The definition's TOML text, stored with the results for provenance.
     text: str = field(default="", compare=False, repr=False)
+    #: Units of length and time the definition names (labels for tables and plots).
+    units: Units = Units()
 
     @property
     def n_points(self) -> int:
@@ -550,6 +617,7 @@ class _Parser:
             raise self.fail(
                 "sweep.description", f"must be a string; got {_toml(description)}."
             )
+        units = self.units(head.get("units", {}))
         seed = self.integer(
             self.required(head, "seed", "sweep"), "sweep.seed", minimum=0
         )
@@ -616,7 +684,11 @@ class _Parser:
             {
                 # The name is a label, not part of the hash: renaming the file (its
                 # default name) must not block resuming.
-                "sweep": {"seed": seed, "walkers": walkers, "chunk": chunk},
+                "sweep": {"seed": seed, "walkers": walkers, "chunk": chunk}
+                # Units enter the hash only when named, so definitions without them
+                # keep their hash (and their stores); a store in "um" is not resumed
+                # as one in "mm".
+                | ({"units": dataclasses.asdict(units)} if units != Units() else {}),
                 "point0": points[0].canonical(),
                 "swept": list(swept),
                 # Every sweepable number is a float: 1 and 1.0 are the same point.
@@ -633,7 +705,27 @@ class _Parser:
             points=tuple(points),
             values=tuple(values),
             canonical=canonical,
+            units=units,
         )
+
+    def units(self, raw: Any) -> Units:
+        """``[sweep] units = { length = "um", time = "s" }``: free text, each optional."""
+        if not isinstance(raw, dict):
+            raise self.fail(
+                "sweep.units",
+                f'must be a table like {{ length = "um", time = "s" }}; got {_toml(raw)}.',
+            )
+        self.keys(raw, ("length", "time"), "sweep.units")
+        named = {}
+        for key, value in raw.items():
+            if not isinstance(value, str) or not value.strip() or len(value) > 40:
+                raise self.fail(
+                    f"sweep.units.{key}",
+                    f'must be a short non-empty text such as "um" or "s"; got '
+                    f"{_toml(value)}.",
+                )
+            named[key] = value.strip()
+        return Units(**named)
 
     def axes(
         self, raw: dict[str, Any]

@@ -90,6 +90,11 @@ def mean_first_passage_time(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
         mean = (counts * mid).sum("fpt_bin") / n
         var = (counts * (mid - mean) ** 2).sum("fpt_bin") / (n - 1) + width**2 / 12
         out = _interval(mean, np.sqrt(var / n), n, level)
+    # One absorbed walker has no spread to estimate: its interval is every possible
+    # mean, [0, inf), rather than NaN, so it still contains the estimate.
+    single = out["n"] == 1
+    out["lower"] = out["lower"].where(~single, 0.0)
+    out["upper"] = out["upper"].where(~single, np.inf)
     out["censored"] = censored_fraction(ds)
     # A point without finished walkers (a store still running) is NaN by design;
     # dask's threads ignore np.errstate, so its 0/0 warning is filtered here.
@@ -119,14 +124,24 @@ def wilson_interval(successes: Any, n: Any, level: float = LEVEL) -> tuple[Any, 
     Returns
     -------
     (lower, upper)
-        Of the broadcast shape of ``successes`` and ``n``.
+        Of the broadcast shape of ``successes`` and ``n``; always
+        ``0 <= lower <= successes / n <= upper <= 1`` (NaN where ``n`` is 0).
+
+    Notes
+    -----
+    At p = 0 and p = 1 the formula's bound equals p exactly in real arithmetic, but in
+    floating point ``centre + half`` can land an ulp below 1 (and ``centre - half`` an
+    ulp above 0), so an interval would miss its own estimate; the bounds are therefore
+    widened to contain p and clipped to [0, 1].
     """
     z = z_value(level)
     with np.errstate(invalid="ignore", divide="ignore"):
         p = successes / n
         centre = (p + z * z / (2 * n)) / (1 + z * z / n)
         half = z / (1 + z * z / n) * np.sqrt(p * (1 - p) / n + z * z / (4 * n * n))
-    return centre - half, centre + half
+        lower = np.clip(np.minimum(centre - half, p), 0.0, 1.0)
+        upper = np.clip(np.maximum(centre + half, p), 0.0, 1.0)
+    return lower, upper
 
 
 def _binned_density(
@@ -276,7 +291,10 @@ def _result(
         else:
             value = np.asarray(value)
             data[name] = (dims[: value.ndim], value)
-    out = xr.Dataset(data, coords=_point_coords(ds))
+    # A result variable of a coordinate's name (restricted_mean's ``horizon``)
+    # replaces that coordinate.
+    point_coords = {k: v for k, v in _point_coords(ds).items() if k not in data}
+    out = xr.Dataset(data, coords=point_coords)
     if coords:
         out = out.assign_coords(coords)
     out.attrs = dict(attrs or {})
@@ -442,13 +460,12 @@ def _bin_rows(
 def _horizon(ds: xr.Dataset, horizon: Any = None) -> NDArray[np.float64] | None:
     """The censoring horizon per point, or None if the Dataset does not record it.
 
-    In order: the ``horizon`` argument; the store's ``censoring_time``; a ``horizon``
-    variable or coordinate (a swept ``time.horizon``); ``ds.attrs["horizon"]``; the span of the stored first-passage
-    histogram (n_bins x bin width covers [0, horizon]).
+    In order: the ``horizon`` argument; the store's ``horizon`` coordinate (snapped
+    to the step grid; a swept ``time.horizon`` as the definition wrote it);
+    ``ds.attrs["horizon"]``; the span of the stored first-passage histogram (n_bins x
+    bin width covers [0, horizon]).
     """
     n_points = ds.sizes["point"]
-    if horizon is None and "censoring_time" in ds.variables:
-        horizon = ds["censoring_time"].values
     if horizon is None and "horizon" in ds.variables:
         horizon = ds["horizon"].values
     if horizon is None and "horizon" in ds.attrs:
@@ -1477,8 +1494,12 @@ def summary(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
     Returns
     -------
     xarray.Dataset
-        dims (point,) and (point, wall): ``walkers``, ``censored``, ``mean_fpt``,
-        ``mean_fpt_stderr``, ``mean_fpt_lower``, ``mean_fpt_upper``, ``splitting``,
+        dims (point,) and (point, wall): ``walkers`` (int64), ``censored``,
+        ``mean_fpt``, ``mean_fpt_censored`` (bool: some walkers censored, so
+        ``mean_fpt`` is over absorbed walkers only, a lower bound of the full mean),
+        ``mean_fpt_stderr``, ``mean_fpt_lower``, ``mean_fpt_upper``, ``splitting``
+        (fraction of all finished walkers absorbed at the wall, unconditional on
+        absorption: censored walkers count at no wall),
         ``splitting_stderr``, ``splitting_lower``, ``splitting_upper``,
         ``survival_end``. Select one point with ``.isel(point=p)``.
 
@@ -1500,10 +1521,19 @@ def summary(ds: xr.Dataset, level: float = LEVEL) -> xr.Dataset:
             f"first_passage_time, absorbing_wall and survival together; got {got}. "
             f"Pass the Dataset, not one of its variables."
         )
-    out = _result(ds, ("point",), {"walkers": _walkers(ds)})
+    walkers = np.asarray(ds["walkers_done"].values, dtype=np.int64).reshape(-1)
+    out = _result(ds, ("point",), {"walkers": walkers})
     if "first_passage_time" in ds or "fpt_histogram" in ds:
         mean = mean_first_passage_time(ds, level)
-        out["censored"] = ("point", np.asarray(mean["censored"].values, np.float64))
+        censored = np.asarray(mean["censored"].values, np.float64)
+        out["censored"] = ("point", censored)
+        # The CLI's `*`: a mean over absorbed walkers only, a lower bound of the
+        # unconditional mean. False where nothing is finished (the mean is NaN).
+        out["mean_fpt_censored"] = ("point", censored > 0)
+        out["mean_fpt_censored"].attrs["description"] = (
+            "True where some walkers were censored: mean_fpt is then over absorbed "
+            "walkers only, a lower bound of the full mean first-passage time"
+        )
         for key, name in (
             ("estimate", "mean_fpt"),
             ("stderr", "mean_fpt_stderr"),

@@ -11,7 +11,9 @@ The only module that imports zarr. Rules it keeps (see DEVELOPERS.md, "Store"):
   files (zarr does not write chunks that are all fill value);
 * one runner at a time holds ``_lock.json``; a lock left by a dead process on this host
   is taken over with a notice;
-* a store made by another definition is refused with the differences listed;
+* a store made by another definition is refused with the differences listed, and one
+  made with other random streams (:data:`kernels.STREAM_VERSION`) with both versions
+  named;
 * nothing is read as numbers without proof: ``_seal.json`` (written at creation) holds
   the store's random id and the checksum of every file the driver wrote, each marker
   the store's id and the size and checksum of every chunk file its task wrote (or
@@ -45,6 +47,7 @@ import xarray as xr
 import zarr
 from numpy.typing import NDArray
 
+from kernels import STREAM_VERSION
 from sweep.errors import (
     StaleStoreError,
     StoreDamagedError,
@@ -53,7 +56,7 @@ from sweep.errors import (
     StoreMismatchError,
 )
 from sweep.plan import BIT_GENERATOR, Plan, Task, coordinate_columns, snapshot_steps
-from sweep.spec import Sweep, axis_names, parse_spec
+from sweep.spec import NO_UNITS, Sweep, Units, axis_names, key_quantity, parse_spec
 
 log = logging.getLogger(__name__)
 
@@ -61,6 +64,9 @@ log = logging.getLogger(__name__)
 STORE_FORMAT = 2
 ATTRS_KEY = "brownian_sweep"
 MARKER_DIR = "_tasks"
+#: Variables renamed since earlier store versions (old name -> new name); read stores
+#: answer to the new names.
+RENAMED = {"censoring_time": "horizon", "time_step": "dt"}
 LOCK_FILE = "_lock.json"
 SEAL_FILE = "_seal.json"
 #: Every temporary file the tool writes inside a store starts so (markers being
@@ -73,9 +79,9 @@ MARKER_NAME = re.compile(r"p(\d+)-c(\d+)\.json")
 ABSENT = "absent"
 #: A store is built as ``.<name>.creating-<pid>-<random>`` beside it, then renamed.
 CREATING = ".creating-"
-KERNEL_FILE = Path(__file__).resolve().parent.parent / "kernels" / "walkers.py"
-#: The spheres scheme's kernel (time.scheme = "spheres").
-SPHERES_FILE = KERNEL_FILE.parent / "spheres.py"
+#: The stream version of stores made before versions were recorded (they carry a
+#: "fingerprint" of the kernel's source instead): numpy's bit generator.
+UNVERSIONED_STREAM = 1
 
 
 def tool_version() -> str:
@@ -87,16 +93,16 @@ def tool_version() -> str:
         return "0+unknown"
 
 
-def fingerprint() -> dict[str, str]:
-    """What besides the definition decides the bits a task writes."""
+def provenance() -> dict[str, str]:
+    """The libraries a store was made with, recorded for the reader but not compared
+    on resume: compatibility follows :data:`kernels.STREAM_VERSION` (the golden test
+    notices a library update that changes the numbers)."""
     import numba
 
     return {
-        "kernel_sha256": hashlib.sha256(KERNEL_FILE.read_bytes()).hexdigest(),
-        "spheres_kernel_sha256": hashlib.sha256(SPHERES_FILE.read_bytes()).hexdigest(),
         "numpy": np.__version__,
         "numba": numba.__version__,
-        "bit_generator": BIT_GENERATOR.__name__,
+        "generator": f"{BIT_GENERATOR.__name__} (kernels/rng.py)",
     }
 
 
@@ -195,7 +201,8 @@ def _create(path: Path, plan: Plan) -> None:
                 "store_id": store_id,
                 "spec": sweep.canonical,
                 "spec_hash": sweep.spec_hash,
-                "fingerprint": fingerprint(),
+                "stream_version": STREAM_VERSION,
+                "provenance": provenance(),
                 "tool_version": tool_version(),
                 "created": datetime.datetime.now(datetime.UTC).isoformat(
                     timespec="seconds"
@@ -213,6 +220,7 @@ def _create(path: Path, plan: Plan) -> None:
                 "per_walker": rec.per_walker,
                 "occupancy": bool(rec.occupancy_times),
                 "fpt_bins": rec.fpt_bins,
+                "units": {"length": sweep.units.length, "time": sweep.units.time},
             },
             "title": f"brownian-sweep results: {sweep.name}",
             "Conventions": "CF-1.10",
@@ -220,8 +228,13 @@ def _create(path: Path, plan: Plan) -> None:
     )
     columns = coordinate_columns(sweep)
     coords = " ".join(columns)
+    units = sweep.units
 
     def small(name: str, dims: tuple[str, ...], values: Any, **attrs: Any) -> None:
+        quantity = attrs.pop("quantity", key_quantity(name))
+        if quantity:
+            # CF style: the unit as free text (see sweep.spec.Units).
+            attrs["units"] = units.of(quantity)
         values = np.asarray(values)
         if values.dtype.kind == "U":
             values = values.astype(object)
@@ -243,6 +256,8 @@ def _create(path: Path, plan: Plan) -> None:
     )
     for name, values in columns.items():
         small(name, ("point",), values, long_name=f"swept parameter {name}")
+    # The definition's own names (time.dt, time.horizon) for the per-point time step
+    # and horizon; a swept one is already a coordinate of that name.
     small(
         "chunk",
         ("chunk",),
@@ -255,14 +270,17 @@ def _create(path: Path, plan: Plan) -> None:
         np.array([sweep.chunk_walkers(c) for c in range(n_c)], dtype=np.int64),
         long_name="walkers per chunk",
     )
-    small(
-        "censoring_time",
-        ("point",),
-        np.array(
-            [p.timing.n_steps * p.timing.dt for p in sweep.points], dtype=np.float64
-        ),
-        long_name="horizon: walkers still free then are censored (snapped to the step grid)",
-    )
+    if "horizon" not in columns:
+        small(
+            "horizon",
+            ("point",),
+            np.array(
+                [p.timing.n_steps * p.timing.dt for p in sweep.points],
+                dtype=np.float64,
+            ),
+            long_name="horizon: walkers still free then are censored (snapped to the "
+            "step grid)",
+        )
     small(
         "start_position",
         ("point", "axis"),
@@ -274,19 +292,22 @@ def _create(path: Path, plan: Plan) -> None:
             dtype=np.float64,
         ),
         long_name="start point of every walker (NaN: uniform over the domain)",
+        quantity="length",
     )
-    small(
-        "time_step",
-        ("point",),
-        np.array([p.timing.dt for p in sweep.points], dtype=np.float64),
-        long_name="time step dt",
-    )
+    if "dt" not in columns:
+        small(
+            "dt",
+            ("point",),
+            np.array([p.timing.dt for p in sweep.points], dtype=np.float64),
+            long_name="time step dt",
+        )
     small(
         "time",
         ("time",),
         np.array(rec.survival_times, dtype=np.float64),
         long_name="time of the survival grid",
         standard_name="time",
+        quantity="time",
     )
     walker_attrs = {"coordinates": coords} if coords else {}
     wall_names = domain.wall_names()
@@ -301,6 +322,7 @@ def _create(path: Path, plan: Plan) -> None:
             attributes={
                 **walker_attrs,
                 "long_name": "first-passage time (NaN: still free at the horizon)",
+                "units": units.of("time"),
             },
         )
         root.create_array(
@@ -324,7 +346,11 @@ def _create(path: Path, plan: Plan) -> None:
             dtype="f8",
             fill_value=np.nan,
             dimension_names=("point", "walker", "axis"),
-            attributes={**walker_attrs, "long_name": "position at absorption"},
+            attributes={
+                **walker_attrs,
+                "long_name": "position at absorption",
+                "units": units.of("length"),
+            },
         )
     root.create_array(
         "survival_count",
@@ -356,6 +382,7 @@ def _create(path: Path, plan: Plan) -> None:
                 dtype=np.float64,
             ),
             long_name="width of the first-passage-time bins",
+            quantity="time",
         )
     if rec.occupancy_times:
         n_s, bins = len(rec.occupancy_times), rec.occupancy_bins
@@ -380,6 +407,7 @@ def _create(path: Path, plan: Plan) -> None:
                 dtype=np.float64,
             ).reshape(n_p, n_s),
             long_name="occupancy snapshot time, snapped to the step grid",
+            quantity="time",
         )
         for side in ("lower", "upper"):
             small(
@@ -394,6 +422,7 @@ def _create(path: Path, plan: Plan) -> None:
                     dtype=np.float64,
                 ),
                 long_name=f"{side} edge of the occupancy histogram per axis",
+                quantity="length",
             )
     with warnings.catch_warnings():
         # "Consolidated metadata is currently not part in the Zarr format 3
@@ -494,8 +523,11 @@ def _task_hint(path: Path, attrs: Mapping[str, Any]) -> str:
     )
 
 
-def read_attrs(path: str | Path) -> dict[str, Any]:
+def read_attrs(path: str | Path, writing: bool = False) -> dict[str, Any]:
     """The store's provenance attributes, after checking the files made at creation.
+
+    ``writing``: the caller means to write there (``sweep run --store``), so the
+    message suggests another --store path; readers get a hint that fits them.
 
     Raises
     ------
@@ -507,10 +539,17 @@ def read_attrs(path: str | Path) -> dict[str, Any]:
     """
     path = Path(path).expanduser()
     meta = path / "zarr.json"
+    fix = " Choose another --store path." if writing else ""
     if path.exists() and not path.is_dir():
+        if not writing and path.suffix == ".toml":
+            fix = (
+                f" It looks like a sweep definition: run it with `sweep run {path}`, "
+                f"then pass the store directory that run names (by default "
+                f"{path.stem}.zarr)."
+            )
         raise StoreError(
             f"{path}: exists and is not a directory (a store is a directory made by "
-            f"`sweep run`); nothing was changed. Choose another --store path."
+            f"`sweep run`); nothing was changed.{fix}"
         )
     if not path.is_dir():
         raise StoreError(
@@ -532,7 +571,7 @@ def read_attrs(path: str | Path) -> dict[str, Any]:
             raise damaged([Damage(meta, what)], STORE_HINT) from None
         raise StoreError(
             f"{path}: exists but is not a brownian-sweep store (no readable zarr.json with "
-            f"'{ATTRS_KEY}' attributes). Choose another --store path; nothing was changed."
+            f"'{ATTRS_KEY}' attributes); nothing was changed.{fix}"
         ) from None
     if attrs.get("format") != STORE_FORMAT:
         older = isinstance(attrs.get("format"), int) and attrs["format"] < STORE_FORMAT
@@ -598,11 +637,26 @@ def load_sweep(path: str | Path) -> Sweep:
     )
 
 
+def stream_version(attrs: Mapping[str, Any]) -> int:
+    """The random-stream version of the store with attributes ``attrs``."""
+    return int(attrs.get("stream_version", UNVERSIONED_STREAM))
+
+
 def check_matches(path: Path, plan: Plan) -> None:
-    """Refuse a store made by another definition, kernel or library version."""
-    attrs = read_attrs(path)
-    stored = {"spec": attrs["spec"], "fingerprint": attrs["fingerprint"]}
-    wanted = {"spec": plan.sweep.canonical, "fingerprint": fingerprint()}
+    """Refuse a store made with other random streams or by another definition."""
+    attrs = read_attrs(path, writing=True)
+    version = stream_version(attrs)
+    if version != STREAM_VERSION:
+        raise StoreMismatchError(
+            f"{path}: this store's walkers were drawn with random stream version "
+            f"{version}, and this version of brownian-sweep draws stream version "
+            f"{STREAM_VERSION} (CHANGELOG.md says what changed): the same seeds now "
+            "give other numbers, so resuming would mix two streams in one sample. "
+            f"Finish it with a brownian-sweep that draws stream version {version}, or "
+            "start the sweep again under another --store path; nothing was changed."
+        )
+    stored = {"spec": attrs["spec"]}
+    wanted = {"spec": plan.sweep.canonical}
     if stored == wanted:
         return
     lines = [
@@ -1272,7 +1326,18 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
         # The marker directory, lock and run log live inside the store directory;
         # zarr notes them as "not a component of a Zarr hierarchy" when listing.
         warnings.filterwarnings("ignore", message="Object at _", category=UserWarning)
-        raw = xr.open_zarr(path, consolidated=True, chunks={}, mask_and_scale=True)
+        # Units are free text ("s", "seconds"): never let xarray turn a variable
+        # whose unit names a time into timedeltas.
+        raw = xr.open_zarr(
+            path,
+            consolidated=True,
+            chunks={},
+            mask_and_scale=True,
+            decode_times=False,
+            decode_timedelta=False,
+        )
+    # Stores of earlier versions named the time step and horizon differently.
+    raw = raw.rename({old: new for old, new in RENAMED.items() if old in raw.variables})
     n_p, n_c = attrs["n_points"], attrs["n_chunks"]
     done = np.zeros((n_p, n_c), dtype=bool)
     for p, c in markers:
@@ -1309,7 +1374,6 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
             ds[name] = var.drop_vars(
                 [c for c in var.coords if c not in ("point",)], errors="ignore"
             )
-        ds["first_passage_time"].attrs["units"] = "time units of the definition"
     counts = raw["survival_count"].where(done_da, 0).sum("chunk")
     ds["survival"] = (counts / walkers_done.where(walkers_done > 0)).assign_attrs(
         long_name="fraction of walkers still free"
@@ -1340,6 +1404,16 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
         "store": str(path.absolute()),
         "complete": int(complete),
     }
+    named = attrs.get("units", {})
+    ds.attrs["units_length"] = named.get("length") or NO_UNITS
+    ds.attrs["units_time"] = named.get("time") or NO_UNITS
+    if "units" not in attrs:
+        # A store from before units were stored: label its quantities alike.
+        units = Units()
+        for name in ds.variables:
+            quantity = key_quantity(str(name))
+            if quantity and name not in ("point", "chunk"):
+                ds[name].attrs.setdefault("units", units.of(quantity))
     return ds
 
 

@@ -2,13 +2,23 @@
 
 from __future__ import annotations
 
+import atexit
 import os
+import shutil
 import sys
+import tempfile
 from pathlib import Path
 
 import numpy as np
 import pytest
 import zarr
+
+# Measured machine speeds (`sweep bench`, `sweep plan`'s calibration) go to a cache
+# of this test session, never the user's ~/.cache: set before any sweep module reads
+# it, and inherited by every subprocess the tests start.
+_CACHE = Path(tempfile.mkdtemp(prefix="sweep-test-cache-"))
+os.environ["SWEEP_CACHE_DIR"] = str(_CACHE)
+atexit.register(shutil.rmtree, _CACHE, ignore_errors=True)
 
 #: A 1-D interval sweep over two diffusivities: 2 points x 6 tasks, each task well
 #: under a second, so runs can be interrupted mid-sweep.
@@ -84,3 +94,11 @@ def cli_env() -> dict[str, str]:
     env = dict(os.environ)
     env["PYTHONUNBUFFERED"] = "1"
     return env
+
+
+@pytest.fixture(scope="session")
+def degenerate_stores(tmp_path_factory: pytest.TempPathFactory) -> dict[str, Path]:
+    """The edge-case stores of :mod:`tests.degenerate`, by case name (built once)."""
+    from tests.degenerate import build
+
+    return build(tmp_path_factory.mktemp("degenerate"))

@@ -32,6 +32,7 @@ import numpy as np
 import pytest
 import zarr
 
+from kernels import STREAM_VERSION
 from sweep import store
 from sweep.execute import RunOptions, run
 from tests.conftest import PATIENCE, SMALL_SPEC, assert_stores_identical, sweep_command
@@ -174,6 +175,17 @@ def edit_attrs(name: str, change: Callable[[dict[str, object]], None]) -> Setup:
         seal_file.write_text(json.dumps(seal))
 
     return setup
+
+
+def _as_unversioned_store(attrs: dict[str, object]) -> None:
+    """Attributes as stores written before stream versions were recorded had them."""
+    del attrs["stream_version"], attrs["provenance"]
+    attrs["fingerprint"] = {
+        "kernel_sha256": "0" * 64,
+        "numpy": "2.1.0",
+        "numba": "0.60.0",
+        "bit_generator": "SFC64",
+    }
 
 
 def hold_lock(name: str) -> Setup:
@@ -819,13 +831,35 @@ CASES: list[Case] = [
         "point0.time.horizon: stored 3.0, now 4.0",
     ),
     Case(
-        id="store-of-other-numpy",
+        id="store-of-other-stream-version",
         argv=RUN_SMALL,
-        expect=("{ws}/s.zarr", 'fingerprint.numpy: stored "1.0.0"'),
+        expect=(
+            "{ws}/s.zarr",
+            "random stream version 99",
+            f"draws stream version {STREAM_VERSION}",
+            "CHANGELOG.md",
+            "another --store path",
+        ),
         setup=(
             copy_store(),
             SMALL,
-            edit_attrs("s.zarr", lambda a: a["fingerprint"].update(numpy="1.0.0")),  # type: ignore[attr-defined]
+            edit_attrs("s.zarr", lambda a: a.update(stream_version=99)),
+        ),
+        store="s.zarr",
+    ),
+    Case(
+        # Made before stream versions were recorded: a kernel fingerprint instead.
+        id="store-of-the-bit-generator-kernel",
+        argv=RUN_SMALL,
+        expect=(
+            "{ws}/s.zarr",
+            "random stream version 1,",
+            f"draws stream version {STREAM_VERSION}",
+        ),
+        setup=(
+            copy_store(),
+            SMALL,
+            edit_attrs("s.zarr", _as_unversioned_store),
         ),
         store="s.zarr",
     ),
@@ -1020,6 +1054,13 @@ CASES: list[Case] = [
     Case(
         id="export-onto-the-store-itself",
         argv=("export", "{ws}/s.zarr", "{ws}/s.zarr"),
+        expect=("{ws}/s.zarr", "already exists", "--replace"),
+        setup=(copy_store(),),
+        store="s.zarr",
+    ),
+    Case(
+        id="export-replacing-the-store-itself",
+        argv=("export", "{ws}/s.zarr", "{ws}/s.zarr", "--replace"),
         expect=("{ws}/s.zarr", "cannot write the HDF5 export"),
         setup=(copy_store(),),
         store="s.zarr",

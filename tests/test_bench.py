@@ -14,14 +14,21 @@ from sweep.bench import (
     DEFAULT_WALKERS,
     REMEASURE,
     REMEASURE_HEADER,
+    TARGET_BULK_1D,
+    TARGET_BULK_3D,
+    TARGET_END_TO_END,
     TARGET_OPTIONS,
     TARGET_PLAIN,
     TARGET_THREADS,
     BenchRow,
+    EndToEnd,
     ThreadRuns,
     _format_row,
     _task,
+    bulk_target_of,
     busy_note,
+    compile_times,
+    end_to_end,
     machine_note,
     run_bench,
     target_of,
@@ -60,12 +67,18 @@ def test_bench_measures_every_case_and_target() -> None:
     for row in rows:
         for value in (
             row.kernel_rate,
+            row.limit_rate,
+            row.bulk_rate,
             row.ceiling_rate,
             row.numpy_rate,
+            row.of_limit,
+            row.over_bulk,
             row.of_ceiling,
         ):
             assert math.isfinite(value) and value > 0
         assert 0.0 <= row.spread < 1.0
+        # Ratios to the limit and to numpy's bulk sampler are in normals.
+        assert row.of_limit == row.kernel_rate * row.dimension / row.limit_rate
     assert math.isfinite(speedup) and speedup > 0
     assert math.isfinite(threads.draws()) and threads.draws() > 0
     # One timing of each kind per repetition (one here, one more if re-measured).
@@ -74,11 +87,46 @@ def test_bench_measures_every_case_and_target() -> None:
     assert len(counts) == 1 and counts <= {1, 2}
     names = [name for name, *_ in verdicts(rows, speedup)]
     assert len(names) == 5 and "two threads / one thread" in names
+    # End to end: a real `sweep run --threads 1` of the same kernels, into a store.
+    e2e = end_to_end(rows, walkers=200)
+    assert [(e.case, e.options) for e in e2e] == [
+        ("interval 1-D", "bridge"),
+        ("box 3-D (2 abs + 4 refl)", "bridge"),
+    ]
+    assert all(math.isfinite(e.kept) and e.kept > 0 for e in e2e)
+    names = [name for name, *_ in verdicts(rows, speedup, e2e)]
+    assert len(names) == 6 and names[-1].startswith("sweep run --threads 1")
+
+
+def test_end_to_end_keeps_a_share_of_the_bench_rate() -> None:
+    e = EndToEnd(
+        "interval 1-D", "bridge", run_rate=150e6, bench_rate=200e6, wall_rate=1e8
+    )
+    assert e.kept == 0.75 and e.kept_wall == 0.5
+    rows = [_row("interval 1-D", o) for o in ("bridge", "endpoint")]
+    (*_, (name, kept, wanted, met)) = verdicts(
+        [*rows, _row("ball 3-D", "bridge")], 2.0, [e]
+    )
+    assert (kept, wanted, met) == (0.75, TARGET_END_TO_END, False)
+
+
+def test_compile_times_in_a_fresh_process_with_an_empty_cache() -> None:
+    # One variant: compiling it from nothing takes tens of seconds; the second start,
+    # with the cache the first left, only loads it.
+    ((case, cold, cached),) = compile_times(["interval 1-D"])
+    assert case == "interval 1-D"
+    assert math.isfinite(cold) and math.isfinite(cached)
+    assert 0 < cached < cold
+
+
+def _row(case: str, options: str, spread: float = 0.0) -> BenchRow:
+    d = 1 if case.startswith("interval") else 3
+    return BenchRow(case, options, d, 1.0, 1.0, 1.0, 1.0, 1.0, spread)
 
 
 def test_busy_note_only_when_repetitions_disagree() -> None:
-    quiet = BenchRow("interval 1-D", "bridge", 1.0, 1.0, 1.0, 1.0, 1.0, BUSY_SPREAD)
-    busy = BenchRow("ball 3-D", "endpoint", 1.0, 1.0, 1.0, 1.0, 1.0, 0.25)
+    quiet = _row("interval 1-D", "bridge", BUSY_SPREAD)
+    busy = _row("ball 3-D", "endpoint", 0.25)
     assert busy_note([quiet]) is None
     note = busy_note([quiet, busy])
     assert note is not None and "25%" in note and "ball 3-D, endpoint" in note
@@ -101,6 +149,8 @@ def test_quick_bench_keeps_no_rates(tmp_path: Path) -> None:
             "50",
             "--remeasure",
             "0",
+            "--no-compile-times",
+            "--no-spheres",
         ],
         capture_output=True,
         text=True,
@@ -109,16 +159,29 @@ def test_quick_bench_keeps_no_rates(tmp_path: Path) -> None:
     )
     assert result.returncode == 0, result.stderr
     assert "rates not kept" in result.stdout
+    assert "of limit" in result.stdout and "end to end" in result.stdout
+    assert "first call per kernel variant" not in result.stdout
+    assert "spheres scheme over steps" not in result.stdout
     assert not (tmp_path / "rates.json").exists()
 
 
 def test_plain_rows_have_the_plain_target() -> None:
     # "Plain" is endpoint monitoring without occupancy; the bridge test and occupancy
     # are options (DEVELOPERS.md, "Benchmarks").
-    row = BenchRow("ball 3-D", "endpoint", 1.0, 1.0, 1.0, 1.0, 1.0)
-    assert target_of(row) == TARGET_PLAIN
+    assert target_of(_row("ball 3-D", "endpoint")) == TARGET_PLAIN
     for options in ("bridge", "bridge + occupancy", "endpoint + occupancy"):
-        assert target_of(BenchRow("ball 3-D", options, 1, 1, 1, 1, 1)) == TARGET_OPTIONS
+        assert target_of(_row("ball 3-D", options)) == TARGET_OPTIONS
+
+
+def test_bulk_targets_cover_the_1d_bridge_and_every_3d_case() -> None:
+    # The numpy-bulk targets: the 1-D interval with the bridge, and every
+    # 3-D case (DEVELOPERS.md, "Benchmarks").
+    assert bulk_target_of(_row("interval 1-D", "bridge")) == TARGET_BULK_1D
+    assert bulk_target_of(_row("interval 1-D", "endpoint")) is None
+    for case in CASES:
+        if "3-D" in case:
+            for options in ("bridge", "endpoint + occupancy"):
+                assert bulk_target_of(_row(case, options)) == TARGET_BULK_3D
 
 
 def test_thread_note_only_above_two() -> None:

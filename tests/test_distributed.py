@@ -10,6 +10,7 @@ import contextlib
 import json
 import os
 import signal
+import socket
 import subprocess
 import sys
 import time
@@ -137,6 +138,25 @@ def test_scheduler_file_and_address_match_threads(
     )  # fmt: skip
     assert result.returncode == 0, result.stderr
     assert_stores_identical(reference, by_address)
+    assert "not encrypted" not in result.stderr  # on the loopback: no warning
+
+
+@pytest.mark.parametrize(
+    ("address", "private"),
+    [
+        ("tls://10.0.0.5:8786", True),  # TLS authenticates both ends
+        ("tcp://127.0.0.1:8786", True),
+        ("tcp://[::1]:8786", True),
+        ("tcp://localhost:8786", True),
+        ("tcp://10.0.0.5:8786", False),
+        ("tcp://0.0.0.0:8786", False),
+        ("10.0.0.5:8786", False),  # Dask's default scheme is tcp
+    ],
+)
+def test_scheduler_addresses_open_to_others(address: str, private: bool) -> None:
+    from sweep.execute import _private_address
+
+    assert _private_address(address) is private
 
 
 def test_worker_killed_mid_task_loses_nothing(
@@ -275,3 +295,168 @@ def test_orphaned_tasks_of_a_deleted_store_cannot_write_into_its_successor(
     assert len(done) == 6
     assert {m["store_id"] for m in done.values()} == {attrs["store_id"]}
     assert_stores_identical(clean_b, out)
+
+
+def _family(pid: int) -> list[int]:
+    """A process and all its descendants (from /proc)."""
+    children: dict[int, list[int]] = {}
+    for stat in Path("/proc").glob("[0-9]*/stat"):
+        try:
+            fields = stat.read_text().rsplit(")", 1)[1].split()
+        except OSError:
+            continue
+        children.setdefault(int(fields[1]), []).append(int(stat.parent.name))
+    family, todo = [], [pid]
+    while todo:
+        p = todo.pop()
+        family.append(p)
+        todo.extend(children.get(p, []))
+    return family
+
+
+def _listening(pids: list[int]) -> list[tuple[str, int]]:
+    """(host, port) of every listening TCP socket of these processes (from /proc)."""
+    inodes = set()
+    for pid in pids:
+        for fd in Path(f"/proc/{pid}/fd").glob("*"):
+            with contextlib.suppress(OSError):
+                target = os.readlink(fd)
+                if target.startswith("socket:["):
+                    inodes.add(target[8:-1])
+    found = []
+    for table in ("tcp", "tcp6"):
+        for line in Path(f"/proc/net/{table}").read_text().splitlines()[1:]:
+            fields = line.split()
+            if fields[3] == "0A" and fields[9] in inodes:  # 0A: LISTEN
+                host, port = fields[1].split(":")
+                if table == "tcp":
+                    host = socket.inet_ntoa(bytes.fromhex(host)[::-1])
+                found.append((host, int(port, 16)))
+    return found
+
+
+def test_local_cluster_admits_nobody_else_and_is_quiet(
+    tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    """While `sweep run --processes 2` runs, another process on this machine can
+    neither connect to its scheduler, nannies or workers (plain or with TLS credentials
+    of its own) nor find an HTTP server; a worker killed mid-run leaves no tracebacks,
+    and `--quiet` prints nothing but the results."""
+    from distributed import Client
+    from distributed.security import Security
+
+    spec = _longer_spec(tmp_path)
+    out = tmp_path / "private.zarr"
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "sweep.cli", "run", str(spec), "--store", str(out),
+         "--processes", "2", "--quiet"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=cli_env,
+    )  # fmt: skip
+    try:
+        deadline = time.monotonic() + PATIENCE
+        while not (out / "_tasks").is_dir() or not any((out / "_tasks").iterdir()):
+            assert proc.poll() is None and time.monotonic() < deadline
+            time.sleep(0.1)
+        family = _family(proc.pid)
+        ports = _listening(family)
+        # Scheduler, two nannies, two workers: TLS, on the loopback, no HTTP.
+        assert len(ports) == 5, ports
+        assert {host for host, _ in ports} == {"127.0.0.1"}, ports
+        stranger = Security.temporary()
+        for _, port in ports:
+            for address, security in (
+                (f"tcp://127.0.0.1:{port}", None),
+                (f"tls://127.0.0.1:{port}", stranger),
+            ):
+                with pytest.raises((OSError, TimeoutError)):
+                    with Client(address, security=security, timeout="3s") as client:
+                        client.run(os.getpid)  # code in the workers: must not run
+            with socket.create_connection(("127.0.0.1", port), timeout=5) as s:
+                s.sendall(b"GET / HTTP/1.0\r\n\r\n")
+                s.settimeout(5)
+                with contextlib.suppress(OSError):
+                    assert not s.recv(16).startswith(b"HTTP/")
+        # A worker dies (its pid is a child of the driver running the worker code).
+        assert proc.poll() is None, "the run ended before the checks: make it longer"
+        workers = [p for p in family if b"spawn_main" in _cmdline(p)]
+        assert len(workers) == 2
+        os.kill(workers[0], signal.SIGKILL)
+        stdout, stderr = proc.communicate(timeout=PATIENCE)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+    assert proc.returncode == 0, stderr
+    assert "16/16 tasks done" in stdout
+    # Dask's warnings about the strangers' attempts and the restarted worker are all:
+    # no INFO chatter, no tracebacks (resource_tracker's included).
+    expected = ("TLS handshake failed", "Restarting worker")
+    lines = [line for line in stderr.splitlines() if line.strip()]
+    assert all(any(e in line for e in expected) for line in lines), stderr
+
+
+def _cmdline(pid: int) -> bytes:
+    try:
+        return Path(f"/proc/{pid}/cmdline").read_bytes()
+    except OSError:
+        return b""
+
+
+def _longer_spec(tmp_path: Path) -> Path:
+    """The small sweep as 16 tasks of 1-2 s on one core."""
+    spec = tmp_path / "longer.toml"
+    spec.write_text(
+        SMALL_SPEC.replace("dt = 1e-3", "dt = 5e-6")
+        .replace("walkers = 3000", "walkers = 16000")
+        .replace("chunk = 500", "chunk = 2000")
+    )
+    return spec
+
+
+def test_sigterm_stops_a_process_cluster_cleanly(
+    tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    """SIGTERM (how batch systems end a job) stops `sweep run --processes` like Ctrl-C:
+    exit 130, finished tasks kept, the lock released, no worker left, no tracebacks."""
+    spec, out = _longer_spec(tmp_path), tmp_path / "terminated.zarr"
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "sweep.cli", "run", str(spec), "--store", str(out),
+         "--processes", "2", "--quiet"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=cli_env,
+    )  # fmt: skip
+    try:
+        deadline = time.monotonic() + PATIENCE
+        while not (out / "_tasks").is_dir() or not any((out / "_tasks").iterdir()):
+            assert proc.poll() is None and time.monotonic() < deadline
+            time.sleep(0.1)
+        family = _family(proc.pid)
+        proc.send_signal(signal.SIGTERM)
+        stdout, stderr = proc.communicate(timeout=PATIENCE)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+    assert proc.returncode == 130, stderr
+    assert "Rerun to resume" in stdout
+    assert [line for line in stderr.splitlines() if line.strip()] == [
+        "interrupted: finished tasks are kept; rerun the same command to resume."
+    ], stderr
+    assert 0 < len(store.done_tasks(out)) < 16
+    assert not (out / store.LOCK_FILE).exists()
+    time.sleep(1.0)  # the resource tracker leaves just after its parent
+    assert not [p for p in family if _alive(p)]
+
+
+def _alive(pid: int) -> bool:
+    """Running (a zombie is dead, waiting for its parent or init to reap it)."""
+    try:
+        state = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0]
+    except OSError:
+        return False
+    return state != "Z"

@@ -71,3 +71,31 @@ def test_export_rejects_unknown_variable_and_point(
     with pytest.raises(StoreError, match="out of range"):
         export_hdf5(small_store, tmp_path / "x.h5", points=[7])
     assert not (tmp_path / "x.h5").exists()
+
+
+def test_export_edge_case_stores(
+    degenerate_stores: dict[str, Path], tmp_path: Path
+) -> None:
+    """Every edge-case store exports, and reads back as it is stored."""
+    for name, path in degenerate_stores.items():
+        out = export_hdf5(path, tmp_path / f"{name}.h5")
+        ds = sweep.open(path)
+        with h5py.File(out, "r") as h5:
+            np.testing.assert_array_equal(
+                h5["walkers_done"][...], ds["walkers_done"].values, err_msg=name
+            )
+            np.testing.assert_array_equal(
+                h5["absorbing_wall"][...], ds["absorbing_wall"].values, err_msg=name
+            )
+
+
+def test_export_refuses_an_existing_file(small_store: Path, tmp_path: Path) -> None:
+    """An existing file (here a definition) is never replaced without --replace."""
+    target = tmp_path / "base.toml"
+    target.write_text("[sweep]\n")
+    with pytest.raises(StoreError, match="already exists.*--replace"):
+        export_hdf5(small_store, target)
+    assert target.read_text() == "[sweep]\n"
+    export_hdf5(small_store, target, replace=True)
+    with h5py.File(target, "r") as h5:
+        assert "first_passage_time" in h5

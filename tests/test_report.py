@@ -7,10 +7,12 @@ import re
 import subprocess
 from pathlib import Path
 
+import pytest
+
 import sweep
-from sweep import stats
+from sweep import stats, store
 from sweep.execute import RunOptions, run
-from sweep.report import _plus_minus, write_report
+from sweep.report import _plus_minus, headline_table, write_report
 from tests.conftest import PATIENCE, SMALL_SPEC, sweep_command
 
 PLANE = """
@@ -156,3 +158,40 @@ def test_closed_output_pipe_ends_quietly(
         os.close(write)
     assert result.returncode == 141, result.stderr
     assert result.stderr == "", result.stderr
+
+
+@pytest.mark.filterwarnings("error::RuntimeWarning")
+def test_report_on_edge_case_stores(
+    degenerate_stores: dict[str, Path], tmp_path: Path
+) -> None:
+    """Every walker on one target (the Wilson bound once fell below p-hat = 1 and the
+    report died), nothing absorbing, all censored, one walker, one task done: a full
+    report each, the summary table too."""
+    for name, path in degenerate_stores.items():
+        page = write_report(path, tmp_path / name)
+        text = page.read_text()
+        for png in ("survival.png", "fpt_density.png", "splitting.png"):
+            assert (tmp_path / name / png).read_bytes()[:4] == b"\x89PNG", (name, png)
+        assert "Headline numbers" in text, name
+        assert headline_table(sweep.open(path), store.load_sweep(path))
+    partial = write_report(degenerate_stores["one_task"], tmp_path / "p").read_text()
+    assert "INCOMPLETE (1 of 8 tasks done)" in partial
+
+
+def test_headline_table_names_parameters_as_the_store_and_shows_units(
+    tmp_path: Path,
+) -> None:
+    """One name per parameter (the store's coordinate name) and units in headers."""
+    text = PLANE.replace("seed = 3", 'seed = 3\nunits = { length = "um", time = "ms" }')
+    out = _store(tmp_path, text)
+    ds = sweep.open(out)
+    table = headline_table(ds, store.load_sweep(out))
+    header = table.splitlines()[0]
+    assert "upper_x [um]" in header and "upper_y [um]" in header, header
+    assert "mean first-passage time [ms]" in header and "domain.upper" not in header
+    assert ds["upper_x"].attrs["units"] == "um" and ds["dt"].attrs["units"] == "ms"
+    assert "units: length um, time ms." in table
+    (tmp_path / "b").mkdir()
+    bare = _store(tmp_path / "b", PLANE)
+    plain = headline_table(sweep.open(bare), store.load_sweep(bare))
+    assert "[definition units]" in plain.splitlines()[0]

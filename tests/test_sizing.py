@@ -179,3 +179,26 @@ def test_target_radius_sweep_runs(tmp_path: Path) -> None:
     assert set(walls.ravel().tolist()) == {6}
     means = ds.first_passage_time.mean("walker").values
     assert means[1] < means[0]  # a larger target is found sooner
+
+
+#: A pilot estimate of the work must land within this factor of the run's own count
+#: (the old horizon-bound estimate was 80x too high for the study below).
+ESTIMATE_FACTOR = 1.5
+
+
+def test_work_without_closed_form_is_estimated_from_a_pilot(tmp_path: Path) -> None:
+    """A reflecting disk with a target at its centre (no closed form here): the
+    expected walker-steps come from a pilot, not from the horizon."""
+    from tests.degenerate import ALL_ON_TARGET
+
+    text = ALL_ON_TARGET.replace("walkers = 400", "walkers = 1000").replace(
+        "chunk = 200", "chunk = 500"
+    )
+    spec = tmp_path / "disk.toml"
+    spec.write_text(text)
+    sweep_ = load_spec(spec)
+    sizing = size(make_plan(sweep_))
+    assert "pilot" in sizing.estimate_note, sizing.estimate_note
+    done = run(spec, tmp_path / "disk.zarr", RunOptions(threads=2, progress=False))
+    ratio = sizing.walker_steps_expected / done.walker_steps
+    assert 1 / ESTIMATE_FACTOR < ratio < ESTIMATE_FACTOR, ratio

@@ -2035,12 +2035,12 @@ def test_domain_wall_names_keep_infinite_sides() -> None:
     assert domain.wall_names() == ("x_lower", "x_upper")
 
 
-def test_domain_wall_names_ball_targets_then_surface() -> None:
+def test_domain_wall_names_ball_targets_then_wall() -> None:
     text = spec(DISK, domain__targets=[{"center": [-0.5, 0.0], "radius": 0.1}])
     domain = parse(text).points[0].domain
-    assert domain.wall_names() == ("target_0", "surface")
+    assert domain.wall_names() == ("target_0", "wall")
     assert domain.wall_absorbing() == (True, domain.surface_absorbing)
-    assert parse(dumps(DISK)).points[0].domain.wall_names() == ("surface",)
+    assert parse(dumps(DISK)).points[0].domain.wall_names() == ("wall",)
 
 
 # --------------------------------------------------------------------------- fuzzing
@@ -2495,3 +2495,33 @@ def test_repeated_grid_points_warn() -> None:
     text = SMALL_SPEC.replace("[0.5, 1.0]", "[0.5, 1, 1.0, 1.0]")
     with pytest.warns(SweepWarning, match=r"2 point\(s\) repeat an earlier point"):
         parse_spec(text, source="dup.toml")
+
+
+# ------------------------------------------------------------------ units
+
+
+def test_units_are_labels_in_the_hash_only_when_named() -> None:
+    plain = parse(spec(LINE))
+    named = parse(spec(LINE, sweep__units={"length": "um", "time": "s"}))
+    assert plain.units.of("time") == "definition units"
+    assert named.units.of("diffusivity") == "um^2/s"
+    assert named.units.of("velocity") == "um/s"
+    assert named.units.label("x", "length") == "x [um]"
+    # A definition without units keeps its hash; naming them makes another study.
+    assert plain.spec_hash == parse(spec(LINE, sweep__units={})).spec_hash
+    assert plain.spec_hash != named.spec_hash
+    assert plain.points == named.points
+
+
+@pytest.mark.parametrize(
+    ("units", "fragment"),
+    [
+        ("um", "[sweep.units] must be a table"),
+        ({"mass": "kg"}, "mass"),
+        ({"length": ""}, "[sweep.units.length] must be a short non-empty text"),
+        ({"time": 1}, "[sweep.units.time] must be a short non-empty text"),
+    ],
+)
+def test_bad_units_name_the_key(units: Any, fragment: str) -> None:
+    with pytest.raises(SpecError, match=re.escape(fragment)):
+        parse(spec(LINE, sweep__units=units))

@@ -540,7 +540,7 @@ def test_stats_on_a_real_store_know_the_horizon(tmp_path: pathlib.Path) -> None:
     out = tmp_path / "short.zarr"
     assert run(spec, out, RunOptions(threads=2, progress=False)).complete
     ds = sweep.open(out)
-    np.testing.assert_array_equal(ds.censoring_time.values, [1.0, 1.0])
+    np.testing.assert_array_equal(ds.horizon.values, [1.0, 1.0])
     with pytest.warns(SweepWarning):
         restricted = stats.restricted_mean(ds)
     # min(T, H) <= H, and the restricted mean is at least the absorbed-only mean
@@ -585,3 +585,54 @@ occupancy = { times = [0.25, 1.0], bins = 400, lower = [-8.0, -8.0], upper = [8.
         est = float(msd["estimate"].isel(point=0, snapshot=s))
         se = float(msd["stderr"].isel(point=0, snapshot=s))
         assert abs(est - exact) <= Z_STAT * se, (t, est, exact, se)
+
+
+# ------------------------------------------------------------ edge cases
+
+
+def test_wilson_interval_contains_its_estimate_at_zero_and_one() -> None:
+    """At p-hat = 1 the formula's upper bound is 1 in exact arithmetic; in floating
+    point it landed an ulp below for some n (the report's errorbar then failed)."""
+    n = np.arange(1, 5001, dtype=np.float64)
+    for successes in (np.zeros_like(n), n):
+        lower, upper = stats.wilson_interval(successes, n)
+        p = successes / n
+        assert (lower <= p).all() and (p <= upper).all()
+        assert (lower >= 0.0).all() and (upper <= 1.0).all()
+    assert (stats.wilson_interval(n, n)[1] == 1.0).all()
+    assert (stats.wilson_interval(np.zeros_like(n), n)[0] == 0.0).all()
+
+
+def test_summary_on_edge_case_stores(
+    degenerate_stores: dict[str, pathlib.Path],
+) -> None:
+    """All absorbed by one surface, nothing absorbing, all censored, one walker, one
+    task done: whole numbers of walkers, flags on means over censored walkers,
+    intervals around their estimates, and no RuntimeWarning."""
+    import warnings
+
+    import sweep
+
+    for name, path in degenerate_stores.items():
+        ds = sweep.open(path)
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", RuntimeWarning)
+            s = stats.summary(ds)
+            intervals = [stats.splitting_probability(ds), stats.survival(ds)]
+            if "first_passage_time" in ds:
+                intervals.append(stats.mean_first_passage_time(ds))
+        assert s["walkers"].dtype.kind == "i", name
+        np.testing.assert_array_equal(
+            s["mean_fpt_censored"].values, s["censored"].values > 0, err_msg=name
+        )
+        for result in intervals:
+            est, lo, hi = (
+                np.asarray(result[k].values) for k in ("estimate", "lower", "upper")
+            )
+            ok = np.isnan(est) | ((lo <= est) & (est <= hi))
+            assert ok.all(), (name, est, lo, hi)
+    on_target = stats.summary(sweep.open(degenerate_stores["all_on_target"]))
+    assert (on_target["splitting"].sel(wall="target_0") == 1.0).all()
+    assert (on_target["splitting_upper"].sel(wall="target_0") == 1.0).all()
+    censored = stats.summary(sweep.open(degenerate_stores["all_censored"]))
+    assert (censored["censored"] == 1.0).all() and censored["mean_fpt_censored"].all()

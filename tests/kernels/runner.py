@@ -14,6 +14,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from kernels import _loops, inputs
+from kernels.rng import initial_state
 from kernels.walkers import simulate
 
 
@@ -124,19 +125,25 @@ class Run(NamedTuple):
     steps: int
 
 
+def stream(seed: int) -> NDArray[np.uint64]:
+    """A kernel's random stream (SFC64 state, uint64 (4,)) from the integer ``seed``,
+    seeded as a task's (``Task.stream_state``)."""
+    return initial_state(np.random.SeedSequence(seed))
+
+
 def run(
     domain: Domain,
     n_walkers: int,
-    rng: np.random.Generator | int,
+    state: NDArray[np.uint64] | int,
     kernel: Callable[..., Any] = simulate,
 ) -> Run:
-    """Run ``kernel`` (``simulate`` or :func:`uncompiled_loop`) on ``domain``; ``rng``
-    is a Generator (advanced) or a seed for ``numpy.random.default_rng``."""
-    if not isinstance(rng, np.random.Generator):
-        rng = np.random.default_rng(rng)
+    """Run ``kernel`` (``simulate`` or :func:`uncompiled_loop`) on ``domain``;
+    ``state`` is a stream (:func:`stream`; advanced in place) or a seed for one."""
+    if isinstance(state, int):
+        state = stream(state)
     geometry, motion, recording = domain.kernel_inputs()
     out = inputs.allocate(n_walkers, geometry, recording)
-    steps = kernel(rng, n_walkers, geometry, motion, recording, out)
+    steps = kernel(state, n_walkers, geometry, motion, recording, out)
     return Run(*out, steps=int(steps))
 
 

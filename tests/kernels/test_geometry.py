@@ -834,9 +834,9 @@ REFLECTING_DISC = ball(
          "uniform-start-targets", "reflecting-disc", "70-targets"],
 )  # fmt: skip
 def test_general_loop_python_identical_to_compiled(domain: Domain) -> None:
-    # numba's Generator methods reproduce NumPy's streams from the same bit generator,
-    # so the uncompiled generated loop (ball and target code in) must give the
-    # compiled kernel's outputs to the last bit.
+    # The uncompiled generated loop draws through the same compiled samplers
+    # (kernels/rng.py) from the same stream, so it (ball and target code in) must give
+    # the compiled kernel's outputs to the last bit.
     kind = BALL if domain.is_ball else BOX_TARGETS
     compiled = run(domain, 30, 1000)
     python = run(domain, 30, 1000, kernel=uncompiled_loop(kind, domain.dimension))

@@ -5,8 +5,9 @@ Three kinds of check:
 * against the plain-NumPy reference ``tests/kernels/reference.py``, in distribution
   (two-sample KS, chi-square, z on proportions), since the two draw random numbers in
   different orders;
-* determinism: same seed, same bits; the uncompiled generated step loop (its ``py_func``) gives
-  exactly the compiled kernel's output (numba's Generator methods reproduce NumPy's streams);
+* determinism: same seed, same bits; the uncompiled generated step loop (its ``py_func``)
+  gives exactly the compiled kernel's output (both draw through the compiled
+  kernels/rng.py);
 * closed forms from ``docs/analytic-reference.md`` (section named beside each
   check), as z-scores ``|estimate - exact| <= Z_STAT * SE`` with fixed seeds.
 
@@ -26,13 +27,14 @@ from numba import njit
 from numpy.typing import NDArray
 from scipy import special, stats
 
-from kernels.walkers import BOX, _normal, draw_normals
+from kernels.walkers import BOX, _hit_fraction, _normal, _random_state, draw_normals
 from tests.kernels.reference import simulate_reference
 from tests.kernels.runner import (
     Domain,
     Run,
     assert_runs_identical,
     run,
+    stream,
     uncompiled_loop,
 )
 from tests.tolerances import P_MIN, Z_STAT
@@ -212,7 +214,7 @@ def test_simulate_matches_reference_in_distribution(case: str, bridge: bool) -> 
     box = replace(REFERENCE_CASES[case], bridge=bridge)
     seed = 20240 + list(REFERENCE_CASES).index(case) + 100 * bridge
     context = f"seed {seed}, {asdict(box)}"
-    kernel = run(box, N_REFERENCE, np.random.default_rng(seed))
+    kernel = run(box, N_REFERENCE, stream(seed))
     reference = run_reference(box, N_REFERENCE, np.random.default_rng(seed + 1))
     n = N_REFERENCE
     d = len(box.start)
@@ -333,14 +335,14 @@ def test_normal_sampler_reproduces_numpy_stream(bit_generator: Any) -> None:
 
 
 def test_simulate_same_seed_bit_identical() -> None:
-    first = run(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
-    again = run(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
+    first = run(RECTANGLE_MIXED_DRIFT, 2000, stream(11))
+    again = run(RECTANGLE_MIXED_DRIFT, 2000, stream(11))
     assert_runs_identical(first, again)
 
 
 def test_simulate_different_seeds_differ() -> None:
-    first = run(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(11))
-    other = run(RECTANGLE_MIXED_DRIFT, 2000, np.random.default_rng(12))
+    first = run(RECTANGLE_MIXED_DRIFT, 2000, stream(11))
+    other = run(RECTANGLE_MIXED_DRIFT, 2000, stream(12))
     assert not np.array_equal(first.time, other.time, equal_nan=True)
     assert not np.array_equal(first.final, other.final, equal_nan=True)
 
@@ -349,8 +351,8 @@ def test_simulate_first_walker_independent_of_walker_count() -> None:
     # Walkers consume one shared stream in order, so walker 0 of a run does not
     # depend on how many walkers follow it.
     box = replace(RECTANGLE_MIXED_DRIFT, survival_times=())
-    many = run(box, 50, np.random.default_rng(5))
-    one = run(box, 1, np.random.default_rng(5))
+    many = run(box, 50, stream(5))
+    one = run(box, 1, stream(5))
     for name in ("time", "wall", "position", "final"):
         np.testing.assert_array_equal(
             getattr(one, name), getattr(many, name)[:1], err_msg=name
@@ -396,16 +398,16 @@ HYPERCUBE = replace(
          "cube-mixed", "hypercube"],
 )  # fmt: skip
 def test_simulate_py_func_identical_to_compiled(box: Domain) -> None:
-    # numba's Generator methods (random, standard_normal, wald) reproduce NumPy's
-    # streams from the same bit generator, so the uncompiled generated loop must agree
-    # to the last bit, and leave the generator in the same state.
+    # The uncompiled generated loop draws through the same compiled samplers
+    # (kernels/rng.py) from the same stream, so it must agree to the last bit and
+    # leave the stream in the same state.
     dim = len(box.start)
-    compiled_rng = np.random.default_rng(99)
-    python_rng = np.random.default_rng(99)
-    compiled = run(box, 30, compiled_rng)
-    python = run(box, 30, python_rng, kernel=uncompiled_loop(BOX, dim))
+    compiled_state = stream(99)
+    python_state = stream(99)
+    compiled = run(box, 30, compiled_state)
+    python = run(box, 30, python_state, kernel=uncompiled_loop(BOX, dim))
     assert_runs_identical(compiled, python)
-    assert compiled_rng.bit_generator.state == python_rng.bit_generator.state
+    np.testing.assert_array_equal(compiled_state, python_state)
 
 
 # --------------------------------------------------------------------------- analytic
@@ -423,7 +425,7 @@ def interval_aa_run(dt: float, bridge: bool, n_walkers: int, seed: int) -> Run:
         X0_P, L_P, True, True, diffusivity=D_P, dt=dt,
         n_steps=round(HORIZON_AA / dt), bridge=bridge,
     )  # fmt: skip
-    result = run(box, n_walkers, np.random.default_rng(seed))
+    result = run(box, n_walkers, stream(seed))
     assert np.all(result.wall >= 0), "walkers censored: lengthen HORIZON_AA"
     return result
 
@@ -472,7 +474,7 @@ def test_interval_absorbing_reflecting_mean_exit_time() -> None:
         X0_P, L_P, True, False, diffusivity=D_P, dt=dt, n_steps=round(40.0 / dt),
         bridge=True,
     )  # fmt: skip
-    result = run(box, 50_000, np.random.default_rng(2))
+    result = run(box, 50_000, stream(2))
     assert np.all(result.wall == 0)
     mean, se = mean_and_se(result.time)
     # E T = x0 (2L - x0) / (2D): Redner (2001) Ch. 2, reflecting/absorbing interval
@@ -532,7 +534,7 @@ def half_line_run() -> tuple[Domain, Run]:
         bridge=True,
         survival_times=HALF_LINE_TIMES,
     )
-    return box, run(box, 100_000, np.random.default_rng(4))
+    return box, run(box, 100_000, stream(4))
 
 
 def test_half_line_survival() -> None:
@@ -563,7 +565,7 @@ def test_half_line_drift_toward_wall_inverse_gaussian() -> None:
         absorbing_upper=(False,), diffusivity=D_P, drift=(-v,), dt=dt,
         n_steps=round(300.0 / dt), bridge=True,
     )  # fmt: skip
-    result = run(box, 20_000, np.random.default_rng(6))
+    result = run(box, 20_000, stream(6))
     assert np.all(result.wall == 0)
     # T ~ IG(mean x0/v, shape x0^2/(2D)),
     # i.e. scipy.stats.invgauss(2D/(x0 v), scale=x0^2/(2D)):
@@ -585,7 +587,7 @@ def test_free_motion_mean_and_variance(drift: tuple[float, float]) -> None:
     start = (0.3, -1.2)
     box = free_space(start, drift, diffusivity=D_P, dt=0.01, n_steps=50)
     n = 100_000
-    result = run(box, n, np.random.default_rng(70 + int(drift != (0.0, 0.0))))
+    result = run(box, n, stream(70 + int(drift != (0.0, 0.0))))
     assert np.all(result.wall == -1)
     t = box.horizon
     for axis in range(2):
@@ -608,13 +610,13 @@ def test_free_motion_covariance_at_two_times() -> None:
     start, drift = (0.3, -1.2), (0.5, -0.2)
     dt, n = 0.01, 5000
     first = free_space(start, drift, diffusivity=D_P, dt=dt, n_steps=30)
-    rng = np.random.default_rng(8)
-    at_t1 = run(first, n, rng).final
+    state = stream(8)  # each call continues the stream where the last one stopped
+    at_t1 = run(first, n, state).final
     # Continue each walker from its own X(t1): the kernel takes one start point.
     at_t2 = np.empty_like(at_t1)
     for i in range(n):
         more = replace(first, start=tuple(at_t1[i]), n_steps=50)
-        at_t2[i] = run(more, 1, rng).final[0]
+        at_t2[i] = run(more, 1, state).final[0]
     t1, t2 = first.horizon, first.horizon + 50 * dt
     context = f"t1 {t1}, t2 {t2}, {asdict(first)}"
     # Cov[X_i(s), X_j(t)] = 2 D min(s, t) delta_ij, whatever the drift: Karlin & Taylor
@@ -647,7 +649,7 @@ def test_free_motion_covariance_at_two_times() -> None:
 )  # fmt: skip
 def test_reflecting_box_conserves_walkers(box: Domain) -> None:
     n = 5000
-    result = run(box, n, np.random.default_rng(9))
+    result = run(box, n, stream(9))
     np.testing.assert_array_equal(result.wall, np.full(n, -1))
     assert np.all(np.isnan(result.time))
     assert np.all(np.isnan(result.position))
@@ -664,7 +666,7 @@ def test_reflecting_box_conserves_walkers(box: Domain) -> None:
     "box", [INTERVAL_AA, RECTANGLE_MIXED_DRIFT], ids=["interval", "rectangle"]
 )
 def test_simulate_one_walker(box: Domain, seed: int) -> None:
-    result = run(box, 1, np.random.default_rng(seed))
+    result = run(box, 1, stream(seed))
     t = result.time[0]
     if result.wall[0] >= 0:
         assert 0.0 < t <= box.horizon
@@ -691,7 +693,7 @@ def test_simulate_single_step(bridge: bool, mu: float) -> None:
         absorbing_upper=(False,), diffusivity=diffusivity, drift=(mu,), dt=dt,
         n_steps=1, bridge=bridge, survival_times=(dt / 2, dt),
     )  # fmt: skip
-    result = run(box, n, np.random.default_rng(10 + int(mu)))
+    result = run(box, n, stream(10 + int(mu)))
     assert result.steps == n
     absorbed = result.wall == 0
     assert np.all(result.time[absorbed] <= dt)
@@ -720,6 +722,23 @@ def test_simulate_single_step(bridge: bool, mu: float) -> None:
     check_proportion("absorbed in one step", int(absorbed.sum()), n, probability, box)
 
 
+@njit(nogil=True)
+def hit_fractions(
+    state: NDArray[np.uint64],
+    n: int,
+    alpha: float,
+    gamma: float,
+    diffusivity: float,
+    h: float,
+) -> NDArray[np.float64]:
+    """``n`` draws of the kernel's ``_hit_fraction`` (bridge on) from ``state``."""
+    rs = _random_state(state)  # the kernel's form of the stream
+    out = np.empty(n)
+    for i in range(n):
+        out[i], rs = _hit_fraction(rs, alpha, gamma, diffusivity, h, True)
+    return out
+
+
 @pytest.mark.parametrize(
     ("x2", "case"),
     [(0.9, "end-inside"), (1.05, "end-beyond"), (1.0, "end-on-wall")],
@@ -731,18 +750,10 @@ def test_hit_fraction_law(x2: float, case: str) -> None:
     # IG(mean h alpha / gamma, shape alpha^2 / (2D)), scipy.stats.invgauss; Levy
     # (scipy.stats.levy) when gamma = 0. analytic.md F6 [derived]; time change of the
     # bridge: Karatzas & Shreve (1991) Sec. 5.6.B [from memory].
-    from kernels.walkers import _hit_fraction
-
     a, x1, diffusivity, h, n = 1.0, 0.8, 0.8, 0.05, 20_000
     alpha, gamma = a - x1, abs(a - x2)
     shape = alpha**2 / (2 * diffusivity)
-    rng = np.random.default_rng(14)
-    fractions = np.array(
-        [
-            _hit_fraction(rng.bit_generator, alpha, gamma, diffusivity, h, True)[0]
-            for _ in range(n)
-        ]
-    )
+    fractions = hit_fractions(stream(14), n, alpha, gamma, diffusivity, h)
     assert np.all((fractions > 0.0) & (fractions < 1.0))
     if gamma > 0.0:
         law = stats.invgauss((h * alpha / gamma) / shape, scale=shape)
@@ -763,7 +774,7 @@ def test_simulate_start_next_to_absorbing_wall(bridge: bool) -> None:
         x0, 1.0, True, True, diffusivity=diffusivity, dt=dt, n_steps=5, bridge=bridge,
         survival_times=(dt,),
     )  # fmt: skip
-    result = run(box, n, np.random.default_rng(11))
+    result = run(box, n, stream(11))
     first_step = int(n - result.survival[0])
     sigma = math.sqrt(2 * diffusivity * dt)
     if bridge:
@@ -793,7 +804,7 @@ def test_simulate_start_next_to_absorbing_wall(bridge: bool) -> None:
 def test_narrow_reflecting_box_huge_steps_keeps_walkers_inside(box: Domain) -> None:
     # sqrt(2 D dt) is ~1400 box widths: each step folds many times.
     n = 2000
-    result = run(box, n, np.random.default_rng(12))
+    result = run(box, n, stream(12))
     np.testing.assert_array_equal(result.wall, np.full(n, -1))
     np.testing.assert_array_equal(result.survival, np.full(2, n))
     assert np.all((result.final >= box.lower) & (result.final <= box.upper))
