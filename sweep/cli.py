@@ -70,7 +70,7 @@ def build_parser() -> argparse.ArgumentParser:
         "verify",
         help="compare every finished task's data with the checksums in its marker",
     )
-    verify.add_argument("store")
+    verify.add_argument("store", help=STORE_HELP)
 
     summary = sub.add_parser(
         "summary",
