@@ -43,6 +43,7 @@ import numpy as np
 from numba import njit
 
 from kernels.rng import normal, uniform, wald
+from kernels.walkers import _fold  # the step kernel's mirror, one definition
 
 #: The bridge probability is only evaluated when d1 d2 < BRIDGE_CUTOFF * D h (below
 #: exp(-20) beyond), as in kernels.walkers.
@@ -82,24 +83,6 @@ def _exit_time(u, table, dtable, s0, ds, slope):  # type: ignore[no-untyped-def]
         + (3.0 * h2 - 2.0 * h3) * table[k + 1]
         + (h3 - h2) * dtable[k + 1]
     )
-
-
-@njit(nogil=True, cache=True)
-def _fold(y, lo, hi):  # type: ignore[no-untyped-def]
-    """Mirror ``y`` into [lo, hi] (reflecting faces; either may be infinite)."""
-    if y < lo:
-        image = 2.0 * lo - y
-        if image <= hi:
-            return image
-    else:
-        image = 2.0 * hi - y
-        if image >= lo:
-            return image
-    width = hi - lo
-    u = (y - lo) % (2.0 * width)
-    if u > width:
-        u = 2.0 * width - u
-    return lo + u
 
 
 @njit(nogil=True, cache=True)

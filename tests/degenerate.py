@@ -110,29 +110,9 @@ occupancy = { times = [0.05], bins = 4 }
 """
 
 #: 2 points x 4 tasks, of which only one task will count as done.
-ONE_TASK = """
-[sweep]
-name = "one-task"
-seed = 5
-walkers = 400
-chunk = 100
-[motion]
-dimension = 1
-diffusivity = 0.5
-start = [0.3]
-[time]
-dt = 1e-3
-horizon = 5.0
-[domain]
-lower = [0.0]
-upper = [1.0]
-walls = { x_lower = "absorbing", x_upper = "absorbing" }
-[record]
-survival = { stop = 1.0, points = 11 }
-occupancy = { times = [0.05], bins = 4 }
-[grid]
-"motion.diffusivity" = [0.5, 1.0]
-"""
+ONE_TASK = ONE_WALKER.replace('name = "one-walker"', 'name = "one-task"').replace(
+    "walkers = 1\n", "walkers = 400\nchunk = 100\n"
+)
 
 CASES = {
     "all_on_target": ALL_ON_TARGET,
