@@ -5,6 +5,7 @@ from __future__ import annotations
 import atexit
 import os
 import shutil
+import subprocess
 import sys
 import tempfile
 from pathlib import Path
@@ -87,6 +88,50 @@ PATIENCE = 120.0
 def sweep_command() -> list[str]:
     """The installed console script, run with this interpreter."""
     return [sys.executable, "-m", "sweep.cli"]
+
+
+def run_cli(
+    *args: str | Path,
+    cwd: Path | None = None,
+    timeout: float = PATIENCE,
+    **env: str,
+) -> subprocess.CompletedProcess[str]:
+    """Run ``sweep ARGS`` in a subprocess, as a user would (the one CLI runner).
+
+    Output is captured as text; extra keyword arguments are environment variables.
+    """
+    return subprocess.run(
+        [*sweep_command(), *map(str, args)],
+        capture_output=True,
+        text=True,
+        timeout=timeout,
+        cwd=cwd,
+        env={**os.environ, "PYTHONUNBUFFERED": "1", **env},
+    )
+
+
+def build_store(
+    definition: str | Path, store: Path, threads: int = 1, **options: object
+) -> Path:
+    """Run a definition (its text, or a file) into ``store`` in this process; the
+    store must come out complete. Extra keywords go to :class:`RunOptions`."""
+    from sweep.execute import RunOptions, run
+
+    if isinstance(definition, str):
+        path = store.parent / f"{store.stem}.toml"
+        path.write_text(definition)
+        definition = path
+    summary = run(
+        definition, store, RunOptions(threads=threads, progress=False, **options)
+    )
+    assert summary.complete, summary
+    return store
+
+
+@pytest.fixture(scope="session")
+def small_store(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """:data:`SMALL_SPEC` run once per session (read-only: copy it before changing)."""
+    return build_store(SMALL_SPEC, tmp_path_factory.mktemp("small") / "small.zarr")
 
 
 @pytest.fixture
