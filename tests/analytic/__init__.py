@@ -1,0 +1,1 @@
+"""Tests of ``sweep.analytic``, one file per module of the package."""
