@@ -1,8 +1,7 @@
 """Ball ``|x| < R`` with an absorbing surface, no drift: survival (d = 1, 2, 3), mean
 exit time, harmonic measure of the exit point and its mean cosine.
 
-Sheet section E. Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md``.
+Formulas, sources and their status: ``docs/analytic-reference.md``, section E.
 """
 
 from __future__ import annotations

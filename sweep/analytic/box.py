@@ -1,8 +1,8 @@
 """Box ``prod_i [lower_i, upper_i]`` with per-face absorbing or reflecting walls:
 survival by the product rule over independent axes, mean exit time by quadrature.
 
-Each axis reduces to a half-line, an interval or a free axis. Sheet section D. Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md``.
+Each axis reduces to a half-line, an interval or a free axis. Formulas, sources and
+their status: ``docs/analytic-reference.md``, section D.
 """
 
 from __future__ import annotations

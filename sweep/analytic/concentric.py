@@ -1,8 +1,7 @@
 """Concentric absorbing spheres: the splitting probability between an inner and an
 outer sphere (1, 2 and 3 dimensions, no drift).
 
-Sheet section J6. Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md``.
+Formulas, sources and their status: ``docs/analytic-reference.md``, section J6.
 """
 
 from __future__ import annotations

@@ -1,7 +1,6 @@
 """Free motion (no walls): mean, variance, covariance and Gaussian propagator.
 
-Sheet section A. Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md``.
+Formulas, sources and their status: ``docs/analytic-reference.md``, section A.
 """
 
 from __future__ import annotations

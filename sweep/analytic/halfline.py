@@ -1,8 +1,7 @@
 """Half-line ``[0, inf)`` absorbing at 0: survival, first-passage density, hitting
 probability and mean first-passage time, with or without drift.
 
-Sheet section B. Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md``.
+Formulas, sources and their status: ``docs/analytic-reference.md``, section B.
 """
 
 from __future__ import annotations

@@ -2,8 +2,7 @@
 propagator, for each pair of wall kinds (absorbing or reflecting), with drift where a
 closed form exists.
 
-Sheet section C. Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md``.
+Formulas, sources and their status: ``docs/analytic-reference.md``, section C.
 """
 
 from __future__ import annotations

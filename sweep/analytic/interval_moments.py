@@ -1,8 +1,7 @@
 """Interval ``[0, L]``, time-independent results: splitting probability, mean exit
 time (with drift), second moment and conditional mean exit times.
 
-Sheet sections C1-C3. Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md``.
+Formulas, sources and their status: ``docs/analytic-reference.md``, sections C1-C3.
 """
 
 from __future__ import annotations

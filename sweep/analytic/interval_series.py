@@ -5,8 +5,8 @@ Private to the interval family (:mod:`sweep.analytic.interval`,
 reflecting-reflecting (RR) series and image sums, evaluated for times ``t > 0``, with
 the switch between the two forms at ``IMAGE_SWITCH``.
 
-Sheet sections C1-C5 and H. Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md``.
+Formulas, sources and their status: ``docs/analytic-reference.md``, sections C1-C5
+and H.
 """
 
 from __future__ import annotations

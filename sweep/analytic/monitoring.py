@@ -1,8 +1,7 @@
 """Discrete monitoring: the outward wall shift that mimics checking walls only at step
 ends, and the Brownian-bridge probability of touching a wall within a step.
 
-Sheet section F. Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md``.
+Formulas, sources and their status: ``docs/analytic-reference.md``, section F.
 """
 
 from __future__ import annotations

@@ -11,8 +11,7 @@ dimensionless time ``D t / L**2`` is below ``IMAGE_SWITCH`` (0.05, sheet section
 method-of-images sums are used instead; they are summed until the last pair of images
 changes the result by less than ``SERIES_RTOL * 1e-2`` relative.
 
-Formulas, sources and citation markers: the analytic reference sheet
-``docs/analytic-reference.md`` (section H: series versus images).
+Series versus images: ``docs/analytic-reference.md``, section H.
 """
 
 from __future__ import annotations

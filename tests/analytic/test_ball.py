@@ -1,9 +1,5 @@
 """The absorbing ball (:mod:`sweep.analytic.ball`, sheet section E): check values,
 integral identities, image form against eigen-series, harmonic measure.
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
 """
 
 from __future__ import annotations

@@ -1,9 +1,5 @@
 """Boxes (:mod:`sweep.analytic.box`, sheet section D): check values, the product
 rule and the mean exit time against quadrature.
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
 """
 
 from __future__ import annotations

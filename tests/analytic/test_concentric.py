@@ -1,9 +1,5 @@
 """Splitting between concentric spheres (:mod:`sweep.analytic.concentric`, sheet
 section J6) against a finite-difference solution.
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
 """
 
 from __future__ import annotations

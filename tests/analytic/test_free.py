@@ -1,9 +1,4 @@
-"""Free motion (:mod:`sweep.analytic.free`, sheet section A) against scipy.stats.norm.
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
-"""
+"""Free motion (:mod:`sweep.analytic.free`, sheet section A) against scipy.stats.norm."""
 
 from __future__ import annotations
 

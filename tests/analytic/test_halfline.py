@@ -1,9 +1,5 @@
 """The half-line (:mod:`sweep.analytic.halfline`, sheet section B) against
 scipy.stats.levy / invgauss and quadrature.
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
 """
 
 from __future__ import annotations

@@ -1,9 +1,5 @@
 """The interval's time-dependent laws (:mod:`sweep.analytic.interval`, sheet section C):
 check values, integral identities by quadrature, limits and edge cases.
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
 """
 
 from __future__ import annotations

@@ -1,10 +1,6 @@
 """The interval's splitting probability and exit-time moments
 (:mod:`sweep.analytic.interval_moments`, sheet sections C1-C3) against quadrature
 and scipy.integrate.solve_bvp.
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
 """
 
 from __future__ import annotations

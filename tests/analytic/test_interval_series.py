@@ -1,9 +1,5 @@
 """The interval's engines (:mod:`sweep.analytic.interval_series`): image sums
 against eigen-series where both converge (sheet sections C1-C5, H).
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
 """
 
 from __future__ import annotations

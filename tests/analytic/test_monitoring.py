@@ -1,9 +1,5 @@
 """Discrete monitoring and bridge crossings (:mod:`sweep.analytic.monitoring`,
 sheet section F).
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
 """
 
 from __future__ import annotations

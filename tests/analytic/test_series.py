@@ -1,10 +1,6 @@
 """The package's contract, kept by the series helpers (:mod:`sweep.analytic.series`):
 arrays in, float64 arrays out, t = 0 allowed, bad input rejected, every public name
 cites its source.
-
-Every check names its source beside it (the sheet's section id and citation
-status, or the independent computation); the sheet is
-``docs/analytic-reference.md``.
 """
 
 from __future__ import annotations
