@@ -62,19 +62,15 @@ def _box(ctx: Context, table: dict[str, Any], dimension: int) -> Domain:
                 f"domain.{key}",
                 "belongs to a ball domain; a box takes lower, upper and walls.",
             )
-    lower = vector(
-        ctx,
-        ctx.required(table, "lower", "domain"),
-        "domain.lower",
-        dimension,
-        allow_inf=True,
-    )
-    upper = vector(
-        ctx,
-        ctx.required(table, "upper", "domain"),
-        "domain.upper",
-        dimension,
-        allow_inf=True,
+    lower, upper = (
+        vector(
+            ctx,
+            ctx.required(table, key, "domain"),
+            f"domain.{key}",
+            dimension,
+            allow_inf=True,
+        )
+        for key in ("lower", "upper")
     )
     for axis, lo, hi in zip(axes, lower, upper):
         if not lo < hi or lo == math.inf or hi == -math.inf:

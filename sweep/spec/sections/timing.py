@@ -9,13 +9,8 @@ from sweep.spec.model import Timing
 from sweep.spec.sections.section import Section
 from sweep.spec.values import choice, number
 
-SECTION = Section(
-    "time",
-    ("dt", "horizon", "monitoring", "scheme"),
-    required=True,
-    per_point=True,
-    sweepable=True,
-)
+KEYS = ("dt", "horizon", "monitoring", "scheme")
+SECTION = Section("time", KEYS, required=True, per_point=True, sweepable=True)
 MONITORING: tuple[str, ...] = ("bridge", "endpoint")
 #: Propagation schemes: fixed steps everywhere, or exact sphere jumps in the bulk with
 #: steps only near surfaces (kernels/spheres.py).
