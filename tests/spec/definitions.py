@@ -203,6 +203,14 @@ def with_grid(base: dict[str, Any], key: str, values: list[Any], **changes: Any)
     return spec(base, grid={key: values}, **changes)
 
 
+def edit_text(text: str, *edits: tuple[str, str]) -> str:
+    """Apply text replacements to a definition, each of which must match exactly once."""
+    for old, new in edits:
+        assert text.count(old) == 1, f"edit target {old!r} not unique in the definition"
+        text = text.replace(old, new)
+    return text
+
+
 def assert_rejected(text: str, fragments: tuple[str, ...]) -> None:
     """``text`` is refused with one message holding every fragment (the first one
     matched as written), naming the file."""
