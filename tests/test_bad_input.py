@@ -35,7 +35,7 @@ from kernels import STREAM_VERSION
 from sweep import store
 from sweep.execute import RunOptions, run
 from tests.conftest import PATIENCE, SMALL_SPEC, assert_stores_identical, run_cli
-from tests.spec.definitions import edit_text
+from tests.spec.edit import edit_text
 
 #: For a missing scheduler file: the message must come well before the 60 s the Dask
 #: client would wait for a scheduler (the command takes about 2 s on an idle machine;

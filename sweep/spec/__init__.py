@@ -33,8 +33,8 @@ How to add a key to an existing table (say ``[time] order``):
 4. A key reached inside another one (``domain.walls.<wall>.reactivity``) is sweepable
    once ``Section.deep_keys`` lists its path (with ``deep_hint``/``deep_only`` for
    messages); a key that changes array shapes goes in ``Section.fixed_keys``.
-5. Add its bad values to ``tests/spec/test_sections.py`` (``BAD_INPUTS``) and a
-   positive test beside the table's others.
+5. Add its bad values to the table's ``BAD_INPUTS`` in
+   ``tests/spec/sections/test_<table>.py`` and a positive test beside them.
 
 How to add a table (say ``[force]``):
 
@@ -45,7 +45,7 @@ How to add a table (say ``[force]``):
    in "Allowed keys" messages); one call in ``point.read_point``, after the tables
    it needs (``dimension``, ``domain``).
 3. :meth:`PointSpec.canonical` includes it only when present (old hashes stay).
-4. Tests in ``tests/spec/test_sections.py``; the pinned hashes of
+4. Tests in ``tests/spec/sections/test_<table>.py``; the pinned hash of
    ``tests/spec/test_definition.py`` must not change.
 """
 

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from tests.conftest import PATIENCE, SMALL_SPEC, run_cli
-from tests.spec.definitions import edit_text
+from tests.spec.edit import edit_text
 
 ERROR = "sweep: error:"
 #: Address-space limits for cases that could otherwise take the machine's memory: enough

@@ -12,17 +12,8 @@ from typing import Any
 import pytest
 
 from sweep.errors import SpecError
-from tests.spec.definitions import (
-    DELETE,
-    DISK,
-    LINE,
-    PLANE,
-    SOURCE,
-    assert_rejected,
-    bad,
-    parse,
-    spec,
-)
+from tests.spec.bases import DISK, LINE, PLANE, SOURCE
+from tests.spec.edit import DELETE, assert_rejected, bad, parse, spec
 
 #: Definitions this module must refuse: (text, fragments of the message).
 BAD_INPUTS = [

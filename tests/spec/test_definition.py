@@ -17,20 +17,8 @@ from sweep.spec import (
     load_spec,
     parse_spec,
 )
-from tests.spec.definitions import (
-    DELETE,
-    DISK,
-    HALF_LINE,
-    LINE,
-    PLANE,
-    QUICKSTART,
-    assert_rejected,
-    bad,
-    dumps,
-    edited,
-    parse,
-    spec,
-)
+from tests.spec.bases import DISK, HALF_LINE, LINE, PLANE, QUICKSTART
+from tests.spec.edit import DELETE, assert_rejected, bad, dumps, edited, parse, spec
 
 #: Definitions this module must refuse: (text, fragments of the message).
 BAD_INPUTS = [

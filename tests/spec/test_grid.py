@@ -11,18 +11,8 @@ from typing import Any
 import pytest
 
 from sweep.errors import SpecError
-from tests.spec.definitions import (
-    DELETE,
-    LINE,
-    PLANE,
-    SOURCE,
-    assert_rejected,
-    bad,
-    dumps,
-    parse,
-    spec,
-    with_grid,
-)
+from tests.spec.bases import LINE, PLANE, SOURCE
+from tests.spec.edit import DELETE, assert_rejected, bad, dumps, parse, spec, with_grid
 
 #: Definitions this module must refuse: (text, fragments of the message).
 BAD_INPUTS = [

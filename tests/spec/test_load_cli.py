@@ -19,6 +19,7 @@ from pathlib import Path
 
 import pytest
 
+from tests.spec.bases import CUBE
 from tests.spec.cli_cases import (
     ERROR,
     OCCUPANCY,
@@ -32,7 +33,7 @@ from tests.spec.cli_cases import (
     execute,
     spec_case,
 )
-from tests.spec.definitions import CUBE, dumps
+from tests.spec.edit import dumps
 
 CASES: list[Case] = [
     # ----- syntax

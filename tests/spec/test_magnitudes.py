@@ -9,11 +9,8 @@ import re
 import pytest
 
 from sweep.errors import SpecError
-from tests.spec.definitions import (
-    LINE,
-    parse,
-    spec,
-)
+from tests.spec.bases import LINE
+from tests.spec.edit import parse, spec
 
 
 def test_number_largest_float_integer_refused_by_the_magnitude_limit() -> None:

@@ -9,16 +9,8 @@ import pytest
 from sweep.spec import (
     Timing,
 )
-from tests.spec.definitions import (
-    DELETE,
-    DISK,
-    HALF_LINE,
-    LINE,
-    PLANE,
-    dumps,
-    parse,
-    spec,
-)
+from tests.spec.bases import DISK, HALF_LINE, LINE, PLANE
+from tests.spec.edit import DELETE, dumps, parse, spec
 
 
 def test_record_survival_times_grid() -> None:

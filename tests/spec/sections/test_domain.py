@@ -9,18 +9,8 @@ from typing import Any
 
 import pytest
 
-from tests.spec.definitions import (
-    DELETE,
-    DISK,
-    HALF_LINE,
-    LINE,
-    OCCUPANCY,
-    PLANE,
-    assert_rejected,
-    bad,
-    parse,
-    spec,
-)
+from tests.spec.bases import DISK, HALF_LINE, LINE, OCCUPANCY, PLANE
+from tests.spec.edit import DELETE, assert_rejected, bad, parse, spec
 
 #: Definitions this module must refuse: (text, fragments of the message).
 BAD_INPUTS = [

@@ -13,14 +13,8 @@ from sweep.errors import SpecError
 from sweep.spec import (
     auto_chunk,
 )
-from tests.spec.definitions import (
-    DELETE,
-    LINE,
-    assert_rejected,
-    bad,
-    parse,
-    spec,
-)
+from tests.spec.bases import LINE
+from tests.spec.edit import DELETE, assert_rejected, bad, parse, spec
 
 #: Definitions this module must refuse: (text, fragments of the message).
 BAD_INPUTS = [

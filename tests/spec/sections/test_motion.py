@@ -9,17 +9,8 @@ import re
 import pytest
 
 from sweep.errors import SpecError
-from tests.spec.definitions import (
-    DISK,
-    HALF_LINE,
-    LINE,
-    PLANE,
-    SOURCE,
-    assert_rejected,
-    bad,
-    parse,
-    spec,
-)
+from tests.spec.bases import DISK, HALF_LINE, LINE, PLANE, SOURCE
+from tests.spec.edit import assert_rejected, bad, parse, spec
 
 #: Definitions this module must refuse: (text, fragments of the message).
 BAD_INPUTS = [

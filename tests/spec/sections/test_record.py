@@ -8,17 +8,8 @@ from typing import Any
 
 import pytest
 
-from tests.spec.definitions import (
-    CUBE,
-    HALF_LINE,
-    LINE,
-    OCCUPANCY,
-    PLANE,
-    assert_rejected,
-    bad,
-    parse,
-    spec,
-)
+from tests.spec.bases import CUBE, HALF_LINE, LINE, OCCUPANCY, PLANE
+from tests.spec.edit import assert_rejected, bad, parse, spec
 
 #: Definitions this module must refuse: (text, fragments of the message).
 BAD_INPUTS = [

@@ -4,12 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from tests.spec.definitions import (
-    LINE,
-    assert_rejected,
-    bad,
-    spec,
-)
+from tests.spec.bases import LINE
+from tests.spec.edit import assert_rejected, bad, spec
 
 #: Definitions this module must refuse: (text, fragments of the message).
 BAD_INPUTS = [
