@@ -161,7 +161,7 @@ def statistic(*needs: Needs) -> Callable[[_F], _F]:
 
     ``needs`` lists what the Dataset must hold. The check runs before the function;
     a Dataset without a ``point`` dimension (one point) gets one for the call, and
-    the result drops it again.
+    the result drops it again and keeps the point's scalar coordinates.
     """
 
     def decorate(func: _F) -> _F:
@@ -179,7 +179,17 @@ def statistic(*needs: Needs) -> Callable[[_F], _F]:
                 wall_index(ds, given.arguments["wall"], name)
             if "point" in ds.dims:
                 return func(ds, *args, **kwargs)
-            return func(ds.expand_dims("point"), *args, **kwargs).isel(point=0)
+            out = func(ds.expand_dims("point"), *args, **kwargs).isel(point=0)
+            # The point's parameters stay scalar coordinates through expand_dims, so
+            # the statistic did not see them along point: give them back to the
+            # result, as the whole sweep's row has them.
+            taken = {*out.coords, *out.dims, *getattr(out, "data_vars", ())}
+            scalars = {
+                k: v.variable
+                for k, v in ds.coords.items()
+                if v.ndim == 0 and k not in taken
+            }
+            return out.assign_coords(scalars)
 
         return wrapper  # type: ignore[return-value]
 
