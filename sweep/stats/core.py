@@ -95,16 +95,23 @@ def zscore(estimate: float, exact: float, stderr: float) -> float:
 
 def binned_density(
     count: NDArray[np.float64], n: NDArray[np.float64], width: Any, level: float
-) -> tuple[Any, Any, Any, Any]:
-    """Density count / (n width) of a histogram, its standard error and its Wilson
-    interval divided by the bin width; NaN where ``n`` is 0. ``count``, ``n`` and
-    ``width`` broadcast together."""
+) -> dict[str, Any]:
+    """A histogram's density count / (n width), its standard error and its Wilson
+    interval divided by the bin width, with the counts: the result variables
+    ``estimate``, ``stderr``, ``lower``, ``upper`` and ``count``. NaN where ``n`` is
+    0; ``count``, ``n`` and ``width`` broadcast together."""
     with np.errstate(divide="ignore", invalid="ignore"):
         n_ok = np.where(n > 0, n, np.nan)
         dens = count / (n_ok * width)
         se = np.sqrt(count * (1.0 - count / n_ok)) / (n_ok * width)
         lower, upper = wilson_interval(count, n_ok, level)
-    return dens, se, lower / width, upper / width
+    return {
+        "estimate": dens,
+        "stderr": se,
+        "lower": lower / width,
+        "upper": upper / width,
+        "count": count,
+    }
 
 
 def finished_walkers(ds: xr.Dataset) -> NDArray[np.float64]:

@@ -227,19 +227,11 @@ def fpt_density(
     counts, _ = absorbed.binned(edges)
     n = finished_walkers(ds)[:, None]
     width = np.diff(edges, axis=1)
-    dens, se, lower, upper = binned_density(counts, n, width, level)
     dims = ("point", "fpt_bin")
     return result_dataset(
         ds,
         dims,
-        {
-            "estimate": dens,
-            "stderr": se,
-            "lower": lower,
-            "upper": upper,
-            "count": counts,
-            "n": n[:, 0],
-        },
+        {**binned_density(counts, n, width, level), "n": n[:, 0]},
         coords={
             "fpt_lower": (dims, edges[:, :-1]),
             "fpt_upper": (dims, edges[:, 1:]),

@@ -114,19 +114,11 @@ def exit_position_histogram(
     edges = np.stack(all_edges, axis=1)
     width = np.diff(edges, axis=2)
     n = n_wall if conditional else finished_walkers(ds)
-    dens, se, lower, upper = binned_density(count, n[:, None, None], width, level)
     dims = ("point", "axis", "exit_bin")
     return result_dataset(
         ds,
         dims,
-        {
-            "estimate": dens,
-            "stderr": se,
-            "lower": lower,
-            "upper": upper,
-            "count": count,
-            "n": n,
-        },
+        {**binned_density(count, n[:, None, None], width, level), "n": n},
         coords={
             "axis": axes,
             "exit_lower": (dims, edges[..., :-1]),

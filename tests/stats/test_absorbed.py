@@ -12,12 +12,7 @@ import pytest
 from sweep import stats
 from sweep.errors import SweepWarning
 from sweep.stats.absorbed import bin_block, bin_rows
-from tests.stats.synthetic import (
-    CHUNK,
-    aggregate_only,
-    inverse_gaussian,
-    make_dataset,
-)
+from tests.stats.synthetic import CHUNK, aggregate_only, inverse_gaussian, make_dataset
 from tests.tolerances import RTOL_F64
 
 

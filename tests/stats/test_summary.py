@@ -9,10 +9,7 @@ import numpy as np
 
 import sweep
 from sweep import stats
-from tests.stats.synthetic import (
-    WALLS_1D,
-    make_dataset,
-)
+from tests.stats.synthetic import WALLS_1D, make_dataset
 
 
 def test_summary_headline_numbers() -> None:

@@ -94,6 +94,11 @@ def shifted_exponential(
     return shift + scipy_stats.expon(scale=1 / rate).rvs(size=shape, random_state=rng)
 
 
+def tail_parameters(rate: float, shift: float) -> dict[str, float]:
+    """Exact rate, amplitude and mean of :func:`shifted_exponential`'s law."""
+    return {"rate": rate, "amplitude": math.exp(rate * shift), "mean": shift + 1 / rate}
+
+
 def test_tail_fit_recovers_exponential_tail() -> None:
     # scipy.stats.expon shifted by t0: rate lambda, amplitude exp(lambda t0), mean
     # t0 + 1/lambda; horizon where S = 0.05, so the mean needs the extrapolation.
@@ -104,11 +109,7 @@ def test_tail_fit_recovers_exponential_tail() -> None:
     times = shifted_exponential(rng, (1, 20_000), rate, shift)
     ds = make_dataset(times, horizon, grid)
     result = stats.tail_fit(ds, horizon=horizon).isel(point=0)
-    exact = {
-        "rate": rate,
-        "amplitude": math.exp(rate * shift),
-        "mean": shift + 1 / rate,
-    }
+    exact = tail_parameters(rate, shift)
     for name, value in exact.items():
         row = result.sel(parameter=name)
         z = stats.zscore(float(row["estimate"]), value, float(row["stderr"]))
@@ -126,11 +127,7 @@ def test_tail_fit_coverage() -> None:
     times = shifted_exponential(rng, (REPLICATIONS, 400), rate, shift)
     result = stats.tail_fit(make_dataset(times, horizon, grid), level=LEVEL)
     assert result["window_points"].min() >= 2
-    exact = {
-        "rate": rate,
-        "amplitude": math.exp(rate * shift),
-        "mean": shift + 1 / rate,
-    }
+    exact = tail_parameters(rate, shift)
     for name, value in exact.items():
         row = result.sel(parameter=name)
         coverage = float(((row["lower"] <= value) & (value <= row["upper"])).mean())

@@ -15,10 +15,7 @@ import xarray as xr
 import sweep
 from sweep import stats
 from sweep.errors import UsageError
-from tests.stats.synthetic import (
-    aggregate_only,
-    make_dataset,
-)
+from tests.stats.synthetic import aggregate_only, make_dataset
 from tests.tolerances import RTOL_F64
 
 
