@@ -126,6 +126,10 @@ class RunSummary:
     storage_full: bool = False
     walker_steps: int = 0
     seconds: float = 0.0
+    #: CPU seconds the completed tasks spent in the kernel (each task's own thread,
+    #: summed): the rest of a run's CPU time went to zarr, Dask and bookkeeping
+    #: (``sweep bench`` compares the two within one run).
+    kernel_seconds: float = 0.0
     interrupted: bool = False
     #: Tasks still running in this process's threads when a second Ctrl-C asked to
     #: stop at once: their work is lost (the store is intact). The caller should exit
@@ -256,7 +260,8 @@ def run_task(
     Returns
     -------
     dict
-        ``{"point", "chunk", "walkers", "steps", "seconds", "censored", "host", "pid"}``
+        ``{"point", "chunk", "walkers", "steps", "seconds", "cpu_seconds",
+        "censored", "absorbed_by", "host", "pid", "thread"}``
         on success, ``{"point", "chunk", "error", "errno"}`` on failure, or
         ``{"point", "chunk", "skipped": True}`` when the run is stopping.
     """
@@ -266,13 +271,16 @@ def run_task(
         # Before the work too: a queued task of a dead driver stops at once.
         store.check_store_id(Path(store_path), store_id, task)
         start = time.perf_counter()
+        cpu = time.thread_time()
         output, steps = simulate_task(task)
+        cpu = time.thread_time() - cpu
         summary = {
             "point": task.point,
             "chunk": task.chunk,
             "walkers": task.n_walkers,
             "steps": steps,
             "seconds": round(time.perf_counter() - start, 6),
+            "cpu_seconds": round(cpu, 6),  # the kernel's thread alone
             "censored": int(np.count_nonzero(output.wall < 0)),
             "absorbed_by": np.bincount(output.wall[output.wall >= 0]).tolist(),
             "host": socket.gethostname(),
@@ -558,6 +566,7 @@ def _handle(
     else:
         summary.completed += 1
         summary.walker_steps += int(result["steps"])
+        summary.kernel_seconds += float(result.get("cpu_seconds", 0.0))
     progress.update(result)
 
 
