@@ -126,6 +126,16 @@ def configurations() -> list[dict[str, Any]]:
                 survival_times=[0.01, 0.05, 0.1, 0.2], fpt_bins=4 if drift else 0,
                 fpt_bin_width=0.1,
             ))  # fmt: skip
+    # Narrow boxes whose steps (sigma about a box width) often overshoot a face's
+    # mirror image past the opposite face: the fold's rare path.
+    for bridge, faces in itertools.product((True, False), ("AR", "RR")):
+        configs.append(dict(
+            lower=[0.0, 0.0, 0.0], upper=[0.05, 0.3, 1.0],
+            absorbing_lower=[faces[0] == "A", False, True],
+            absorbing_upper=[faces[1] == "A", False, False],
+            start=[0.02, 0.1, 0.5], drift=[3.0, -2.0, 0.0], diffusivity=1.0, dt=1e-3,
+            n_steps=60, bridge=bridge, survival_times=[0.01, 0.05],
+        ))  # fmt: skip
     # Boxes with targets (one, two, seventy), absorbing or reflecting faces, uniform
     # starts, occupancy snapshots (step 0 and repeated steps).
     for d, n_targets, faces, bridge, uniform in itertools.product(

@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator, kernels/walkers.py and rng.py: 4b08b5dfb01d241b1997843561a5732e
+Digest of template, generator, kernels/walkers.py and rng.py: 4b9081916b2a422dc5708e11ceb02ad0
 """
 
 # ruff: noqa
@@ -152,8 +152,16 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -398,10 +406,21 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -702,12 +721,26 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -1064,14 +1097,31 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -1484,16 +1534,36 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
-                    if y4 < rl4 or y4 > rh4:
-                        y4 = _fold(y4, rl4, rh4)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -1962,18 +2032,41 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
-                    if y4 < rl4 or y4 > rh4:
-                        y4 = _fold(y4, rl4, rh4)
-                    if y5 < rl5 or y5 > rh5:
-                        y5 = _fold(y5, rl5, rh5)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -2498,20 +2591,46 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
-                    if y4 < rl4 or y4 > rh4:
-                        y4 = _fold(y4, rl4, rh4)
-                    if y5 < rl5 or y5 > rh5:
-                        y5 = _fold(y5, rl5, rh5)
-                    if y6 < rl6 or y6 > rh6:
-                        y6 = _fold(y6, rl6, rh6)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -3092,22 +3211,51 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
-                    if y4 < rl4 or y4 > rh4:
-                        y4 = _fold(y4, rl4, rh4)
-                    if y5 < rl5 or y5 > rh5:
-                        y5 = _fold(y5, rl5, rh5)
-                    if y6 < rl6 or y6 > rh6:
-                        y6 = _fold(y6, rl6, rh6)
-                    if y7 < rl7 or y7 > rh7:
-                        y7 = _fold(y7, rl7, rh7)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -3536,8 +3684,16 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -3835,10 +3991,21 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -4192,12 +4359,26 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -4607,14 +4788,31 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -5080,16 +5278,36 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
-                    if y4 < rl4 or y4 > rh4:
-                        y4 = _fold(y4, rl4, rh4)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -5611,18 +5829,41 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
-                    if y4 < rl4 or y4 > rh4:
-                        y4 = _fold(y4, rl4, rh4)
-                    if y5 < rl5 or y5 > rh5:
-                        y5 = _fold(y5, rl5, rh5)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -6200,20 +6441,46 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
-                    if y4 < rl4 or y4 > rh4:
-                        y4 = _fold(y4, rl4, rh4)
-                    if y5 < rl5 or y5 > rh5:
-                        y5 = _fold(y5, rl5, rh5)
-                    if y6 < rl6 or y6 > rh6:
-                        y6 = _fold(y6, rl6, rh6)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
@@ -6847,22 +7114,51 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 near = not (x_inside & y_inside)
                 x_inside = y_inside
                 if near:
-                    if y0 < rl0 or y0 > rh0:
-                        y0 = _fold(y0, rl0, rh0)
-                    if y1 < rl1 or y1 > rh1:
-                        y1 = _fold(y1, rl1, rh1)
-                    if y2 < rl2 or y2 > rh2:
-                        y2 = _fold(y2, rl2, rh2)
-                    if y3 < rl3 or y3 > rh3:
-                        y3 = _fold(y3, rl3, rh3)
-                    if y4 < rl4 or y4 > rh4:
-                        y4 = _fold(y4, rl4, rh4)
-                    if y5 < rl5 or y5 > rh5:
-                        y5 = _fold(y5, rl5, rh5)
-                    if y6 < rl6 or y6 > rh6:
-                        y6 = _fold(y6, rl6, rh6)
-                    if y7 < rl7 or y7 > rh7:
-                        y7 = _fold(y7, rl7, rh7)
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the

@@ -175,9 +175,19 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     near = not (x_inside & y_inside)
                     x_inside = y_inside
                     if near:
+                        # The mirror image in the face crossed, as _fold makes it,
+                        # chosen without a branch per axis (a walker near a face
+                        # folds at random steps: branches mispredict); _fold itself
+                        # only for a step whose image overshoots the opposite face.
                         for i in AXES:
-                            if y_i < rl_i or y_i > rh_i:
-                                y_i = _fold(y_i, rl_i, rh_i)
+                            c_i = 2.0 * rl_i - y_i if y_i < rl_i else y_i
+                            c_i = 2.0 * rh_i - y_i if y_i > rh_i else c_i
+                        if not all((rl_i <= c_i) & (c_i <= rh_i) for i in AXES):
+                            for i in AXES:
+                                if y_i < rl_i or y_i > rh_i:
+                                    c_i = _fold(y_i, rl_i, rh_i)
+                        for i in AXES:
+                            y_i = c_i
                         x_inside = all((blo_i <= y_i) & (y_i <= bhi_i) for i in AXES)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
