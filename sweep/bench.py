@@ -43,7 +43,8 @@ import numpy as np
 
 from kernels.ceiling import draw_normals, limit_normals
 from kernels.rng import initial_state
-from sweep.execute import RunOptions, run, simulate_task
+from sweep.execute import RunOptions, run
+from sweep.simulate import simulate_task
 from sweep.plan import BIT_GENERATOR, KernelArgs, Task, make_plan
 from sweep.spec import parse_spec
 

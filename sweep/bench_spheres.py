@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from sweep.execute import simulate_spheres_moves, simulate_task
+from sweep.simulate import simulate_spheres_moves, simulate_task
 from sweep.plan import Task, make_plan
 from sweep.spec import parse_spec
 

@@ -20,6 +20,15 @@ from typing import Any
 from sweep.errors import SweepError, SweepWarning
 
 MAX_TABLE_POINTS = 20
+#: The flag of each library option an error message may name (see
+#: :meth:`sweep.errors.SweepError.worded`).
+FLAGS = {
+    "threads": "--threads",
+    "processes": "--processes",
+    "scheduler": "--scheduler",
+    "scheduler_file": "--scheduler-file",
+    "progress": "--quiet",
+}
 STORE_HELP = "zarr store directory made by `sweep run`"
 
 
@@ -186,7 +195,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except SweepError as err:
         if args.traceback:
             raise
-        print(f"sweep: error: {err}", file=sys.stderr)
+        print(f"sweep: error: {err.worded(FLAGS)}", file=sys.stderr)
         return err.exit_code
     except KeyboardInterrupt:
         print("\nsweep: interrupted.", file=sys.stderr)
