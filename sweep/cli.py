@@ -531,7 +531,7 @@ def _plan(args: argparse.Namespace) -> int:
 
 
 def _bench_spheres() -> int:
-    from sweep.bench_spheres import HEADER, NOTE, TARGETS, run_spheres_bench
+    from sweep.bench.spheres import HEADER, NOTE, TARGETS, run_spheres_bench
 
     print(NOTE)
     print(HEADER)

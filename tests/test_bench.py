@@ -212,7 +212,7 @@ def test_machine_note_only_when_the_generator_loop_also_misses() -> None:
 
 def test_spheres_bench_rows() -> None:
     # A smoke test of `sweep bench --spheres` with few walkers (speed is not asserted).
-    from sweep.bench_spheres import RADII, format_row, run_spheres_bench
+    from sweep.bench.spheres import RADII, format_row, run_spheres_bench
 
     lines: list[str] = []
     rows = run_spheres_bench(lines.append, sphere_walkers=50, step_walkers=2)
