@@ -44,6 +44,8 @@ FAIL_FAST = 25.0
 ERROR = "sweep: error:"
 #: The message argparse prints for bad options of `sweep run`.
 ARGPARSE_RUN_ERROR = "sweep run: error:"
+#: ... and for `sweep bench`, whose range checks are argparse types.
+ARGPARSE_BENCH_ERROR = "sweep bench: error:"
 #: Address-space limit for cases that could otherwise take the machine's memory: enough
 #: for `sweep run` (numba, dask).
 RUN_LIMIT = 4 << 30
@@ -479,11 +481,13 @@ CASES: list[Case] = [
         id="bench-no-repeats",
         argv=("bench", "--repeats", "0"),
         expect=("--repeats", "at least 1", "got 0"),
+        prefix=ARGPARSE_BENCH_ERROR,
     ),
     Case(
         id="bench-negative-remeasure",
         argv=("bench", "--remeasure", "-1"),
         expect=("--remeasure", "at least 0", "got -1"),
+        prefix=ARGPARSE_BENCH_ERROR,
     ),
     # ----- status, check, export on paths that are not stores
     store_command("status-missing-store", "status", (), "no such store"),
