@@ -5,13 +5,8 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from sweep.bench import rows as targets
 from sweep.bench.rows import (
-    TARGET_BULK_1D,
-    TARGET_BULK_3D,
-    TARGET_END_TO_END,
-    TARGET_OPTIONS,
-    TARGET_PLAIN,
-    TARGET_THREADS,
     BenchRow,
     bulk_target_of,
     is_plain,
@@ -78,12 +73,12 @@ def machine_note(threads: ThreadRuns) -> str | None:
     drawing the normals alone, measured in turn with it, misses it too: the machine
     then holds back even the work that limits the kernel."""
     kernel, draws = threads.kernel(), threads.draws()
-    if kernel >= TARGET_THREADS or draws >= TARGET_THREADS:
+    if kernel >= targets.TARGET_THREADS or draws >= targets.TARGET_THREADS:
         return None
     return (
         f"note: drawing the normals alone, with no kernel code, gave {draws:.2f}x on "
         f"two threads in the same run (the kernel {kernel:.2f}x): on this machine "
-        f"even that misses {TARGET_THREADS}x (other jobs on its cores, shared "
+        f"even that misses {targets.TARGET_THREADS}x (other jobs on its cores, shared "
         "hyperthreads, or lower clocks with both cores busy)."
     )
 
@@ -95,21 +90,27 @@ def verdicts(
     (the end-to-end one when ``e2e`` is given)."""
     plain = [r.of_limit for r in rows if is_plain(r)]
     every = [r.of_limit for r in rows]
-    one_d = [r.over_bulk for r in rows if bulk_target_of(r) == TARGET_BULK_1D]
-    three_d = [r.over_bulk for r in rows if bulk_target_of(r) == TARGET_BULK_3D]
+    one_d = [r.over_bulk for r in rows if bulk_target_of(r) == targets.TARGET_BULK_1D]
+    three_d = [r.over_bulk for r in rows if bulk_target_of(r) == targets.TARGET_BULK_3D]
     out = [
-        _verdict("plain (endpoint, no occupancy) / limit, worst", plain, TARGET_PLAIN),
-        _verdict("every option combination / limit, worst", every, TARGET_OPTIONS),
-        _verdict("1-D interval, bridge / numpy bulk", one_d, TARGET_BULK_1D),
-        _verdict("3-D / numpy bulk (in normals), worst", three_d, TARGET_BULK_3D),
-        _verdict("two threads / one thread", [speedup], TARGET_THREADS),
+        _verdict(
+            "plain (endpoint, no occupancy) / limit, worst", plain, targets.TARGET_PLAIN
+        ),
+        _verdict(
+            "every option combination / limit, worst", every, targets.TARGET_OPTIONS
+        ),
+        _verdict("1-D interval, bridge / numpy bulk", one_d, targets.TARGET_BULK_1D),
+        _verdict(
+            "3-D / numpy bulk (in normals), worst", three_d, targets.TARGET_BULK_3D
+        ),
+        _verdict("two threads / one thread", [speedup], targets.TARGET_THREADS),
     ]
     if e2e:
         out.append(
             _verdict(
                 "sweep run --threads 1 / bench (CPU time), worst",
                 [e.kept for e in e2e],
-                TARGET_END_TO_END,
+                targets.TARGET_END_TO_END,
             )
         )
     return out

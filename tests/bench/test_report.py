@@ -5,12 +5,6 @@ from __future__ import annotations
 from sweep.bench import (
     BUSY_SPREAD,
     CASES,
-    TARGET_BULK_1D,
-    TARGET_BULK_3D,
-    TARGET_END_TO_END,
-    TARGET_OPTIONS,
-    TARGET_PLAIN,
-    TARGET_THREADS,
     BenchRow,
     EndToEnd,
     ThreadRuns,
@@ -23,6 +17,7 @@ from sweep.bench import (
     thread_note,
     verdicts,
 )
+from sweep.bench import rows as targets
 
 
 def _row(case: str, options: str, spread: float = 0.0) -> BenchRow:
@@ -41,20 +36,20 @@ def test_busy_note_only_when_repetitions_disagree() -> None:
 def test_plain_rows_have_the_plain_target() -> None:
     # "Plain" is endpoint monitoring without occupancy; the bridge test and occupancy
     # are options (DEVELOPERS.md, "Benchmarks").
-    assert target_of(_row("ball 3-D", "endpoint")) == TARGET_PLAIN
+    assert target_of(_row("ball 3-D", "endpoint")) == targets.TARGET_PLAIN
     for options in ("bridge", "bridge + occupancy", "endpoint + occupancy"):
-        assert target_of(_row("ball 3-D", options)) == TARGET_OPTIONS
+        assert target_of(_row("ball 3-D", options)) == targets.TARGET_OPTIONS
 
 
 def test_bulk_targets_cover_the_1d_bridge_and_every_3d_case() -> None:
     # The numpy-bulk targets: the 1-D interval with the bridge, and every
     # 3-D case (DEVELOPERS.md, "Benchmarks").
-    assert bulk_target_of(_row("interval 1-D", "bridge")) == TARGET_BULK_1D
+    assert bulk_target_of(_row("interval 1-D", "bridge")) == targets.TARGET_BULK_1D
     assert bulk_target_of(_row("interval 1-D", "endpoint")) is None
     for case in CASES:
         if "3-D" in case:
             for options in ("bridge", "endpoint + occupancy"):
-                assert bulk_target_of(_row(case, options)) == TARGET_BULK_3D
+                assert bulk_target_of(_row(case, options)) == targets.TARGET_BULK_3D
 
 
 def test_thread_note_only_above_two() -> None:
@@ -74,9 +69,9 @@ def _threads(kernel: float, draws: float) -> ThreadRuns:
 def test_machine_note_only_when_the_generator_loop_also_misses() -> None:
     # The kernel is blamed (no note) unless drawing the normals alone, measured in
     # the same run, also falls short of the target.
-    below = TARGET_THREADS - 0.1
-    assert machine_note(_threads(TARGET_THREADS, below)) is None
-    assert machine_note(_threads(below, TARGET_THREADS)) is None
+    below = targets.TARGET_THREADS - 0.1
+    assert machine_note(_threads(targets.TARGET_THREADS, below)) is None
+    assert machine_note(_threads(below, targets.TARGET_THREADS)) is None
     note = machine_note(_threads(below, below - 0.05))
     assert note is not None and f"{below - 0.05:.2f}x" in note and "machine" in note
     line = thread_line(_threads(1.7, 1.75))
@@ -92,4 +87,4 @@ def test_end_to_end_keeps_a_share_of_the_bench_rate() -> None:
     (*_, (name, kept, wanted, met)) = verdicts(
         [*rows, _row("ball 3-D", "bridge")], 2.0, [e]
     )
-    assert (kept, wanted, met) == (0.75, TARGET_END_TO_END, False)
+    assert (kept, wanted, met) == (0.75, targets.TARGET_END_TO_END, False)
