@@ -56,8 +56,6 @@ CONFINED = {
 #: test_known_exceptions_are_still_needed says when one is no longer needed.
 #: (importing module, imported module), as dotted names.
 KNOWN_EXCEPTIONS = {
-    # plan reads the sphere exit-time tables; they move to sweep.exit_times (area A).
-    ("sweep.plan", "sweep.analytic"),
     # stats computes with dask arrays; the dask import leaves stats (area B).
     ("sweep.stats", "dask.array"),
 }
