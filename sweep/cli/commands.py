@@ -10,7 +10,7 @@ import signal
 import sys
 from pathlib import Path
 
-from sweep.text import format_table
+from sweep import text
 
 #: Above this many points, ``sweep run`` leaves the per-point tables to ``sweep check``.
 MAX_TABLE_POINTS = 20
@@ -202,7 +202,7 @@ def status_command(args: argparse.Namespace) -> int:
                 frac,
             ]
         )
-    print(format_table(rows))
+    print(text.format_table(rows))
     print(f"{total}/{sweep.n_points * n_c} tasks done")
     return 0
 
