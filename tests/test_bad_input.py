@@ -46,6 +46,7 @@ ERROR = "sweep: error:"
 ARGPARSE_RUN_ERROR = "sweep run: error:"
 #: ... and for `sweep bench`, whose range checks are argparse types.
 ARGPARSE_BENCH_ERROR = "sweep bench: error:"
+ARGPARSE_EXPORT_ERROR = "sweep export: error:"
 #: Address-space limit for cases that could otherwise take the machine's memory: enough
 #: for `sweep run` (numba, dask).
 RUN_LIMIT = 4 << 30
@@ -514,6 +515,7 @@ CASES: list[Case] = [
         setup=(copy_store(),),
         store="s.zarr",
         absent="out.h5",
+        prefix=ARGPARSE_EXPORT_ERROR,
     ),
     Case(
         id="export-points-out-of-range",
@@ -530,6 +532,7 @@ CASES: list[Case] = [
         setup=(copy_store(),),
         store="s.zarr",
         absent="out.h5",
+        prefix=ARGPARSE_EXPORT_ERROR,
     ),
     Case(
         id="export-unknown-variable",

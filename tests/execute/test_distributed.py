@@ -200,7 +200,7 @@ def test_slurm_job_script_runs_the_sweep(
 ) -> None:
     """The HPC recipe end to end on this machine: `srun` is a stand-in that runs its
     command once (one node); scheduler and workers are real processes on 127.0.0.1."""
-    script = Path(__file__).resolve().parent.parent / "sweeps" / "hpc" / "slurm-job.sh"
+    script = Path(__file__).resolve().parents[2] / "sweeps" / "hpc" / "slurm-job.sh"
     fake_bin = tmp_path / "bin"
     fake_bin.mkdir()
     srun = fake_bin / "srun"
