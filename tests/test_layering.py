@@ -51,14 +51,12 @@ CONFINED = {
     "zarr": "store",
 }
 
-#: Imports against the order that other work in flight removes (issue #20): the lead
-#: deletes each entry as the branch fixing it is merged;
+#: Imports against the order tolerated while other work in flight removes them: the
+#: lead deletes each entry as the branch fixing it is merged, and
 #: test_known_exceptions_are_still_needed says when one is no longer needed.
-#: (importing module, imported module), as dotted names.
-KNOWN_EXCEPTIONS = {
-    # stats computes with dask arrays; the dask import leaves stats (area B).
-    ("sweep.stats", "dask.array"),
-}
+#: (importing module, imported module), as dotted names. Empty since issue #20's
+#: merges (plan imported analytic, stats imported dask.array).
+KNOWN_EXCEPTIONS: set[tuple[str, str]] = set()
 
 
 def modules() -> Iterator[tuple[str, Path]]:
