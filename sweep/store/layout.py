@@ -483,7 +483,7 @@ READ_TEXT = {
     "index": "index coordinate",
     "coordinate": "coordinate",
     "variable": "variable",
-    "masked": "variable, unfinished tasks masked to the fill value",
+    "masked": "variable; unfinished tasks read as the fill value",
     "summed": "summed over finished chunks",
 }
 
@@ -492,36 +492,41 @@ def markdown_table() -> str:
     """The array table of ``docs/store-format.md``, made from :data:`ARRAYS`."""
     rows = [
         "| array | dims | dtype (fill) | chunks | written by | present | "
-        "`sweep.open` | attributes |",
-        "|---|---|---|---|---|---|---|---|",
+        "in `sweep.open` | exported | attributes |",
+        "|---|---|---|---|---|---|---|---|---|",
     ]
     for spec in ARRAYS:
         dims = ", ".join("x_bin, …" if d == BINS else d for d in spec.dims)
-        dtype = "f8 or string" if spec.dtype == "values" else spec.dtype
+        dtype = "f8, bool or string" if spec.dtype == "values" else spec.dtype
         if spec.fill is not None:
             dtype += f" ({'NaN' if spec.fill != spec.fill else spec.fill})"
         chunks = "one chunk"
         if spec.chunking == "task":
-            chunk = {"point": "1", "chunk": "1", "walker": "chunk"}
-            parts = [chunk.get(d, "whole") for d in spec.dims]
-            chunks = "(" + ", ".join(parts) + ")"
-        writer = f"task (`{spec.output}`)" if spec.output else "driver"
+            chunk = {"point": "1", "chunk": "1", "walker": "chunk", BINS: "whole, …"}
+            chunks = "(" + ", ".join(chunk.get(d, "whole") for d in spec.dims) + ")"
         read = READ_TEXT[spec.read]
         if spec.read_as:
             read += ": " + ", ".join(f"`{v.name}`" for v in spec.read_as)
-        if spec.exported:
-            read += "; exported"
         attrs = ["long_name"]
         if spec.written_by_task:
-            attrs.insert(0, "coordinates")
+            attrs.insert(0, "coordinates*")
         if spec.standard_name:
-            attrs.append(f"standard_name={spec.standard_name}")
+            attrs.append(f"standard_name = {spec.standard_name}")
         if spec.flags:
             attrs += ["flag_values", "flag_meanings"]
         if spec.quantity:
-            attrs.append(f"units ({spec.quantity})")
-        rows.append(
-            f"| `{spec.name}` | {dims} | {dtype} | {chunks} | {writer} | "
-            f"{WHEN_TEXT[spec.when]} | {read} | {', '.join(attrs)} |"
+            unit = "of the parameter" if spec.quantity == "by name" else spec.quantity
+            attrs.append(f"units ({unit})")
+        cells = (
+            f"`{spec.name}`",
+            dims,
+            dtype,
+            chunks,
+            f"task (`TaskOutput.{spec.output}`)" if spec.output else "driver",
+            "one per swept parameter" if spec.name == PARAMETER else WHEN_TEXT[spec.when],
+            read,
+            "yes" if spec.exported else "no",
+            ", ".join(attrs),
         )
+        rows.append("| " + " | ".join(cells) + " |")
     return "\n".join(rows) + "\n"
