@@ -179,7 +179,7 @@ def sync_chunks(
     StoreError
         A chunk file that must exist is missing.
     """
-    states = {}
+    states: dict[str, Any] = {}
     for key, must in expected.items():
         file = base / key
         try:
@@ -194,6 +194,8 @@ def sync_chunks(
                     f"data are not all fill value; nothing was marked done, a rerun "
                     f"computes the task again."
                 ) from None
+            states[key] = ABSENT
+            continue
         except OSError as err:
             raise os_error(base, "flush a chunk file to disk", err) from err
         fsync_dir(file.parent)  # the file's name, new in its folder, must last too

@@ -332,9 +332,9 @@ def test_a_task_flushes_exactly_the_chunk_files_zarr_wrote(
     flushed: list[Path] = []
     real_fsync = store.files.fsync_file
 
-    def spy(file: Path) -> None:  # records, then flushes for real
-        flushed.append(Path(file))
+    def spy(file: Path) -> None:  # flushes for real, then records what it flushed
         real_fsync(file)
+        flushed.append(Path(file))
 
     monkeypatch.setattr(store.files, "fsync_file", spy)
     monkeypatch.setattr(store.markers, "fsync_file", spy)
