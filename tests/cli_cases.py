@@ -8,8 +8,9 @@ traceback, and every file of an existing store byte-identical afterwards (the ru
 
     from tests.cli_cases import outcomes, reference_store, workspace  # fixtures
 
-    @pytest.mark.parametrize("case", params(CASES))
-    def test_...(case, request): check(case, request)
+    test_something = case_test(CASES, "What the cases have in common.")
+
+(``tests/store/conftest.py`` imports the fixtures for every store test.)
 
 The cases of a module are independent, so they are set up and started together
 on a small thread pool (the imports of ``sweep run`` cost about two CPU-seconds each) and
@@ -337,6 +338,17 @@ def params(cases: list[Case]) -> list[object]:
         )
         for c in cases
     ]
+
+
+def case_test(cases: list[Case], doc: str) -> Callable[..., None]:
+    """The test of a module's ``cases``: bind it to a ``test_*`` name there."""
+
+    @pytest.mark.parametrize("case", params(cases))
+    def test(case: Case, request: pytest.FixtureRequest) -> None:
+        check(case, request)
+
+    test.__doc__ = doc
+    return test
 
 
 def assert_one_error(

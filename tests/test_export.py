@@ -15,10 +15,9 @@ from sweep.errors import StoreError
 from sweep.export import export_hdf5
 from tests.cli_cases import (
     Case,
-    check,
+    case_test,
     copy_store,
     outcomes,  # noqa: F401  (a fixture)
-    params,
     read_only_dir,
     reference_store,  # noqa: F401  (a fixture)
     workspace,  # noqa: F401  (a fixture)
@@ -89,11 +88,9 @@ CASES: list[Case] = [
 ]
 
 
-@pytest.mark.parametrize("case", params(CASES))
-def test_bad_export_options_and_destinations(
-    case: Case, request: pytest.FixtureRequest
-) -> None:
-    check(case, request)
+test_bad_export_options_and_destinations = case_test(
+    CASES, "Bad export options and destinations leave the store as it was."
+)
 
 
 def test_export_round_trip_is_exact(small_store: Path, tmp_path: Path) -> None:

@@ -3,16 +3,10 @@ made get one clear message and are left as they were."""
 
 from __future__ import annotations
 
-import pytest
-
 from tests.cli_cases import (
     Case,
-    check,
-    outcomes,  # noqa: F401  (a fixture)
-    params,
+    case_test,
     read_only_dir,
-    reference_store,  # noqa: F401  (a fixture)
-    workspace,  # noqa: F401  (a fixture)
     write,
 )
 from tests.conftest import SMALL_SPEC
@@ -44,8 +38,6 @@ CASES: list[Case] = [
 ]
 
 
-@pytest.mark.parametrize("case", params(CASES))
-def test_no_store_where_none_can_be_made(
-    case: Case, request: pytest.FixtureRequest
-) -> None:
-    check(case, request)
+test_no_store_where_none_can_be_made = case_test(
+    CASES, "No store is made, and nothing changed, where none can be made."
+)

@@ -7,25 +7,17 @@ from __future__ import annotations
 import contextlib
 import json
 import shutil
-from collections.abc import Iterator
+from collections.abc import Callable
 from pathlib import Path
-
-import pytest
 
 from sweep import store
 from tests.cli_cases import (
     Case,
-    Unavailable,
     assert_one_error,
-    check,
+    case_test,
     copy_store,
     hold_lock,
-    mount_tmpfs,
-    outcomes,  # noqa: F401  (a fixture)
-    params,
     read_only_dir,
-    reference_store,  # noqa: F401  (a fixture)
-    workspace,  # noqa: F401  (a fixture)
     write,
 )
 from tests.conftest import SMALL_SPEC, assert_stores_identical, run_cli
@@ -70,37 +62,22 @@ CASES: list[Case] = [
 ]
 
 
-@pytest.mark.parametrize("case", params(CASES))
-def test_a_second_runner_is_refused(case: Case, request: pytest.FixtureRequest) -> None:
-    check(case, request)
-
-
-@pytest.fixture
-def cleanup() -> Iterator[contextlib.ExitStack]:
-    with contextlib.ExitStack() as stack:
-        yield stack
+test_a_second_runner_is_refused = case_test(
+    CASES, "A second runner, or a store it cannot lock, gets one message."
+)
 
 
 def test_full_disk_at_the_lock_leaves_no_lock_and_resumes(
-    workspace: Path,  # noqa: F811  (the fixture imported above)
-    reference_store: Path,  # noqa: F811
-    cleanup: contextlib.ExitStack,
+    reference_store: Path, small_disk: Callable[[str, str], tuple[Path, Path]]
 ) -> None:
     """Resuming on a disk that is already full: the disk-full message, no lock left
     behind (an empty ``_lock.json`` used to block every later run), then a resume."""
-    folder = workspace / "full-disk-lock"
-    folder.mkdir()
-    small_spec = folder / "small.toml"
-    small_spec.write_text(SMALL_SPEC)
-    try:
-        mount_tmpfs(folder / "disk", "8m", cleanup)
-    except Unavailable as why:
-        pytest.skip(str(why))
-    out = folder / "disk" / "s.zarr"
+    small_spec, disk = small_disk("full-disk-lock", "8m")
+    out = disk / "s.zarr"
     shutil.copytree(reference_store, out)
     for marker in sorted((out / store.MARKER_DIR).iterdir())[:3]:
         marker.unlink()
-    filler = folder / "disk" / "filler"
+    filler = disk / "filler"
     with contextlib.suppress(OSError), filler.open("wb") as f:
         while True:
             f.write(b"\0" * 4096)

@@ -15,11 +15,10 @@ cleanly, keeping every finished task.
 from __future__ import annotations
 
 import concurrent.futures
-import contextlib
 import json
 import shutil
 import subprocess
-from collections.abc import Callable, Iterator
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -33,13 +32,7 @@ from sweep.errors import StoreDamagedError, StoreError
 from sweep.execute import RunOptions, run
 from sweep.plan import make_plan
 from sweep.spec import load_spec
-from tests.cli_cases import (
-    Unavailable,
-    assert_one_error,
-    mount_tmpfs,
-    reference_store,  # noqa: F401  (a fixture)
-    workspace,  # noqa: F401  (a fixture)
-)
+from tests.cli_cases import assert_one_error
 from tests.conftest import (
     SMALL_SPEC,
     assert_stores_identical,
@@ -373,27 +366,12 @@ def test_a_chunk_file_that_should_exist_and_does_not_is_an_error(
 # --------------------------------------------------------------------------- full disk
 
 
-@pytest.fixture
-def cleanup() -> Iterator[contextlib.ExitStack]:
-    with contextlib.ExitStack() as stack:
-        yield stack
-
-
 def test_full_disk_stops_cleanly_keeps_finished_tasks_and_resumes(
-    workspace: Path,  # noqa: F811  (the fixture imported above)
-    reference_store: Path,  # noqa: F811
-    cleanup: contextlib.ExitStack,
+    reference_store: Path, small_disk: Callable[[str, str], tuple[Path, Path]]
 ) -> None:
     """A 200 KiB disk holds the store's metadata and a few tasks, then fills up."""
-    folder = workspace / "full-disk"
-    folder.mkdir()
-    small_spec = folder / "small.toml"
-    small_spec.write_text(SMALL_SPEC)
-    try:
-        mount_tmpfs(folder / "disk", "200k", cleanup)
-    except Unavailable as why:
-        pytest.skip(str(why))
-    out = folder / "disk" / "s.zarr"
+    small_spec, disk = small_disk("full-disk", "200k")
+    out = disk / "s.zarr"
     args = ("run", small_spec, "--store", out, "--threads", "1", "--quiet")
     result = run_cli(*args)
     assert_one_error(

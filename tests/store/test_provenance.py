@@ -7,19 +7,13 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-import pytest
-
 from kernels import STREAM_VERSION
 from sweep import store
 from tests.cli_cases import (
     Case,
-    check,
+    case_test,
     copy_store,
     edit_attrs,
-    outcomes,  # noqa: F401  (a fixture)
-    params,
-    reference_store,  # noqa: F401  (a fixture)
-    workspace,  # noqa: F401  (a fixture)
     write,
 )
 from tests.conftest import SMALL_SPEC
@@ -136,11 +130,9 @@ CASES: list[Case] = [
 ]
 
 
-@pytest.mark.parametrize("case", params(CASES))
-def test_a_store_of_another_making_is_refused(
-    case: Case, request: pytest.FixtureRequest
-) -> None:
-    check(case, request)
+test_a_store_of_another_making_is_refused = case_test(
+    CASES, "A run refuses a store of another definition, stream version or format."
+)
 
 
 def test_the_seal_lists_every_file_made_at_creation(small_store: Path) -> None:

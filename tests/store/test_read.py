@@ -13,11 +13,7 @@ from sweep.errors import UsageError
 from tests.cli_cases import (
     Case,
     Setup,
-    check,
-    outcomes,  # noqa: F401  (a fixture)
-    params,
-    reference_store,  # noqa: F401  (a fixture)
-    workspace,  # noqa: F401  (a fixture)
+    case_test,
     write,
 )
 
@@ -40,30 +36,23 @@ def store_command(
 NOT_A_STORE = (write("target/notes.txt", "keep me"),)
 
 CASES: list[Case] = [
-    store_command("status-missing-store", "status", (), "no such store"),
-    store_command(
-        "status-not-a-store", "status", NOT_A_STORE, "is not a brownian-sweep store"
-    ),
-    store_command("check-missing-store", "check", (), "no such store"),
-    store_command(
-        "check-not-a-store", "check", NOT_A_STORE, "is not a brownian-sweep store"
-    ),
-    store_command("summary-missing-store", "summary", (), "no such store"),
-    store_command(
-        "summary-not-a-store", "summary", NOT_A_STORE, "is not a brownian-sweep store"
-    ),
-    store_command("export-missing-store", "export", (), "no such store"),
-    store_command(
-        "export-not-a-store", "export", NOT_A_STORE, "is not a brownian-sweep store"
-    ),
+    case
+    for command in ("status", "check", "summary", "export")
+    for case in (
+        store_command(f"{command}-missing-store", command, (), "no such store"),
+        store_command(
+            f"{command}-not-a-store",
+            command,
+            NOT_A_STORE,
+            "is not a brownian-sweep store",
+        ),
+    )
 ]
 
 
-@pytest.mark.parametrize("case", params(CASES))
-def test_reading_what_is_not_a_store(
-    case: Case, request: pytest.FixtureRequest
-) -> None:
-    check(case, request)
+test_reading_what_is_not_a_store = case_test(
+    CASES, "Reading commands on a missing path or a folder that is no store."
+)
 
 
 def test_open_expands_the_home_folder(
