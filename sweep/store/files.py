@@ -30,22 +30,22 @@ ABSENT = "absent"
 MAX_NAMED = 10
 
 
-def digest(data: bytes) -> str:
+def checksum(data: bytes) -> str:
     """blake2b-128 hex digest of ``data``."""
     # blake2b: in the standard library, about as fast as reading from the page cache,
     # and unlike a CRC it also tells apart a chunk copied from another task on purpose.
     return hashlib.blake2b(data, digest_size=16).hexdigest()
 
 
-def file_state(file: Path, digest_too: bool = True) -> Any:
+def file_state(file: Path, digest: bool = True) -> Any:
     """``"absent"``, or ``[size in bytes, blake2b hex digest]`` (None if not asked)."""
     try:
-        if not digest_too:
+        if not digest:
             return [os.stat(file).st_size, None]
         data = file.read_bytes()
     except (FileNotFoundError, NotADirectoryError):
         return ABSENT
-    return [len(data), digest(data)]
+    return [len(data), checksum(data)]
 
 
 def difference(was: Any, now: Any, since: str) -> str:

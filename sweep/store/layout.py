@@ -523,7 +523,9 @@ def markdown_table() -> str:
             dtype,
             chunks,
             f"task (`TaskOutput.{spec.output}`)" if spec.output else "driver",
-            "one per swept parameter" if spec.name == PARAMETER else WHEN_TEXT[spec.when],
+            "one per swept parameter"
+            if spec.name == PARAMETER
+            else WHEN_TEXT[spec.when],
             read,
             "yes" if spec.exported else "no",
             ", ".join(attrs),
