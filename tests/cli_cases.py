@@ -29,7 +29,6 @@ import json
 import os
 import shutil
 import subprocess
-import sys
 import tempfile
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
@@ -177,15 +176,6 @@ def read_only_dir(name: str, contents: Setup | None = None) -> Setup:
 
 # --------------------------------------------------------------------------- running
 
-#: Runs the command line under an address-space limit (argv[1] bytes), so a definition
-#: that tries to allocate the machine's memory fails fast instead of swapping it away.
-LIMITED = (
-    "import resource, runpy, sys\n"
-    "limit = int(sys.argv.pop(1))\n"
-    "resource.setrlimit(resource.RLIMIT_AS, (limit, limit))\n"
-    "runpy.run_module('sweep.cli', run_name='__main__', alter_sys=True)\n"
-)
-
 
 @dataclass
 class Outcome:
@@ -214,28 +204,9 @@ def fill(text: str, ws: Path) -> str:
     return text.replace("{ws}", str(ws)).replace("{pid}", str(os.getpid()))
 
 
-def cli(
-    *args: str | Path,
-    timeout: float = PATIENCE,
-    memory_limit: int | None = None,
-    cwd: Path | None = None,
-) -> subprocess.CompletedProcess[str]:
-    """Run ``sweep ARGS`` (under an address-space limit if given)."""
-    if memory_limit is None:
-        return run_cli(*args, cwd=cwd, timeout=timeout)
-    return subprocess.run(
-        [sys.executable, "-c", LIMITED, str(memory_limit), *map(str, args)],
-        env=dict(os.environ, PYTHONUNBUFFERED="1"),
-        cwd=cwd,
-        capture_output=True,
-        text=True,
-        timeout=timeout,
-    )
-
-
 def execute(case: Case, outcome: Outcome) -> Outcome:
     try:
-        result = cli(
+        result = run_cli(
             *(fill(a, outcome.ws) for a in case.argv),
             timeout=case.timeout,
             memory_limit=case.memory_limit,

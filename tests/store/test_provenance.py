@@ -17,17 +17,10 @@ from tests.cli_cases import (
     write,
 )
 from tests.conftest import SMALL_SPEC
+from tests.spec.edit import edit_text
 
 SMALL = write("small.toml", SMALL_SPEC)
 RUN_SMALL = ("run", "{ws}/small.toml", "--store", "{ws}/s.zarr", "--quiet")
-
-
-def _edit(text: str, *edits: tuple[str, str]) -> str:
-    """Apply text replacements, each of which must match exactly once."""
-    for old, new in edits:
-        assert text.count(old) == 1, f"edit target {old!r} not unique in the definition"
-        text = text.replace(old, new)
-    return text
 
 
 def other_definition(id: str, text: str, *expect: str) -> Case:
@@ -61,12 +54,14 @@ def _as_unversioned_store(attrs: dict[str, object]) -> None:
 CASES: list[Case] = [
     other_definition(
         "store-of-other-grid",
-        _edit(SMALL_SPEC, ("[0.5, 1.0]", "[0.5, 2.0]")),
+        edit_text(SMALL_SPEC, ("[0.5, 1.0]", "[0.5, 2.0]")),
         "values: stored [[0.5], [1.0]], now [[0.5], [2.0]]",
     ),
     other_definition(
         "store-of-other-seed-and-horizon",
-        _edit(SMALL_SPEC, ("seed = 7", "seed = 8"), ("horizon = 3.0", "horizon = 4.0")),
+        edit_text(
+            SMALL_SPEC, ("seed = 7", "seed = 8"), ("horizon = 3.0", "horizon = 4.0")
+        ),
         "sweep.seed: stored 7, now 8",
         "point0.time.horizon: stored 3.0, now 4.0",
     ),
