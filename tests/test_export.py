@@ -23,6 +23,9 @@ from tests.cli_cases import (
     workspace,  # noqa: F401  (a fixture)
 )
 
+#: The message argparse prints for bad options of `sweep export`.
+ARGPARSE_EXPORT_ERROR = "sweep export: error:"
+
 CASES: list[Case] = [
     Case(
         id="export-points-not-indices",
@@ -31,6 +34,7 @@ CASES: list[Case] = [
         setup=(copy_store(),),
         store="s.zarr",
         absent="out.h5",
+        prefix=ARGPARSE_EXPORT_ERROR,
     ),
     Case(
         id="export-points-out-of-range",
@@ -47,6 +51,7 @@ CASES: list[Case] = [
         setup=(copy_store(),),
         store="s.zarr",
         absent="out.h5",
+        prefix=ARGPARSE_EXPORT_ERROR,
     ),
     Case(
         id="export-unknown-variable",

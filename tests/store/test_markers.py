@@ -313,7 +313,7 @@ def test_a_task_flushes_exactly_the_chunk_files_zarr_wrote(
 ) -> None:
     """The files flushed to disk are the files that appeared; the marker lists every
     chunk key of the task, "absent" exactly where zarr wrote nothing (all fill)."""
-    from sweep.execute import simulate_task
+    from sweep.simulate import simulate_task
 
     spec = tmp_path / "def.toml"
     spec.write_text(definition)
