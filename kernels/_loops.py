@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator, kernels/walkers.py and rng.py: 2cece2cb0fdd4335ba39fda976563784
+Digest of template, generator, kernels/walkers.py and rng.py: bcfbe86ff8f31ab378192c06c2cdc8b9
 """
 
 # ruff: noqa
@@ -21,7 +21,9 @@ from kernels.walkers import (
     _earliest,
     _fold,
     _free,
+    _outside,
     _random_state,
+    _react,
     _store_state,
     draw_normal,
     draw_uniform,
@@ -55,8 +57,11 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(1)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -64,14 +69,32 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -87,6 +110,19 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -107,12 +143,13 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -141,6 +178,35 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 y0 = x0 + s0 + sigma * z
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box1(
+                        (y0,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -168,6 +234,20 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                     x0 = x0 + (y0 - x0) * frac + spread * z
                     break
                 x0 = y0
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -209,6 +289,8 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -233,6 +315,37 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         out.survival[k] += above
     _store_state(state, rs)
     return steps_done
+
+
+@njit(nogil=True, cache=True)
+def mirror_box1(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box1(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale,)
+    return ys
 
 
 @njit(nogil=True, cache=True)
@@ -262,8 +375,11 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(2)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -271,14 +387,32 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -291,14 +425,32 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -314,6 +466,19 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -334,13 +499,15 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(2):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -373,6 +540,54 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
                     y1 = _fold(y1, rl1, rh1)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box2(
+                        (y0, y1,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -413,6 +628,27 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                     break
                 x0 = y0
                 x1 = y1
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -465,6 +701,9 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -498,6 +737,37 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box2(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box2(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -524,8 +794,11 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(3)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -533,14 +806,32 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -553,14 +844,32 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -573,14 +882,32 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -596,6 +923,19 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -616,14 +956,17 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(3):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -660,6 +1003,73 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                     y1 = _fold(y1, rl1, rh1)
                 if y2 < rl2 or y2 > rh2:
                     y2 = _fold(y2, rl2, rh2)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box3(
+                        (y0, y1, y2,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -713,6 +1123,34 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 x0 = y0
                 x1 = y1
                 x2 = y2
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -776,6 +1214,10 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -815,6 +1257,37 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box3(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box3(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -841,8 +1314,11 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(4)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -850,14 +1326,32 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -870,14 +1364,32 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -890,14 +1402,32 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -910,14 +1440,32 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -933,6 +1481,19 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -953,15 +1514,19 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(4):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1002,6 +1567,92 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                     y2 = _fold(y2, rl2, rh2)
                 if y3 < rl3 or y3 > rh3:
                     y3 = _fold(y3, rl3, rh3)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box4(
+                        (y0, y1, y2, y3,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -1068,6 +1719,41 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 x1 = y1
                 x2 = y2
                 x3 = y3
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -1142,6 +1828,11 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -1187,6 +1878,37 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box4(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box4(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -1213,8 +1935,11 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(5)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -1222,14 +1947,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -1242,14 +1985,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -1262,14 +2023,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -1282,14 +2061,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -1302,14 +2099,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -1325,6 +2140,19 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -1345,16 +2173,21 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(5):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1399,6 +2232,111 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                     y3 = _fold(y3, rl3, rh3)
                 if y4 < rl4 or y4 > rh4:
                     y4 = _fold(y4, rl4, rh4)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box5(
+                        (y0, y1, y2, y3, y4,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -1478,6 +2416,48 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 x2 = y2
                 x3 = y3
                 x4 = y4
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -1563,6 +2543,12 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -1614,6 +2600,37 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box5(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box5(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -1640,8 +2657,11 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(6)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -1649,14 +2669,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -1669,14 +2707,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -1689,14 +2745,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -1709,14 +2783,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -1729,14 +2821,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -1749,14 +2859,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
@@ -1772,6 +2900,19 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -1792,17 +2933,23 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(6):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1851,6 +2998,130 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                     y4 = _fold(y4, rl4, rh4)
                 if y5 < rl5 or y5 > rh5:
                     y5 = _fold(y5, rl5, rh5)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box6(
+                        (y0, y1, y2, y3, y4, y5,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -1943,6 +3214,55 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 x3 = y3
                 x4 = y4
                 x5 = y5
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -2039,6 +3359,13 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -2096,6 +3423,37 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box6(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box6(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -2122,8 +3480,11 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(7)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -2131,14 +3492,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -2151,14 +3530,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -2171,14 +3568,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -2191,14 +3606,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -2211,14 +3644,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -2231,14 +3682,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
@@ -2251,14 +3720,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[6]):
+        kl6 = lower[6]
+        ql6 = geometry.reactivity_lower[6] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[6]):
+        kh6 = upper[6]
+        qh6 = geometry.reactivity_upper[6] / diffusivity
+    if geometry.periodic[6]:
+        pw6 = upper[6] - lower[6]
+    special_lower = kl6 > -math.inf or pw6 > 0.0
+    special_upper = kh6 < math.inf or pw6 > 0.0
     if geometry.absorbing_lower[6]:
         al6 = lower[6]
-    else:
+    elif not special_lower:
         rl6 = lower[6]
     if geometry.absorbing_upper[6]:
         ah6 = upper[6]
-    else:
+    elif not special_upper:
         rh6 = upper[6]
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
@@ -2274,6 +3761,19 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -2294,18 +3794,25 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(7):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -2358,6 +3865,149 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                     y5 = _fold(y5, rl5, rh5)
                 if y6 < rl6 or y6 > rh6:
                     y6 = _fold(y6, rl6, rh6)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    if (x6 - kl6) * (y6 - kl6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x6 - kl6, y6 - kl6, ql6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6
+                    if (x6 - kh6) * (y6 - kh6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh6 - x6, kh6 - y6, qh6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box7(
+                        (y0, y1, y2, y3, y4, y5, y6,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -2463,6 +4113,62 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 x4 = y4
                 x5 = y5
                 x6 = y6
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -2570,6 +4276,14 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -2633,6 +4347,37 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box7(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box7(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -2659,8 +4404,11 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(8)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -2668,14 +4416,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -2688,14 +4454,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -2708,14 +4492,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -2728,14 +4530,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -2748,14 +4568,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -2768,14 +4606,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
@@ -2788,14 +4644,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[6]):
+        kl6 = lower[6]
+        ql6 = geometry.reactivity_lower[6] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[6]):
+        kh6 = upper[6]
+        qh6 = geometry.reactivity_upper[6] / diffusivity
+    if geometry.periodic[6]:
+        pw6 = upper[6] - lower[6]
+    special_lower = kl6 > -math.inf or pw6 > 0.0
+    special_upper = kh6 < math.inf or pw6 > 0.0
     if geometry.absorbing_lower[6]:
         al6 = lower[6]
-    else:
+    elif not special_lower:
         rl6 = lower[6]
     if geometry.absorbing_upper[6]:
         ah6 = upper[6]
-    else:
+    elif not special_upper:
         rh6 = upper[6]
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
@@ -2808,14 +4682,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh7 = math.inf
     al7 = -math.inf
     ah7 = math.inf
+    kl7 = -math.inf
+    kh7 = math.inf
+    ql7 = 0.0
+    qh7 = 0.0
+    pw7 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[7]):
+        kl7 = lower[7]
+        ql7 = geometry.reactivity_lower[7] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[7]):
+        kh7 = upper[7]
+        qh7 = geometry.reactivity_upper[7] / diffusivity
+    if geometry.periodic[7]:
+        pw7 = upper[7] - lower[7]
+    special_lower = kl7 > -math.inf or pw7 > 0.0
+    special_upper = kh7 < math.inf or pw7 > 0.0
     if geometry.absorbing_lower[7]:
         al7 = lower[7]
-    else:
+    elif not special_lower:
         rl7 = lower[7]
     if geometry.absorbing_upper[7]:
         ah7 = upper[7]
-    else:
+    elif not special_upper:
         rh7 = upper[7]
+    reactive = reactive or kl7 > -math.inf or kh7 < math.inf
+    periodic = periodic or pw7 > 0.0
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
@@ -2831,6 +4723,19 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -2851,19 +4756,27 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(8):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x7 = x[7]
+        wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -2920,6 +4833,168 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                     y6 = _fold(y6, rl6, rh6)
                 if y7 < rl7 or y7 > rh7:
                     y7 = _fold(y7, rl7, rh7)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    if (x6 - kl6) * (y6 - kl6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x6 - kl6, y6 - kl6, ql6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6
+                    if (x6 - kh6) * (y6 - kh6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh6 - x6, kh6 - y6, qh6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6 + 1
+                    if (x7 - kl7) * (y7 - kl7) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x7 - kl7, y7 - kl7, ql7, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y7 = y7 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 7
+                    if (x7 - kh7) * (y7 - kh7) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh7 - x7, kh7 - y7, qh7, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y7 = y7 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 7 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box8(
+                        (y0, y1, y2, y3, y4, y5, y6, y7,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                    y7 = ys[7]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -3038,6 +5113,69 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 x5 = y5
                 x6 = y6
                 x7 = y7
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if pw7 > 0.0 and (x7 < lo7 or x7 >= hi7):
+                        n_wrap = math.floor((x7 - lo7) / pw7)
+                        x7 = x7 - n_wrap * pw7
+                        if x7 < lo7 or x7 >= hi7:  # rounding at a face
+                            x7 = lo7
+                        wrap7 = wrap7 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2 + (x7 - tc7) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -3156,6 +5294,15 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
+            out.displacement[w, 7] = x7 + wrap7 * pw7 - x[7]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -3225,6 +5372,37 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box8(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box8(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2 + (ys[7] - obstacle_center[k, 7]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0), obstacle_center[k, 7] + (2.0 * a if 7 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale, obstacle_center[k, 7] + (ys[7] - obstacle_center[k, 7]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -3251,8 +5429,11 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(1)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -3260,14 +5441,32 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -3283,6 +5482,19 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -3303,12 +5515,13 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3337,6 +5550,41 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 y0 = x0 + s0 + sigma * z
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    frac, hit_wall, ys, rs = reactive_spheres_box_targets1(
+                        rs, (x0,), (y0,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets1(
+                        (y0,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -3385,6 +5633,20 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                     x0 = x0 + (y0 - x0) * frac + spread * z
                     break
                 x0 = y0
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -3426,6 +5688,8 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -3485,6 +5749,81 @@ def other_targets_box_targets1(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets1(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets1(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets1(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets1(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets1(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -3511,8 +5850,11 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(2)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -3520,14 +5862,32 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -3540,14 +5900,32 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -3563,6 +5941,19 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -3583,13 +5974,15 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(2):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3622,6 +6015,61 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
                     y1 = _fold(y1, rl1, rh1)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    frac, hit_wall, ys, rs = reactive_spheres_box_targets2(
+                        rs, (x0, x1,), (y0, y1,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets2(
+                        (y0, y1,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -3683,6 +6131,27 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                     break
                 x0 = y0
                 x1 = y1
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -3735,6 +6204,9 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -3800,6 +6272,81 @@ def other_targets_box_targets2(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets2(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets2(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets2(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets2(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets2(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -3826,8 +6373,11 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(3)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -3835,14 +6385,32 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -3855,14 +6423,32 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -3875,14 +6461,32 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -3898,6 +6502,19 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -3918,14 +6535,17 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(3):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3962,6 +6582,81 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                     y1 = _fold(y1, rl1, rh1)
                 if y2 < rl2 or y2 > rh2:
                     y2 = _fold(y2, rl2, rh2)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    frac, hit_wall, ys, rs = reactive_spheres_box_targets3(
+                        rs, (x0, x1, x2,), (y0, y1, y2,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets3(
+                        (y0, y1, y2,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -4036,6 +6731,34 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 x0 = y0
                 x1 = y1
                 x2 = y2
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -4099,6 +6822,10 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -4170,6 +6897,81 @@ def other_targets_box_targets3(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets3(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets3(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets3(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets3(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets3(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -4196,8 +6998,11 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(4)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -4205,14 +7010,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -4225,14 +7048,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -4245,14 +7086,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -4265,14 +7124,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -4288,6 +7165,19 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -4308,15 +7198,19 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(4):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4357,6 +7251,101 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                     y2 = _fold(y2, rl2, rh2)
                 if y3 < rl3 or y3 > rh3:
                     y3 = _fold(y3, rl3, rh3)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    frac, hit_wall, ys, rs = reactive_spheres_box_targets4(
+                        rs, (x0, x1, x2, x3,), (y0, y1, y2, y3,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets4(
+                        (y0, y1, y2, y3,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -4444,6 +7433,41 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 x1 = y1
                 x2 = y2
                 x3 = y3
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -4518,6 +7542,11 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -4595,6 +7624,81 @@ def other_targets_box_targets4(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets4(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets4(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets4(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets4(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets4(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -4621,8 +7725,11 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(5)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -4630,14 +7737,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -4650,14 +7775,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -4670,14 +7813,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -4690,14 +7851,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -4710,14 +7889,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -4733,6 +7930,19 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -4753,16 +7963,21 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(5):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4807,6 +8022,121 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                     y3 = _fold(y3, rl3, rh3)
                 if y4 < rl4 or y4 > rh4:
                     y4 = _fold(y4, rl4, rh4)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    frac, hit_wall, ys, rs = reactive_spheres_box_targets5(
+                        rs, (x0, x1, x2, x3, x4,), (y0, y1, y2, y3, y4,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets5(
+                        (y0, y1, y2, y3, y4,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -4907,6 +8237,48 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 x2 = y2
                 x3 = y3
                 x4 = y4
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -4992,6 +8364,12 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -5075,6 +8453,81 @@ def other_targets_box_targets5(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets5(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets5(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets5(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets5(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets5(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -5101,8 +8554,11 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(6)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -5110,14 +8566,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -5130,14 +8604,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -5150,14 +8642,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -5170,14 +8680,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -5190,14 +8718,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -5210,14 +8756,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
@@ -5233,6 +8797,19 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -5253,17 +8830,23 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(6):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -5312,6 +8895,141 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                     y4 = _fold(y4, rl4, rh4)
                 if y5 < rl5 or y5 > rh5:
                     y5 = _fold(y5, rl5, rh5)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    frac, hit_wall, ys, rs = reactive_spheres_box_targets6(
+                        rs, (x0, x1, x2, x3, x4, x5,), (y0, y1, y2, y3, y4, y5,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets6(
+                        (y0, y1, y2, y3, y4, y5,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -5425,6 +9143,55 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 x3 = y3
                 x4 = y4
                 x5 = y5
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -5521,6 +9288,13 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -5610,6 +9384,81 @@ def other_targets_box_targets6(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets6(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets6(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets6(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets6(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets6(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -5636,8 +9485,11 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(7)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -5645,14 +9497,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -5665,14 +9535,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -5685,14 +9573,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -5705,14 +9611,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -5725,14 +9649,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -5745,14 +9687,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
@@ -5765,14 +9725,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[6]):
+        kl6 = lower[6]
+        ql6 = geometry.reactivity_lower[6] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[6]):
+        kh6 = upper[6]
+        qh6 = geometry.reactivity_upper[6] / diffusivity
+    if geometry.periodic[6]:
+        pw6 = upper[6] - lower[6]
+    special_lower = kl6 > -math.inf or pw6 > 0.0
+    special_upper = kh6 < math.inf or pw6 > 0.0
     if geometry.absorbing_lower[6]:
         al6 = lower[6]
-    else:
+    elif not special_lower:
         rl6 = lower[6]
     if geometry.absorbing_upper[6]:
         ah6 = upper[6]
-    else:
+    elif not special_upper:
         rh6 = upper[6]
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
@@ -5788,6 +9766,19 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -5808,18 +9799,25 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(7):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -5872,6 +9870,161 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                     y5 = _fold(y5, rl5, rh5)
                 if y6 < rl6 or y6 > rh6:
                     y6 = _fold(y6, rl6, rh6)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    if (x6 - kl6) * (y6 - kl6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x6 - kl6, y6 - kl6, ql6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6
+                    if (x6 - kh6) * (y6 - kh6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh6 - x6, kh6 - y6, qh6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6 + 1
+                    frac, hit_wall, ys, rs = reactive_spheres_box_targets7(
+                        rs, (x0, x1, x2, x3, x4, x5, x6,), (y0, y1, y2, y3, y4, y5, y6,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets7(
+                        (y0, y1, y2, y3, y4, y5, y6,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -5998,6 +10151,62 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 x4 = y4
                 x5 = y5
                 x6 = y6
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -6105,6 +10314,14 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -6200,6 +10417,81 @@ def other_targets_box_targets7(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets7(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets7(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets7(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets7(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0), center[6] + (r if 6 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets7(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -6226,8 +10518,11 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(8)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -6235,14 +10530,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -6255,14 +10568,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -6275,14 +10606,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -6295,14 +10644,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -6315,14 +10682,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -6335,14 +10720,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
@@ -6355,14 +10758,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[6]):
+        kl6 = lower[6]
+        ql6 = geometry.reactivity_lower[6] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[6]):
+        kh6 = upper[6]
+        qh6 = geometry.reactivity_upper[6] / diffusivity
+    if geometry.periodic[6]:
+        pw6 = upper[6] - lower[6]
+    special_lower = kl6 > -math.inf or pw6 > 0.0
+    special_upper = kh6 < math.inf or pw6 > 0.0
     if geometry.absorbing_lower[6]:
         al6 = lower[6]
-    else:
+    elif not special_lower:
         rl6 = lower[6]
     if geometry.absorbing_upper[6]:
         ah6 = upper[6]
-    else:
+    elif not special_upper:
         rh6 = upper[6]
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
@@ -6375,14 +10796,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh7 = math.inf
     al7 = -math.inf
     ah7 = math.inf
+    kl7 = -math.inf
+    kh7 = math.inf
+    ql7 = 0.0
+    qh7 = 0.0
+    pw7 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[7]):
+        kl7 = lower[7]
+        ql7 = geometry.reactivity_lower[7] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[7]):
+        kh7 = upper[7]
+        qh7 = geometry.reactivity_upper[7] / diffusivity
+    if geometry.periodic[7]:
+        pw7 = upper[7] - lower[7]
+    special_lower = kl7 > -math.inf or pw7 > 0.0
+    special_upper = kh7 < math.inf or pw7 > 0.0
     if geometry.absorbing_lower[7]:
         al7 = lower[7]
-    else:
+    elif not special_lower:
         rl7 = lower[7]
     if geometry.absorbing_upper[7]:
         ah7 = upper[7]
-    else:
+    elif not special_upper:
         rh7 = upper[7]
+    reactive = reactive or kl7 > -math.inf or kh7 < math.inf
+    periodic = periodic or pw7 > 0.0
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
@@ -6398,6 +10837,19 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -6418,19 +10870,27 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(8):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x7 = x[7]
+        wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6487,6 +10947,181 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                     y6 = _fold(y6, rl6, rh6)
                 if y7 < rl7 or y7 > rh7:
                     y7 = _fold(y7, rl7, rh7)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    if (x6 - kl6) * (y6 - kl6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x6 - kl6, y6 - kl6, ql6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6
+                    if (x6 - kh6) * (y6 - kh6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh6 - x6, kh6 - y6, qh6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6 + 1
+                    if (x7 - kl7) * (y7 - kl7) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x7 - kl7, y7 - kl7, ql7, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y7 = y7 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 7
+                    if (x7 - kh7) * (y7 - kh7) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh7 - x7, kh7 - y7, qh7, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y7 = y7 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 7 + 1
+                    frac, hit_wall, ys, rs = reactive_spheres_box_targets8(
+                        rs, (x0, x1, x2, x3, x4, x5, x6, x7,), (y0, y1, y2, y3, y4, y5, y6, y7,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                    y7 = ys[7]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets8(
+                        (y0, y1, y2, y3, y4, y5, y6, y7,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                    y7 = ys[7]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -6626,6 +11261,69 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 x5 = y5
                 x6 = y6
                 x7 = y7
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if pw7 > 0.0 and (x7 < lo7 or x7 >= hi7):
+                        n_wrap = math.floor((x7 - lo7) / pw7)
+                        x7 = x7 - n_wrap * pw7
+                        if x7 < lo7 or x7 >= hi7:  # rounding at a face
+                            x7 = lo7
+                        wrap7 = wrap7 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2 + (x7 - tc7) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -6744,6 +11442,15 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
+            out.displacement[w, 7] = x7 + wrap7 * pw7 - x[7]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -6845,6 +11552,81 @@ def other_targets_box_targets8(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets8(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets8(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2 + (xs[7] - target_center[k, 7]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2 + (ys[7] - target_center[k, 7]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets8(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets8(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0), center[6] + (r if 6 == 0 else 0.0), center[7] + (r if 7 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets8(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2 + (ys[7] - obstacle_center[k, 7]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0), obstacle_center[k, 7] + (2.0 * a if 7 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale, obstacle_center[k, 7] + (ys[7] - obstacle_center[k, 7]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -6871,8 +11653,11 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(2)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -6880,6 +11665,13 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -6892,6 +11684,13 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -6907,6 +11706,23 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -6927,13 +11743,15 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(2):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6962,13 +11780,32 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    frac, hit_wall, ys, rs = reactive_spheres_ball2(
+                        rs, (x0, x1,), (y0, y1,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball2(
+                        (y0, y1,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball2(
                             (y0, y1,), ball_center, ball_radius
@@ -7019,6 +11856,27 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                     break
                 x0 = y0
                 x1 = y1
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -7069,6 +11927,9 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -7148,6 +12009,83 @@ def mirror_ball2(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball2(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball2(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = geometry.ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = geometry.ball_center, geometry.ball_radius
+        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2))
+        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2))
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball2(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball2(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball2(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -7174,8 +12112,11 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(3)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -7183,6 +12124,13 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -7195,6 +12143,13 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -7207,6 +12162,13 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -7222,6 +12184,23 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -7242,14 +12221,17 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(3):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7280,13 +12262,34 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    frac, hit_wall, ys, rs = reactive_spheres_ball3(
+                        rs, (x0, x1, x2,), (y0, y1, y2,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball3(
+                        (y0, y1, y2,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball3(
                             (y0, y1, y2,), ball_center, ball_radius
@@ -7341,6 +12344,34 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
                 x0 = y0
                 x1 = y1
                 x2 = y2
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -7401,6 +12432,10 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -7486,6 +12521,83 @@ def mirror_ball3(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball3(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball3(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = geometry.ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = geometry.ball_center, geometry.ball_radius
+        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2))
+        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2))
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball3(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball3(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball3(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -7512,8 +12624,11 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(4)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -7521,6 +12636,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -7533,6 +12655,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -7545,6 +12674,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -7557,6 +12693,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -7572,6 +12715,23 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -7592,15 +12752,19 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(4):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7633,13 +12797,36 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    frac, hit_wall, ys, rs = reactive_spheres_ball4(
+                        rs, (x0, x1, x2, x3,), (y0, y1, y2, y3,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball4(
+                        (y0, y1, y2, y3,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball4(
                             (y0, y1, y2, y3,), ball_center, ball_radius
@@ -7698,6 +12885,41 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
                 x1 = y1
                 x2 = y2
                 x3 = y3
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -7768,6 +12990,11 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -7859,6 +13086,83 @@ def mirror_ball4(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball4(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball4(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = geometry.ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = geometry.ball_center, geometry.ball_radius
+        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2))
+        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2))
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball4(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball4(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball4(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -7885,8 +13189,11 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(5)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -7894,6 +13201,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -7906,6 +13220,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -7918,6 +13239,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -7930,6 +13258,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -7942,6 +13277,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -7957,6 +13299,23 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -7977,16 +13336,21 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(5):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8021,13 +13385,38 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    frac, hit_wall, ys, rs = reactive_spheres_ball5(
+                        rs, (x0, x1, x2, x3, x4,), (y0, y1, y2, y3, y4,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball5(
+                        (y0, y1, y2, y3, y4,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball5(
                             (y0, y1, y2, y3, y4,), ball_center, ball_radius
@@ -8090,6 +13479,48 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
                 x2 = y2
                 x3 = y3
                 x4 = y4
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -8170,6 +13601,12 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -8267,6 +13704,83 @@ def mirror_ball5(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball5(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball5(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = geometry.ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = geometry.ball_center, geometry.ball_radius
+        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2))
+        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2))
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball5(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball5(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball5(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -8293,8 +13807,11 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(6)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -8302,6 +13819,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -8314,6 +13838,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -8326,6 +13857,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -8338,6 +13876,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -8350,6 +13895,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -8362,6 +13914,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
@@ -8377,6 +13936,23 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -8397,17 +13973,23 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(6):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8444,13 +14026,40 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    frac, hit_wall, ys, rs = reactive_spheres_ball6(
+                        rs, (x0, x1, x2, x3, x4, x5,), (y0, y1, y2, y3, y4, y5,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball6(
+                        (y0, y1, y2, y3, y4, y5,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball6(
                             (y0, y1, y2, y3, y4, y5,), ball_center, ball_radius
@@ -8517,6 +14126,55 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
                 x3 = y3
                 x4 = y4
                 x5 = y5
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -8607,6 +14265,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -8710,6 +14375,83 @@ def mirror_ball6(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball6(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball6(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = geometry.ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = geometry.ball_center, geometry.ball_radius
+        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2))
+        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2))
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball6(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball6(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball6(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -8736,8 +14478,11 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(7)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -8745,6 +14490,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -8757,6 +14509,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -8769,6 +14528,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -8781,6 +14547,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -8793,6 +14566,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -8805,6 +14585,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
@@ -8817,6 +14604,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
@@ -8832,6 +14626,23 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -8852,18 +14663,25 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(7):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8902,13 +14720,42 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    frac, hit_wall, ys, rs = reactive_spheres_ball7(
+                        rs, (x0, x1, x2, x3, x4, x5, x6,), (y0, y1, y2, y3, y4, y5, y6,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball7(
+                        (y0, y1, y2, y3, y4, y5, y6,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball7(
                             (y0, y1, y2, y3, y4, y5, y6,), ball_center, ball_radius
@@ -8979,6 +14826,62 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
                 x4 = y4
                 x5 = y5
                 x6 = y6
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -9079,6 +14982,14 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -9188,6 +15099,83 @@ def mirror_ball7(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball7(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball7(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = geometry.ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = geometry.ball_center, geometry.ball_radius
+        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2 + (xs[6] - center[6]) ** 2))
+        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2))
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball7(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball7(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0), center[6] + (r if 6 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball7(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -9214,8 +15202,11 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(8)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -9223,6 +15214,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
@@ -9235,6 +15233,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
@@ -9247,6 +15252,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
@@ -9259,6 +15271,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
@@ -9271,6 +15290,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
@@ -9283,6 +15309,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
@@ -9295,6 +15328,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
@@ -9307,6 +15347,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh7 = math.inf
     al7 = -math.inf
     ah7 = math.inf
+    kl7 = -math.inf
+    kh7 = math.inf
+    ql7 = 0.0
+    qh7 = 0.0
+    pw7 = 0.0
+    reactive = reactive or kl7 > -math.inf or kh7 < math.inf
+    periodic = periodic or pw7 > 0.0
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
@@ -9322,6 +15369,23 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -9342,19 +15406,27 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(8):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x7 = x[7]
+        wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -9395,13 +15467,44 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    frac, hit_wall, ys, rs = reactive_spheres_ball8(
+                        rs, (x0, x1, x2, x3, x4, x5, x6, x7,), (y0, y1, y2, y3, y4, y5, y6, y7,),
+                        geometry, frac, hit_wall, n_box_walls, react_cut,
+                        kill_scale, diffusivity, dt,
+                    )  # fmt: skip
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                    y7 = ys[7]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball8(
+                        (y0, y1, y2, y3, y4, y5, y6, y7,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                    y7 = ys[7]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2 + (y7 - bc7) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball8(
                             (y0, y1, y2, y3, y4, y5, y6, y7,), ball_center, ball_radius
@@ -9476,6 +15579,69 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
                 x5 = y5
                 x6 = y6
                 x7 = y7
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if pw7 > 0.0 and (x7 < lo7 or x7 >= hi7):
+                        n_wrap = math.floor((x7 - lo7) / pw7)
+                        x7 = x7 - n_wrap * pw7
+                        if x7 < lo7 or x7 >= hi7:  # rounding at a face
+                            x7 = lo7
+                        wrap7 = wrap7 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2 + (x7 - tc7) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -9586,6 +15752,15 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
+            out.displacement[w, 7] = x7 + wrap7 * pw7 - x[7]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -9698,6 +15873,83 @@ def mirror_ball8(ys, center, radius):
         r = math.sqrt(d2)
         scale = (2.0 * radius - r) / r
         ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_ball8(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2 + (xs[7] - target_center[k, 7]) ** 2))
+        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2 + (ys[7] - target_center[k, 7]) ** 2))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball8(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = geometry.ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = geometry.ball_center, geometry.ball_radius
+        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2 + (xs[6] - center[6]) ** 2 + (xs[7] - center[7]) ** 2))
+        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2))
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball8(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball8(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0), center[6] + (r if 6 == 0 else 0.0), center[7] + (r if 7 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball8(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2 + (ys[7] - obstacle_center[k, 7]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0), obstacle_center[k, 7] + (2.0 * a if 7 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale, obstacle_center[k, 7] + (ys[7] - obstacle_center[k, 7]) * scale,)
+    return ys
 
 
 #: (kind, dimension) -> its compiled loop.

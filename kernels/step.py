@@ -70,8 +70,11 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(DIM)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     for i in AXES:
         s_i = motion.drift[i] * dt
         lo_i = lower[i]
@@ -80,15 +83,33 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         rh_i = math.inf
         al_i = -math.inf
         ah_i = math.inf
+        kl_i = -math.inf
+        kh_i = math.inf
+        ql_i = 0.0
+        qh_i = 0.0
+        pw_i = 0.0
         if static(KIND != BALL):
+            # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+            if not math.isnan(geometry.reactivity_lower[i]):
+                kl_i = lower[i]
+                ql_i = geometry.reactivity_lower[i] / diffusivity
+            if not math.isnan(geometry.reactivity_upper[i]):
+                kh_i = upper[i]
+                qh_i = geometry.reactivity_upper[i] / diffusivity
+            if geometry.periodic[i]:
+                pw_i = upper[i] - lower[i]
+            special_lower = kl_i > -math.inf or pw_i > 0.0
+            special_upper = kh_i < math.inf or pw_i > 0.0
             if geometry.absorbing_lower[i]:
                 al_i = lower[i]
-            else:
+            elif not special_lower:
                 rl_i = lower[i]
             if geometry.absorbing_upper[i]:
                 ah_i = upper[i]
-            else:
+            elif not special_upper:
                 rh_i = upper[i]
+        reactive = reactive or kl_i > -math.inf or kh_i < math.inf
+        periodic = periodic or pw_i > 0.0
         absorbing_faces = absorbing_faces or al_i > -math.inf or ah_i < math.inf
         ol_i = recording.occupancy_lower[i]
         oh_i = recording.occupancy_upper[i]
@@ -104,6 +125,24 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    if static(KIND == BALL):
+        reactive = reactive or not math.isnan(geometry.ball_reactivity)
+        reflecting_ball = not geometry.ball_absorbing and math.isnan(
+            geometry.ball_reactivity
+        )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -127,13 +166,14 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, static(KIND == BALL), ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(DIM):
                 x[i] = motion.start[i]
         for i in AXES:
             x_i = x[i]
+            wrap_i = 0.0  # periodic widths crossed, for the unwrapped displacement
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -165,6 +205,46 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     for i in AXES:
                         if y_i < rl_i or y_i > rh_i:
                             y_i = _fold(y_i, rl_i, rh_i)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if static(KIND != BALL):
+                        for i in AXES:
+                            if (x_i - kl_i) * (y_i - kl_i) <= react_cut:
+                                f, push, rs = _react(
+                                    rs, x_i - kl_i, y_i - kl_i, ql_i, kill_scale,
+                                    diffusivity, dt,
+                                )  # fmt: skip
+                                y_i = y_i + push
+                                if f < frac:
+                                    frac = f
+                                    hit_wall = 2 * i
+                            if (x_i - kh_i) * (y_i - kh_i) <= react_cut:
+                                f, push, rs = _react(
+                                    rs, kh_i - x_i, kh_i - y_i, qh_i, kill_scale,
+                                    diffusivity, dt,
+                                )  # fmt: skip
+                                y_i = y_i - push
+                                if f < frac:
+                                    frac = f
+                                    hit_wall = 2 * i + 1
+                    if static(KIND != BOX):
+                        frac, hit_wall, ys, rs = reactive_spheres(
+                            rs, tuple(x_i for i in AXES), tuple(y_i for i in AXES),
+                            geometry, frac, hit_wall, n_box_walls, react_cut,
+                            kill_scale, diffusivity, dt,
+                        )  # fmt: skip
+                        for i in AXES:
+                            y_i = ys[i]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror(
+                        tuple(y_i for i in AXES), obstacle_center, obstacle_radius
+                    )
+                    for i in AXES:
+                        y_i = ys[i]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -198,7 +278,7 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     # The ball's surface: radial mirror image, or distances along
                     # the radius (to the tangent plane) within REACH sigma of it.
                     rb2 = sum((y_i - bc_i) ** 2 for i in AXES)
-                    if not geometry.ball_absorbing:
+                    if reflecting_ball:
                         if rb2 > ball_r2:
                             ys = mirror(
                                 tuple(y_i for i in AXES), ball_center, ball_radius
@@ -249,6 +329,21 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     break
                 for i in AXES:
                     x_i = y_i
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    for i in AXES:
+                        if pw_i > 0.0 and (x_i < lo_i or x_i >= hi_i):
+                            n_wrap = math.floor((x_i - lo_i) / pw_i)
+                            x_i = x_i - n_wrap * pw_i
+                            if x_i < lo_i or x_i >= hi_i:  # rounding at a face
+                                x_i = lo_i
+                            wrap_i = wrap_i + n_wrap
+                            wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = sum((x_i - tc_i) ** 2 for i in AXES)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -298,6 +393,9 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            for i in AXES:
+                out.displacement[w, i] = x_i + wrap_i * pw_i - x[i]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -368,3 +466,83 @@ def mirror(ys, center, radius):
         r = math.sqrt(d2)
         scale = (2.0 * radius - r) / r
         ys = tuple(center[i] + (ys[i] - center[i]) * scale for i in AXES)
+
+
+def reactive_spheres(
+    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
+    dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs)."""
+    target_center, target_radius = geometry.target_center, geometry.target_radius
+    for k in range(target_radius.shape[0]):
+        kappa = geometry.target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = math.sqrt(sum((xs[i] - target_center[k, i]) ** 2 for i in AXES))
+        r2 = math.sqrt(sum((ys[i] - target_center[k, i]) ** 2 for i in AXES))
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    if static(KIND == BALL):
+        kappa = geometry.ball_reactivity
+        if not math.isnan(kappa):
+            center, radius = geometry.ball_center, geometry.ball_radius
+            r1 = math.sqrt(sum((xs[i] - center[i]) ** 2 for i in AXES))
+            r2 = math.sqrt(sum((ys[i] - center[i]) ** 2 for i in AXES))
+            d1 = radius - r1
+            d2 = radius - r2
+            if d1 * d2 <= cut:
+                f, push, rs = _react(
+                    rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+                )
+                if push > 0.0:
+                    ys = radial(ys, xs, center, max(radius - d2 - push, 0.0))
+                if f < frac:
+                    frac = f
+                    hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+def radial(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = sum((ys[i] - center[i]) ** 2 for i in AXES)
+    if d2 == 0.0:
+        ys = xs
+        d2 = sum((ys[i] - center[i]) ** 2 for i in AXES)
+        if d2 == 0.0:
+            return tuple(center[i] + (r if i == 0 else 0.0) for i in AXES)
+    scale = r / math.sqrt(d2)
+    return tuple(center[i] + (ys[i] - center[i]) * scale for i in AXES)
+
+
+def obstacle_mirror(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = sum((ys[i] - obstacle_center[k, i]) ** 2 for i in AXES)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = tuple(
+                    obstacle_center[k, i] + (2.0 * a if i == 0 else 0.0) for i in AXES
+                )
+            else:
+                scale = (2.0 * a - r) / r
+                ys = tuple(
+                    obstacle_center[k, i] + (ys[i] - obstacle_center[k, i]) * scale
+                    for i in AXES
+                )
+    return ys

@@ -23,7 +23,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Literal
 
+from sweep import spec_surfaces
 from sweep.errors import SpecError, SweepWarning
+from sweep.spec_surfaces import Obstacle
 
 WallKind = Literal["absorbing", "reflecting"]
 WALL_KINDS: tuple[str, ...] = ("absorbing", "reflecting")
@@ -76,6 +78,7 @@ SECTIONS: dict[str, tuple[str, ...]] = {
         "radius",
         "wall",
         "targets",
+        "obstacles",
     ),
     "record": ("per_walker", "survival", "occupancy", "fpt_bins"),
     "grid": (),
@@ -85,7 +88,7 @@ SECTIONS: dict[str, tuple[str, ...]] = {
 SWEEPABLE_SECTIONS = ("motion", "time", "domain")
 #: Keys that change array shapes or the meaning of stored indices: one store, one value.
 SHAPE_KEYS = ("motion.dimension", "domain.shape")
-TARGET_KEYS = ("center", "radius")
+TARGET_KEYS = ("center", "radius", "reactivity")
 
 
 def axis_names(dimension: int) -> tuple[str, ...]:
@@ -109,6 +112,19 @@ class Target:
 
     center: tuple[float, ...]
     radius: float
+    #: Reactivity κ (length/time) of a reactive target; None: absorbing.
+    reactivity: float | None = None
+
+
+#: Fields of Domain added after stores existed, with their defaults: left out of the
+#: canonical form at these values, so older definitions keep their hash and streams.
+_LATER_FIELDS: dict[str, Any] = {
+    "reactivity_low": (),
+    "reactivity_high": (),
+    "periodic": (),
+    "surface_reactivity": None,
+    "obstacles": (),
+}
 
 
 @dataclass(frozen=True)
@@ -130,10 +146,52 @@ class Domain:
     radius: float = math.inf
     surface_absorbing: bool = False
     targets: tuple[Target, ...] = ()
+    #: Per axis, κ of a reactive lower / upper face or None; () when no face reacts.
+    reactivity_low: tuple[float | None, ...] = ()
+    reactivity_high: tuple[float | None, ...] = ()
+    #: Per axis, whether its two faces are periodic; () when none is.
+    periodic: tuple[bool, ...] = ()
+    #: κ of a reactive ball wall, or None.
+    surface_reactivity: float | None = None
+    #: Reflecting balls inside the domain (no wall index: they never absorb).
+    obstacles: tuple[Obstacle, ...] = ()
 
     @property
     def dimension(self) -> int:
         return len(self.lower)
+
+    def surface_kinds(self) -> list[str]:
+        """The surface kinds of issue 21 present ("reactive walls", ...)."""
+        kinds = []
+        if any(k is not None for k in self.reactivity_low + self.reactivity_high) or (
+            self.surface_reactivity is not None
+        ):
+            kinds.append("reactive walls")
+        if any(t.reactivity is not None for t in self.targets):
+            kinds.append("reactive targets")
+        if any(self.periodic):
+            kinds.append("periodic faces")
+        if self.obstacles:
+            kinds.append("obstacles")
+        return kinds
+
+    def has_surface_kinds(self) -> bool:
+        """Whether any wall is reactive or periodic, or any obstacle is present."""
+        return bool(self.surface_kinds())
+
+    def wall_reactivity(self) -> tuple[float | None, ...]:
+        """κ of each wall of :meth:`wall_names` (None: not reactive)."""
+        kappas: list[float | None] = []
+        if self.shape == "box":
+            d = self.dimension
+            low = self.reactivity_low or (None,) * d
+            high = self.reactivity_high or (None,) * d
+            for lo, hi in zip(low, high):
+                kappas += [lo, hi]
+        kappas += [t.reactivity for t in self.targets]
+        if self.shape == "ball":
+            kappas.append(self.surface_reactivity)
+        return tuple(kappas)
 
     @property
     def bounded(self) -> bool:
@@ -156,7 +214,8 @@ class Domain:
         return tuple(names)
 
     def wall_absorbing(self) -> tuple[bool, ...]:
-        """Whether each wall of :meth:`wall_names` absorbs walkers (targets always do)."""
+        """Whether each wall of :meth:`wall_names` absorbs walkers (targets always do;
+        a reactive wall absorbs some: a reaction is a first passage to it)."""
         kinds: list[bool] = []
         if self.shape == "box":
             for low, high in zip(self.absorbing_low, self.absorbing_high):
@@ -164,7 +223,8 @@ class Domain:
         kinds += [True] * len(self.targets)
         if self.shape == "ball":
             kinds.append(self.surface_absorbing)
-        return tuple(kinds)
+        reactive = self.wall_reactivity()
+        return tuple(a or (k is not None and k > 0) for a, k in zip(kinds, reactive))
 
     def contains(self, point: Sequence[float]) -> bool:
         """Whether ``point`` lies strictly inside the domain and outside every target."""
@@ -174,8 +234,10 @@ class Domain:
             )
         else:
             inside = _distance(point, self.center) < self.radius
-        return inside and not any(
-            _distance(point, t.center) <= t.radius for t in self.targets
+        return (
+            inside
+            and not any(_distance(point, t.center) <= t.radius for t in self.targets)
+            and not any(_distance(point, o.center) <= o.radius for o in self.obstacles)
         )
 
 
@@ -250,13 +312,28 @@ class PointSpec:
             {
                 "motion": self.motion.__dict__,
                 "time": timing,
-                "domain": {
-                    **{k: v for k, v in self.domain.__dict__.items() if k != "targets"},
-                    "targets": [t.__dict__ for t in self.domain.targets],
-                },
+                "domain": _canonical_domain(self.domain),
                 "record": self.record.__dict__,
             }
         )
+
+
+def _canonical_domain(domain: Domain) -> dict[str, Any]:
+    """The domain's fields, leaving out the later ones at their defaults (and a
+    target's reactivity when absorbing) so that older definitions keep their hash."""
+    out = {
+        k: v
+        for k, v in domain.__dict__.items()
+        if k not in ("targets", "obstacles")
+        and not (k in _LATER_FIELDS and v == _LATER_FIELDS[k])
+    }
+    out["targets"] = [
+        {k: v for k, v in t.__dict__.items() if not (k == "reactivity" and v is None)}
+        for t in domain.targets
+    ]
+    if domain.obstacles:
+        out["obstacles"] = [o.__dict__ for o in domain.obstacles]
+    return out
 
 
 #: What is shown in place of a unit the definition does not name.
@@ -811,17 +888,33 @@ class _Parser:
                 f"names no key of [{section}]; allowed: {', '.join(SECTIONS[section])}.{maybe}",
             )
         if len(parts) > 2:
-            ok = (leaf == "walls" and len(parts) == 3) or (
-                leaf == "targets"
-                and len(parts) == 4
-                and _is_index(parts[2])
-                and parts[3] in TARGET_KEYS
+            ok = (
+                (leaf == "walls" and len(parts) == 3)
+                or (
+                    leaf == "walls"
+                    and len(parts) == 4
+                    and parts[3] in spec_surfaces.REACTIVE_KEYS
+                )
+                or (
+                    leaf == "targets"
+                    and len(parts) == 4
+                    and _is_index(parts[2])
+                    and parts[3] in TARGET_KEYS
+                )
+                or (
+                    leaf == "obstacles"
+                    and len(parts) == 4
+                    and _is_index(parts[2])
+                    and parts[3] in spec_surfaces.OBSTACLE_KEYS
+                )
             )
             if not ok:
                 raise self.fail(
                     f"{where}.{key}",
-                    "is too deep; only domain.walls.<wall> and "
-                    "domain.targets.<i>.center|radius reach inside a key.",
+                    "is too deep; only domain.walls.<wall>, "
+                    "domain.walls.<wall>.reactivity, "
+                    "domain.targets.<i>.center|radius|reactivity and "
+                    "domain.obstacles.<i>.center|radius reach inside a key.",
                 )
         for other in seen:
             if (
@@ -927,6 +1020,7 @@ class _Parser:
         domain = self.domain(self.table(raw, "domain", ""), dimension)
         motion = self.motion(motion_raw, dimension, domain)
         self.scales(motion, timing, domain)
+        spec_surfaces.check_point(self, domain, motion, timing)
         record = self.record(self.table(raw, "record", ""), timing, domain)
         if timing.scheme == "spheres":
             self.spheres_allowed(motion, record)
@@ -1093,15 +1187,22 @@ class _Parser:
             self.keys(walls, names, "domain.walls")
             low: list[bool] = []
             high: list[bool] = []
+            found: dict[str, str] = {}
+            kappas: dict[str, float | None] = {}
             for axis, lo, hi in zip(axes, lower, upper):
                 for side, bound, kinds in (("lower", lo, low), ("upper", hi, high)):
                     name = f"{axis}_{side}"
                     if math.isinf(bound):
                         if name in walls:
+                            why = (
+                                ": a reactive wall there would never be reached"
+                                if isinstance(walls[name], dict)
+                                else ""
+                            )
                             raise self.fail(
                                 f"domain.walls.{name}",
                                 f"is at infinity (domain.{side} "
-                                f"is {bound!r}); remove it.",
+                                f"is {bound!r}){why}; remove it.",
                             )
                         kinds.append(False)
                         continue
@@ -1111,14 +1212,27 @@ class _Parser:
                             f"must give the kind of wall {name!r} "
                             f'("absorbing" or "reflecting"); got {_toml(sorted(walls))}.',
                         )
-                    kind = self.choice(walls[name], f"domain.walls.{name}", WALL_KINDS)
+                    kind, kappa = spec_surfaces.wall_kind(
+                        self, walls[name], f"domain.walls.{name}", periodic_allowed=True
+                    )
+                    found[name] = kind
+                    kappas[name] = kappa
                     kinds.append(kind == "absorbing")
+            spec_surfaces.periodic_pairs(self, found, axes)
+            react_low = tuple(kappas.get(f"{a}_lower") for a in axes)
+            react_high = tuple(kappas.get(f"{a}_upper") for a in axes)
+            periodic = tuple(found.get(f"{a}_lower") == "periodic" for a in axes)
+            reactive = any(k is not None for k in react_low + react_high)
             domain = Domain(
                 shape="box",
                 lower=lower,
                 upper=upper,
                 absorbing_low=tuple(low),
                 absorbing_high=tuple(high),
+                # Empty unless used: the canonical form (hash, seeds) leaves them out.
+                reactivity_low=react_low if reactive else (),
+                reactivity_high=react_high if reactive else (),
+                periodic=periodic if any(periodic) else (),
             )
         else:
             for key in ("lower", "upper", "walls"):
@@ -1139,8 +1253,11 @@ class _Parser:
             radius = self.number(
                 self.required(table, "radius", "domain"), "domain.radius", positive=True
             )
-            kind = self.choice(
-                self.required(table, "wall", "domain"), "domain.wall", WALL_KINDS
+            kind, kappa = spec_surfaces.wall_kind(
+                self,
+                self.required(table, "wall", "domain"),
+                "domain.wall",
+                periodic_allowed=False,
             )
             domain = Domain(
                 shape="ball",
@@ -1151,6 +1268,7 @@ class _Parser:
                 center=center,
                 radius=radius,
                 surface_absorbing=kind == "absorbing",
+                surface_reactivity=kappa,
             )
         targets = table.get("targets", [])
         if not isinstance(targets, list):
@@ -1177,9 +1295,20 @@ class _Parser:
                     f"{key}.center",
                     f"must lie inside the domain; got {_toml(list(center))}.",
                 )
-            parsed.append(Target(center=center, radius=radius))
+            reactivity = None
+            if "reactivity" in target:
+                reactivity = self.number(
+                    target["reactivity"],
+                    f"{key}.reactivity",
+                    nonnegative=True,
+                    allow_inf=True,
+                )
+            parsed.append(Target(center=center, radius=radius, reactivity=reactivity))
         if parsed:
             domain = Domain(**{**domain.__dict__, "targets": tuple(parsed)})
+        found_obstacles = spec_surfaces.obstacles(self, table, domain)
+        if found_obstacles:
+            domain = Domain(**{**domain.__dict__, "obstacles": found_obstacles})
         return domain
 
     def motion(self, table: dict[str, Any], dimension: int, domain: Domain) -> Motion:
@@ -1199,7 +1328,7 @@ class _Parser:
                     '"uniform" needs a bounded domain (every side finite); give a start '
                     "point instead.",
                 )
-            if domain.targets and _free_fraction(domain) == 0.0:
+            if (domain.targets or domain.obstacles) and _free_fraction(domain) == 0.0:
                 raise self.fail(
                     "motion.start",
                     '"uniform" needs free space, but the targets cover (nearly) the whole '

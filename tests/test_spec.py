@@ -768,12 +768,13 @@ BAD_INPUTS = [
     bad(
         "wall-kind-unknown",
         spec(LINE, domain__walls__x_lower="sticky"),
-        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting'; got \"sticky\".",
+        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting' ('periodic', or "
+        "{ reactivity = κ }); got \"sticky\".",
     ),
     bad(
         "ball-wall-kind-unknown",
         spec(DISK, domain__wall=True),
-        "[domain.wall] must be 'absorbing' or 'reflecting'; got true.",
+        "[domain.wall] must be 'absorbing' or 'reflecting' ({ reactivity = κ }); got true.",
     ),
     # --- vectors and box/ball geometry
     bad(
@@ -1165,7 +1166,8 @@ BAD_INPUTS = [
     bad(
         "grid-wall-invalid",
         spec(LINE, grid={"domain.walls.x_lower": ["absorbing", "open"]}),
-        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting'; got \"open\". "
+        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting' ('periodic', or "
+        "{ reactivity = κ }); got \"open\". "
         '(at point 1: domain.walls.x_lower = "open")',
     ),
     bad(
