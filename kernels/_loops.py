@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator, kernels/walkers.py and rng.py: bcfbe86ff8f31ab378192c06c2cdc8b9
+Digest of template, generator, kernels/walkers.py and rng.py: e4f1f7f8634d787a3fc4edeadc0f22af
 """
 
 # ruff: noqa
@@ -116,7 +116,20 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -472,7 +485,20 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -929,7 +955,20 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -1487,7 +1526,20 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -2146,7 +2198,20 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -2906,7 +2971,20 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -3767,7 +3845,20 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -4729,7 +4820,20 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -5488,7 +5592,20 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -5573,12 +5690,27 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                         if f < frac:
                             frac = f
                             hit_wall = 2 * 0 + 1
-                    frac, hit_wall, ys, rs = reactive_spheres_box_targets1(
-                        rs, (x0,), (y0,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets1(
+                            rs, (x0,),
+                            (y0,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_box_targets1(
@@ -5764,20 +5896,26 @@ def mirror_box_targets1(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_box_targets1(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -5947,7 +6085,20 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -6056,13 +6207,28 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                         if f < frac:
                             frac = f
                             hit_wall = 2 * 1 + 1
-                    frac, hit_wall, ys, rs = reactive_spheres_box_targets2(
-                        rs, (x0, x1,), (y0, y1,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets2(
+                            rs, (x0, x1,),
+                            (y0, y1,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_box_targets2(
@@ -6287,20 +6453,26 @@ def mirror_box_targets2(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_box_targets2(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -6508,7 +6680,20 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -6641,14 +6826,29 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                         if f < frac:
                             frac = f
                             hit_wall = 2 * 2 + 1
-                    frac, hit_wall, ys, rs = reactive_spheres_box_targets3(
-                        rs, (x0, x1, x2,), (y0, y1, y2,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets3(
+                            rs, (x0, x1, x2,),
+                            (y0, y1, y2,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_box_targets3(
@@ -6912,20 +7112,26 @@ def mirror_box_targets3(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_box_targets3(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -7171,7 +7377,20 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -7328,15 +7547,30 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                         if f < frac:
                             frac = f
                             hit_wall = 2 * 3 + 1
-                    frac, hit_wall, ys, rs = reactive_spheres_box_targets4(
-                        rs, (x0, x1, x2, x3,), (y0, y1, y2, y3,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets4(
+                            rs, (x0, x1, x2, x3,),
+                            (y0, y1, y2, y3,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_box_targets4(
@@ -7639,20 +7873,26 @@ def mirror_box_targets4(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_box_targets4(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -7936,7 +8176,20 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -8117,16 +8370,31 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                         if f < frac:
                             frac = f
                             hit_wall = 2 * 4 + 1
-                    frac, hit_wall, ys, rs = reactive_spheres_box_targets5(
-                        rs, (x0, x1, x2, x3, x4,), (y0, y1, y2, y3, y4,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
-                    y4 = ys[4]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets5(
+                            rs, (x0, x1, x2, x3, x4,),
+                            (y0, y1, y2, y3, y4,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_box_targets5(
@@ -8468,20 +8736,26 @@ def mirror_box_targets5(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_box_targets5(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -8803,7 +9077,20 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -9008,17 +9295,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                         if f < frac:
                             frac = f
                             hit_wall = 2 * 5 + 1
-                    frac, hit_wall, ys, rs = reactive_spheres_box_targets6(
-                        rs, (x0, x1, x2, x3, x4, x5,), (y0, y1, y2, y3, y4, y5,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
-                    y4 = ys[4]
-                    y5 = ys[5]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets6(
+                            rs, (x0, x1, x2, x3, x4, x5,),
+                            (y0, y1, y2, y3, y4, y5,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_box_targets6(
@@ -9399,20 +9701,26 @@ def mirror_box_targets6(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_box_targets6(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -9772,7 +10080,20 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -10001,18 +10322,33 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                         if f < frac:
                             frac = f
                             hit_wall = 2 * 6 + 1
-                    frac, hit_wall, ys, rs = reactive_spheres_box_targets7(
-                        rs, (x0, x1, x2, x3, x4, x5, x6,), (y0, y1, y2, y3, y4, y5, y6,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
-                    y4 = ys[4]
-                    y5 = ys[5]
-                    y6 = ys[6]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets7(
+                            rs, (x0, x1, x2, x3, x4, x5, x6,),
+                            (y0, y1, y2, y3, y4, y5, y6,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_box_targets7(
@@ -10432,20 +10768,26 @@ def mirror_box_targets7(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_box_targets7(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -10843,7 +11185,20 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
             reach2[k] = -1.0
             reactive = True
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -11096,19 +11451,34 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                         if f < frac:
                             frac = f
                             hit_wall = 2 * 7 + 1
-                    frac, hit_wall, ys, rs = reactive_spheres_box_targets8(
-                        rs, (x0, x1, x2, x3, x4, x5, x6, x7,), (y0, y1, y2, y3, y4, y5, y6, y7,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
-                    y4 = ys[4]
-                    y5 = ys[5]
-                    y6 = ys[6]
-                    y7 = ys[7]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2 + (y7 - target_center[k, 7]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2 + (x7 - target_center[k, 7]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets8(
+                            rs, (x0, x1, x2, x3, x4, x5, x6, x7,),
+                            (y0, y1, y2, y3, y4, y5, y6, y7,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
+                        y7 = ys[7]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_box_targets8(
@@ -11567,20 +11937,26 @@ def mirror_box_targets8(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_box_targets8(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2 + (xs[7] - target_center[k, 7]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2 + (ys[7] - target_center[k, 7]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2 + (xs[7] - target_center[k, 7]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2 + (ys[7] - target_center[k, 7]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -11716,7 +12092,22 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
         geometry.ball_reactivity
     )
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -11730,6 +12121,8 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -11785,13 +12178,33 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                 #     passes an exponential threshold (_react); a reaction is a
                 #     crossing like any other in section 3.
                 if reactive:
-                    frac, hit_wall, ys, rs = reactive_spheres_ball2(
-                        rs, (x0, x1,), (y0, y1,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2) >= react_inner2
+                    ):
+                        near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball2(
+                            rs, (x0, x1,),
+                            (y0, y1,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_ball2(
@@ -12010,20 +12423,26 @@ def mirror_ball2(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_ball2(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -12035,11 +12454,16 @@ def reactive_spheres_ball2(
             if f < frac:
                 frac = f
                 hit_wall = n_box_walls + k
-    kappa = geometry.ball_reactivity
+    kappa = ball_reactivity
     if not math.isnan(kappa):
-        center, radius = geometry.ball_center, geometry.ball_radius
-        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2))
-        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2))
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = radius - r1
         d2 = radius - r2
         if d1 * d2 <= cut:
@@ -12194,7 +12618,22 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         geometry.ball_reactivity
     )
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -12208,6 +12647,8 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -12267,14 +12708,34 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
                 #     passes an exponential threshold (_react); a reaction is a
                 #     crossing like any other in section 3.
                 if reactive:
-                    frac, hit_wall, ys, rs = reactive_spheres_ball3(
-                        rs, (x0, x1, x2,), (y0, y1, y2,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2) >= react_inner2
+                    ):
+                        near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball3(
+                            rs, (x0, x1, x2,),
+                            (y0, y1, y2,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_ball3(
@@ -12522,20 +12983,26 @@ def mirror_ball3(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_ball3(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -12547,11 +13014,16 @@ def reactive_spheres_ball3(
             if f < frac:
                 frac = f
                 hit_wall = n_box_walls + k
-    kappa = geometry.ball_reactivity
+    kappa = ball_reactivity
     if not math.isnan(kappa):
-        center, radius = geometry.ball_center, geometry.ball_radius
-        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2))
-        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2))
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = radius - r1
         d2 = radius - r2
         if d1 * d2 <= cut:
@@ -12725,7 +13197,22 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         geometry.ball_reactivity
     )
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -12739,6 +13226,8 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -12802,15 +13291,35 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
                 #     passes an exponential threshold (_react); a reaction is a
                 #     crossing like any other in section 3.
                 if reactive:
-                    frac, hit_wall, ys, rs = reactive_spheres_ball4(
-                        rs, (x0, x1, x2, x3,), (y0, y1, y2, y3,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2) >= react_inner2
+                    ):
+                        near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball4(
+                            rs, (x0, x1, x2, x3,),
+                            (y0, y1, y2, y3,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_ball4(
@@ -13087,20 +13596,26 @@ def mirror_ball4(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_ball4(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -13112,11 +13627,16 @@ def reactive_spheres_ball4(
             if f < frac:
                 frac = f
                 hit_wall = n_box_walls + k
-    kappa = geometry.ball_reactivity
+    kappa = ball_reactivity
     if not math.isnan(kappa):
-        center, radius = geometry.ball_center, geometry.ball_radius
-        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2))
-        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2))
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = radius - r1
         d2 = radius - r2
         if d1 * d2 <= cut:
@@ -13309,7 +13829,22 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         geometry.ball_reactivity
     )
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -13323,6 +13858,8 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -13390,16 +13927,36 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
                 #     passes an exponential threshold (_react); a reaction is a
                 #     crossing like any other in section 3.
                 if reactive:
-                    frac, hit_wall, ys, rs = reactive_spheres_ball5(
-                        rs, (x0, x1, x2, x3, x4,), (y0, y1, y2, y3, y4,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
-                    y4 = ys[4]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2) >= react_inner2
+                    ):
+                        near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball5(
+                            rs, (x0, x1, x2, x3, x4,),
+                            (y0, y1, y2, y3, y4,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_ball5(
@@ -13705,20 +14262,26 @@ def mirror_ball5(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_ball5(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -13730,11 +14293,16 @@ def reactive_spheres_ball5(
             if f < frac:
                 frac = f
                 hit_wall = n_box_walls + k
-    kappa = geometry.ball_reactivity
+    kappa = ball_reactivity
     if not math.isnan(kappa):
-        center, radius = geometry.ball_center, geometry.ball_radius
-        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2))
-        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2))
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = radius - r1
         d2 = radius - r2
         if d1 * d2 <= cut:
@@ -13946,7 +14514,22 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         geometry.ball_reactivity
     )
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -13960,6 +14543,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -14031,17 +14616,37 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
                 #     passes an exponential threshold (_react); a reaction is a
                 #     crossing like any other in section 3.
                 if reactive:
-                    frac, hit_wall, ys, rs = reactive_spheres_ball6(
-                        rs, (x0, x1, x2, x3, x4, x5,), (y0, y1, y2, y3, y4, y5,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
-                    y4 = ys[4]
-                    y5 = ys[5]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2) >= react_inner2
+                    ):
+                        near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball6(
+                            rs, (x0, x1, x2, x3, x4, x5,),
+                            (y0, y1, y2, y3, y4, y5,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_ball6(
@@ -14376,20 +14981,26 @@ def mirror_ball6(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_ball6(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -14401,11 +15012,16 @@ def reactive_spheres_ball6(
             if f < frac:
                 frac = f
                 hit_wall = n_box_walls + k
-    kappa = geometry.ball_reactivity
+    kappa = ball_reactivity
     if not math.isnan(kappa):
-        center, radius = geometry.ball_center, geometry.ball_radius
-        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2))
-        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2))
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = radius - r1
         d2 = radius - r2
         if d1 * d2 <= cut:
@@ -14636,7 +15252,22 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         geometry.ball_reactivity
     )
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -14650,6 +15281,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -14725,18 +15358,38 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
                 #     passes an exponential threshold (_react); a reaction is a
                 #     crossing like any other in section 3.
                 if reactive:
-                    frac, hit_wall, ys, rs = reactive_spheres_ball7(
-                        rs, (x0, x1, x2, x3, x4, x5, x6,), (y0, y1, y2, y3, y4, y5, y6,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
-                    y4 = ys[4]
-                    y5 = ys[5]
-                    y6 = ys[6]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2) >= react_inner2
+                    ):
+                        near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball7(
+                            rs, (x0, x1, x2, x3, x4, x5, x6,),
+                            (y0, y1, y2, y3, y4, y5, y6,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_ball7(
@@ -15100,20 +15753,26 @@ def mirror_ball7(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_ball7(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -15125,11 +15784,16 @@ def reactive_spheres_ball7(
             if f < frac:
                 frac = f
                 hit_wall = n_box_walls + k
-    kappa = geometry.ball_reactivity
+    kappa = ball_reactivity
     if not math.isnan(kappa):
-        center, radius = geometry.ball_center, geometry.ball_radius
-        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2 + (xs[6] - center[6]) ** 2))
-        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2))
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2 + (xs[6] - center[6]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = radius - r1
         d2 = radius - r2
         if d1 * d2 <= cut:
@@ -15379,7 +16043,22 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         geometry.ball_reactivity
     )
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -15393,6 +16072,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -15472,19 +16153,39 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
                 #     passes an exponential threshold (_react); a reaction is a
                 #     crossing like any other in section 3.
                 if reactive:
-                    frac, hit_wall, ys, rs = reactive_spheres_ball8(
-                        rs, (x0, x1, x2, x3, x4, x5, x6, x7,), (y0, y1, y2, y3, y4, y5, y6, y7,),
-                        geometry, frac, hit_wall, n_box_walls, react_cut,
-                        kill_scale, diffusivity, dt,
-                    )  # fmt: skip
-                    y0 = ys[0]
-                    y1 = ys[1]
-                    y2 = ys[2]
-                    y3 = ys[3]
-                    y4 = ys[4]
-                    y5 = ys[5]
-                    y6 = ys[6]
-                    y7 = ys[7]
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2 + (y7 - target_center[k, 7]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2 + (x7 - target_center[k, 7]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2 + (y7 - bc7) ** 2) >= react_inner2
+                    ):
+                        near = True
+                    if near:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball8(
+                            rs, (x0, x1, x2, x3, x4, x5, x6, x7,),
+                            (y0, y1, y2, y3, y4, y5, y6, y7,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
+                        y7 = ys[7]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror_ball8(
@@ -15877,20 +16578,26 @@ def mirror_ball8(ys, center, radius):
 
 @njit(nogil=True, cache=True)
 def reactive_spheres_ball8(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2 + (xs[7] - target_center[k, 7]) ** 2))
-        r2 = math.sqrt(((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2 + (ys[7] - target_center[k, 7]) ** 2))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2 + (xs[7] - target_center[k, 7]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2 + (ys[7] - target_center[k, 7]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -15902,11 +16609,16 @@ def reactive_spheres_ball8(
             if f < frac:
                 frac = f
                 hit_wall = n_box_walls + k
-    kappa = geometry.ball_reactivity
+    kappa = ball_reactivity
     if not math.isnan(kappa):
-        center, radius = geometry.ball_center, geometry.ball_radius
-        r1 = math.sqrt(((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2 + (xs[6] - center[6]) ** 2 + (xs[7] - center[7]) ** 2))
-        r2 = math.sqrt(((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2))
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2 + (xs[6] - center[6]) ** 2 + (xs[7] - center[7]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = radius - r1
         d2 = radius - r2
         if d1 * d2 <= cut:

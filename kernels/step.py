@@ -136,7 +136,23 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
             geometry.ball_reactivity
         )
     # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
     react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if static(KIND == BALL):
+        if not math.isnan(ball_reactivity):
+            react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
     obstacle_center, obstacle_radius = (
         geometry.obstacle_center,
         geometry.obstacle_radius,
@@ -150,6 +166,9 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if static(KIND == BALL):
+        if not math.isnan(geometry.ball_reactivity):
+            inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     if static(KIND == BOX_TARGETS):
         has_targets = True
     else:
@@ -231,13 +250,34 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                                     frac = f
                                     hit_wall = 2 * i + 1
                     if static(KIND != BOX):
-                        frac, hit_wall, ys, rs = reactive_spheres(
-                            rs, tuple(x_i for i in AXES), tuple(y_i for i in AXES),
-                            geometry, frac, hit_wall, n_box_walls, react_cut,
-                            kill_scale, diffusivity, dt,
-                        )  # fmt: skip
-                        for i in AXES:
-                            y_i = ys[i]
+                        # Only steps near a reactive sphere call the helper (a
+                        # call passes arrays, whose reference counts cost ~50 ns).
+                        near = False
+                        for k in range(n_targets):
+                            if (
+                                sum((y_i - target_center[k, i]) ** 2 for i in AXES)
+                                <= react_reach2[k]
+                                or sum((x_i - target_center[k, i]) ** 2 for i in AXES)
+                                <= react_reach2[k]
+                            ):
+                                near = True
+                        if static(KIND == BALL):
+                            if (
+                                rb1 >= react_inner2
+                                or sum((y_i - bc_i) ** 2 for i in AXES) >= react_inner2
+                            ):
+                                near = True
+                        if near:
+                            frac, hit_wall, ys, rs = reactive_spheres(
+                                rs, tuple(x_i for i in AXES),
+                                tuple(y_i for i in AXES), target_center,
+                                target_radius, target_reactivity, ball_center,
+                                ball_radius, ball_reactivity, frac, hit_wall,
+                                n_box_walls, react_cut, REACH * sigma, kill_scale,
+                                diffusivity, dt,
+                            )  # fmt: skip
+                            for i in AXES:
+                                y_i = ys[i]
                 # 2c. Reflecting obstacles: radial mirror image out of the ball.
                 if n_obstacles > 0:
                     ys = obstacle_mirror(
@@ -469,20 +509,26 @@ def mirror(ys, center, radius):
 
 
 def reactive_spheres(
-    rs, xs, ys, geometry, frac, hit_wall, n_box_walls, cut, kill_scale, diffusivity,
-    dt,
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
 ):  # fmt: skip
     """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
     ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
     as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
-    ys, rs)."""
-    target_center, target_radius = geometry.target_center, geometry.target_radius
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
     for k in range(target_radius.shape[0]):
-        kappa = geometry.target_reactivity[k]
+        kappa = target_reactivity[k]
         if math.isnan(kappa):
             continue
-        r1 = math.sqrt(sum((xs[i] - target_center[k, i]) ** 2 for i in AXES))
-        r2 = math.sqrt(sum((ys[i] - target_center[k, i]) ** 2 for i in AXES))
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = sum((xs[i] - target_center[k, i]) ** 2 for i in AXES)
+        r2 = sum((ys[i] - target_center[k, i]) ** 2 for i in AXES)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
         d1 = r1 - target_radius[k]
         d2 = r2 - target_radius[k]
         if d1 * d2 <= cut:
@@ -495,11 +541,16 @@ def reactive_spheres(
                 frac = f
                 hit_wall = n_box_walls + k
     if static(KIND == BALL):
-        kappa = geometry.ball_reactivity
+        kappa = ball_reactivity
         if not math.isnan(kappa):
-            center, radius = geometry.ball_center, geometry.ball_radius
-            r1 = math.sqrt(sum((xs[i] - center[i]) ** 2 for i in AXES))
-            r2 = math.sqrt(sum((ys[i] - center[i]) ** 2 for i in AXES))
+            center, radius = ball_center, ball_radius
+            near2 = max(radius - reach, 0.0) ** 2
+            r1 = sum((xs[i] - center[i]) ** 2 for i in AXES)
+            r2 = sum((ys[i] - center[i]) ** 2 for i in AXES)
+            if r1 < near2 and r2 < near2:
+                return frac, hit_wall, ys, rs
+            r1 = math.sqrt(r1)
+            r2 = math.sqrt(r2)
             d1 = radius - r1
             d2 = radius - r2
             if d1 * d2 <= cut:

@@ -769,7 +769,7 @@ BAD_INPUTS = [
         "wall-kind-unknown",
         spec(LINE, domain__walls__x_lower="sticky"),
         "[domain.walls.x_lower] must be 'absorbing' or 'reflecting' ('periodic', or "
-        "{ reactivity = κ }); got \"sticky\".",
+        '{ reactivity = κ }); got "sticky".',
     ),
     bad(
         "ball-wall-kind-unknown",
@@ -1167,7 +1167,7 @@ BAD_INPUTS = [
         "grid-wall-invalid",
         spec(LINE, grid={"domain.walls.x_lower": ["absorbing", "open"]}),
         "[domain.walls.x_lower] must be 'absorbing' or 'reflecting' ('periodic', or "
-        "{ reactivity = κ }); got \"open\". "
+        '{ reactivity = κ }); got "open". '
         '(at point 1: domain.walls.x_lower = "open")',
     ),
     bad(
