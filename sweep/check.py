@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 import xarray as xr
 
-from sweep import analytic, stats, store
+from sweep import analytic, check_surfaces, stats, store
 from sweep.plan import coordinate_columns
 from sweep.spec import PointSpec, Sweep, key_quantity
 
@@ -149,11 +149,21 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
     mean = stats.mean_first_passage_time(ds) if per_walker else None
     split = stats.splitting_probability(ds) if per_walker else None
     cosines = exit_cosines(ds, sweep)
+    msd = check_surfaces.mean_square_displacement(ds)
     for p, point in enumerate(sweep.points):
         if int(ds["walkers_done"][p]) == 0:
             unchecked.append((p, "no finished tasks yet"))
             continue
         censored = float(mean["censored"][p]) if mean is not None else math.nan
+        if check_surfaces.applies(point):
+            # Reactive, periodic and obstacle surfaces: their own closed forms.
+            found, why = _surface_rows(
+                p, point, surv.isel(point=p), mean, msd, censored
+            )
+            rows += found
+            if not found:
+                unchecked.append((p, why))
+            continue
         reason = unsupported(point)
         if reason:
             if concentric(point) and split is not None and censored == 0.0:
@@ -208,6 +218,36 @@ def unsupported(point: PointSpec) -> str:
         if m.drift[i] != 0.0 and reflecting and absorbing:
             return "drift toward a reflecting wall: mirror reflection is not exact"
     return ""
+
+
+def _surface_rows(
+    p: int,
+    point: PointSpec,
+    surv: xr.Dataset,
+    mean: xr.Dataset | None,
+    msd: tuple[np.ndarray, np.ndarray] | None,
+    censored: float,
+) -> tuple[list[CheckRow], str]:
+    """Rows of a point with reactive, periodic or obstacle surfaces
+    (:mod:`sweep.check_surfaces`)."""
+    m = None
+    if mean is not None and censored == 0.0:
+        m = (float(mean["estimate"][p]), float(mean["stderr"][p]))
+    found, why = check_surfaces.comparisons(
+        point,
+        surv["time"].values,
+        surv["estimate"].values,
+        float(surv["n"]),
+        m,
+        (float(msd[0][p]), float(msd[1][p])) if msd is not None else None,
+        SURVIVAL_RANGE,
+        SURVIVAL_TIMES,
+    )
+    rows = [
+        _row(p, c.statistic, c.simulated, c.stderr, c.exact, c.source, 0.0)
+        for c in found
+    ]
+    return rows, why
 
 
 def _nothing_comparable(point: PointSpec, censored: float) -> str:
@@ -579,15 +619,16 @@ def describe(sweep: Sweep) -> str:
         return "[" + ", ".join(show_value(float(v)) for v in values) + "]"
 
     kinds = dict(zip(dom.wall_names(), dom.wall_absorbing(), strict=True))
+    names = dict(zip(dom.wall_names(), check_surfaces.wall_words(dom), strict=True))
     if dom.shape == "ball":
         where = (
             f"{m.dimension}-D ball, centre {vec(dom.center)}, radius "
             f"{show_value(dom.radius)}{unit('length')}, "
-            f"{'absorbing' if dom.surface_absorbing else 'reflecting'} wall"
+            f"{names['wall'] or ('absorbing' if dom.surface_absorbing else 'reflecting')} wall"
         )
     else:
         sides = ", ".join(
-            f"{name} {'absorbing' if kinds[name] else 'reflecting'}"
+            f"{name} {names[name] or ('absorbing' if kinds[name] else 'reflecting')}"
             for name, lo_hi in zip(
                 dom.wall_names(),
                 [v for pair in zip(dom.lower, dom.upper, strict=True) for v in pair],
@@ -602,7 +643,16 @@ def describe(sweep: Sweep) -> str:
     if dom.targets:
         where += "; absorbing targets " + ", ".join(
             f"target_{i} at {vec(t.center)} radius {show_value(t.radius)}"
+            + (
+                f" reactivity {show_value(t.reactivity)}{unit('velocity')}"
+                if t.reactivity is not None
+                else ""
+            )
             for i, t in enumerate(dom.targets)
+        )
+    if dom.obstacles:
+        where += "; reflecting obstacles " + ", ".join(
+            f"at {vec(o.center)} radius {show_value(o.radius)}" for o in dom.obstacles
         )
     start = "uniform" if m.start is None else vec(m.start)
     motion = (

@@ -31,6 +31,7 @@ DEFAULT_VARIABLES = (
     "first_passage_time",
     "absorbing_wall",
     "exit_position",
+    "displacement",
     "survival",
     "survival_count",
     "occupancy",

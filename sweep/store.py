@@ -131,6 +131,8 @@ class TaskOutput:
     survival: NDArray[np.int64]
     occupancy: NDArray[np.int64] | None
     fpt_histogram: NDArray[np.int64] | None = None
+    #: float64 (n_walkers, d): unwrapped displacement (domains with periodic faces).
+    displacement: NDArray[np.float64] | None = None
 
 
 # --------------------------------------------------------------------------- create
@@ -221,6 +223,8 @@ def _create(path: Path, plan: Plan) -> None:
                 "occupancy": bool(rec.occupancy_times),
                 "fpt_bins": rec.fpt_bins,
                 "units": {"length": sweep.units.length, "time": sweep.units.time},
+                # Only stores with periodic faces (and per-walker values) have it.
+                **({"displacement": True} if _keeps_displacement(sweep) else {}),
             },
             "title": f"brownian-sweep results: {sweep.name}",
             "Conventions": "CF-1.10",
@@ -352,6 +356,21 @@ def _create(path: Path, plan: Plan) -> None:
                 "units": units.of("length"),
             },
         )
+        if _keeps_displacement(sweep):
+            root.create_array(
+                "displacement",
+                shape=(n_p, sweep.walkers, d),
+                chunks=(1, sweep.chunk, d),
+                dtype="f8",
+                fill_value=np.nan,
+                dimension_names=("point", "walker", "axis"),
+                attributes={
+                    **walker_attrs,
+                    "long_name": "unwrapped displacement from the start to "
+                    "absorption or the horizon (through periodic faces)",
+                    "units": units.of("length"),
+                },
+            )
     root.create_array(
         "survival_count",
         shape=(n_p, n_c, len(rec.survival_times)),
@@ -939,6 +958,12 @@ def _pid_alive(pid: int) -> bool:
     return True
 
 
+def _keeps_displacement(sweep: Sweep) -> bool:
+    """Whether the store keeps per-walker unwrapped displacements: per-walker values
+    of a domain with periodic faces (only there do they differ from the positions)."""
+    return sweep.points[0].record.per_walker and any(sweep.points[0].domain.periodic)
+
+
 def task_chunk_keys(attrs: Mapping[str, Any], point: int, chunk: int) -> list[str]:
     """The zarr chunk keys task (point, chunk) writes, as its marker lists them."""
     p, c = point, chunk
@@ -949,6 +974,8 @@ def task_chunk_keys(attrs: Mapping[str, Any], point: int, chunk: int) -> list[st
             f"absorbing_wall/c/{p}/{c}",
             f"exit_position/c/{p}/{c}/0",
         ]
+        if attrs.get("displacement"):
+            keys.append(f"displacement/c/{p}/{c}/0")
     keys.append(f"survival_count/c/{p}/{c}/0")
     if attrs.get("fpt_bins"):
         keys.append(f"first_passage_count/c/{p}/{c}/0/0")
@@ -1235,6 +1262,9 @@ def write_task(
             f"absorbing_wall/c/{p}/{c}",
             f"exit_position/c/{p}/{c}/0",
         ]
+        if "displacement" in root and output.displacement is not None:
+            root["displacement"][p, a:b, :] = output.displacement
+            written.append(f"displacement/c/{p}/{c}/0")
     root["survival_count"][p, c, :] = output.survival
     written.append(f"survival_count/c/{p}/{c}/0")
     if output.fpt_histogram is not None:
@@ -1367,6 +1397,7 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
             ("first_passage_time", np.nan),
             ("absorbing_wall", -1),
             ("exit_position", np.nan),
+            *((("displacement", np.nan),) if attrs.get("displacement") else ()),
         ):
             var = raw[name]
             if not complete:
