@@ -27,8 +27,8 @@ def half_line_reactive_cdf(
     ``P(T <= t) = erfc(u) - exp(κ x0 / D + κ² t / D) erfc(u + κ sqrt(t / D))``
     (Carslaw & Jaeger 1959, §2.9, radiation condition [from memory]; analytic
     reference J1, checked there against a finite-volume solution). The product is
-    evaluated as ``erfcx(z) exp(κ x0/D + κ² t/D - z²)``, z = u + κ sqrt(t/D), which
-    never overflows. κ = inf gives erfc(u) (absorbing wall), κ = 0 gives 0.
+    evaluated as ``erfcx(z) exp(κ x0/D + κ² t/D - z²)``, z = u + κ sqrt(t/D), whose
+    exponent is exactly -u² (expand z²), so it never overflows. κ = inf gives erfc(u) (absorbing wall), κ = 0 gives 0.
 
     Parameters
     ----------
@@ -51,8 +51,10 @@ def half_line_reactive_cdf(
         absorbing = special.erfc(u)
         if math.isinf(k):
             return np.where(t > 0, absorbing, 0.0)
+        if k == 0.0:
+            return np.zeros_like(t)  # a reflecting wall: never (not 1e-16)
         z = u + k * np.sqrt(t / d)
-        product = special.erfcx(z) * np.exp(k * x0 / d + k * k * t / d - z * z)
+        product = special.erfcx(z) * np.exp(-u * u)
         out = absorbing - product
     return np.where(t > 0, np.clip(out, 0.0, 1.0), 0.0)
 

@@ -220,7 +220,7 @@ class Domain:
         if self.shape == "box":
             for low, high in zip(self.absorbing_low, self.absorbing_high):
                 kinds += [low, high]
-        kinds += [True] * len(self.targets)
+        kinds += [t.reactivity is None for t in self.targets]
         if self.shape == "ball":
             kinds.append(self.surface_absorbing)
         reactive = self.wall_reactivity()
