@@ -2,7 +2,7 @@
 
     PYTHONPATH=. python benchmarks/reactive_convergence.py [--walkers N] [--seed S]
 
-Cases (closed forms of ``sweep/analytic_reactive.py``):
+Cases (closed forms of ``sweep/analytic/reactive.py``):
 
 * ``flat``: [0, 1] reactive at 0 (κ = 2), reflecting at 1, D = 0.5, x0 = 0.5
   (analytic reference J2, T = 1.25). At a flat wall the kernel's reactive step (the
@@ -35,7 +35,7 @@ import numpy as np
 from kernels import inputs
 from kernels.rng import initial_state
 from kernels.walkers import simulate
-from sweep import analytic_reactive as ar
+from sweep.analytic import reactive as ar
 
 NAN = math.nan
 

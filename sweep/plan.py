@@ -18,7 +18,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from kernels import inputs
-from sweep.analytic import centre_exit_table
+from sweep.exit_times import centre_exit_table
 from sweep.spec import Domain, PointSpec, Sweep, axis_names
 
 #: The generator of every task's stream, as numpy names it. SFC64 (a small fast chaotic
@@ -53,7 +53,7 @@ class KernelArgs:
     scheme: str = "steps"
     #: Protective radius below which the spheres scheme steps, length units.
     handover: float = 0.0
-    #: The centre-exit inverse CDF of a d-ball (sweep.analytic.ExitTable): knot values,
+    #: The centre-exit inverse CDF of a d-ball (sweep.exit_times.ExitTable): knot values,
     #: slopes times the spacing, first knot, spacing, tail slope.
     exit_tau: NDArray[np.float64] = field(default_factory=lambda: np.zeros(0))
     exit_dtau: NDArray[np.float64] = field(default_factory=lambda: np.zeros(0))

@@ -2,7 +2,7 @@
 (keys, sweeping, refusals with one message each), run, resume, check, export.
 
 Kernel accuracy is tested in ``tests/kernels/test_surfaces.py``, the closed forms in
-``tests/test_analytic_reactive.py``; here the surfaces go through the real stack
+``tests/analytic/test_reactive.py``; here the surfaces go through the real stack
 (definition -> plan -> Dask threads -> numba -> zarr -> check).
 """
 

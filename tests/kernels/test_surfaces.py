@@ -1,7 +1,7 @@
 """The walker kernel's surfaces of issue 21: reactive walls and targets, periodic faces,
 reflecting obstacles.
 
-Exact values come from ``sweep.analytic_reactive`` (analytic reference section J; each
+Exact values come from ``sweep.analytic.reactive`` (analytic reference section J; each
 names its source, "[from memory]" where the sheet marks it so) or scipy. Monte-Carlo
 checks are ``|estimate - exact| <= Z_STAT * SE`` or distribution tests with
 ``p >= P_MIN``, fixed seeds; every statistic is printed (``pytest -s``).
@@ -16,7 +16,7 @@ import pytest
 from scipy import special, stats
 
 from kernels.walkers import BOX, BOX_TARGETS
-from sweep import analytic_reactive as ar
+from sweep.analytic import reactive as ar
 from tests.kernels.runner import Domain, assert_runs_identical, run, uncompiled_loop
 from tests.kernels.surfaces_reference import simulate_surfaces_reference
 from tests.kernels.test_walkers import check_p, check_proportion, check_z, mean_and_se
@@ -96,7 +96,7 @@ def test_reactive_limits_absorbing_and_reflecting() -> None:
 
 def test_interval_reactive_reflecting_mean() -> None:
     """J2: [0, L] reactive at 0, reflecting at L: T = (L x0 - x0^2/2)/D + L/kappa
-    (derived in sweep.analytic_reactive; check value 1.25)."""
+    (derived in sweep.analytic.reactive; check value 1.25)."""
     length, d, kappa, x0 = 1.0, 0.5, 2.0, 0.5
     assert ar.interval_reactive_mean(x0, length, d, kappa) == pytest.approx(1.25)
     dom = Domain(
@@ -111,7 +111,7 @@ def test_interval_reactive_reflecting_mean() -> None:
 
 def test_reactive_ball_wall_mean() -> None:
     """A disc with a reactive wall: T = (R^2 - r0^2)/(2dD) + R/(d kappa) (derived in
-    sweep.analytic_reactive; Oksendal Example 7.4.2 for kappa = inf [from memory])."""
+    sweep.analytic.reactive; Oksendal Example 7.4.2 for kappa = inf [from memory])."""
     radius, r0, d, kappa = 1.0, 0.3, 0.5, 2.0
     dom = ball3(radius, r0, 2, diffusivity=d, dt=1e-3, n_steps=100_000,
                 ball_absorbing=False, ball_reactivity=kappa)  # fmt: skip
@@ -130,7 +130,7 @@ def test_reactive_ball_wall_mean() -> None:
 
 def test_reactive_target_in_reflecting_ball_mean() -> None:
     """J3: reactive target a at the centre of a reflecting 3-D ball R (derived in
-    sweep.analytic_reactive). The tangent-plane treatment of curved surfaces has an
+    sweep.analytic.reactive). The tangent-plane treatment of curved surfaces has an
     O(dt) bias (about 1 % at this dt, far below 5 SE)."""
     big_r, a, kappa, d, r0 = 1.0, 0.25, 1.0, 1.0, 0.6
     dom = ball3(big_r, r0, 3, diffusivity=d, dt=1e-3, n_steps=400_000,
@@ -146,7 +146,7 @@ def test_reactive_target_in_reflecting_ball_mean() -> None:
 
 def test_reactive_sphere_in_free_space_law() -> None:
     """J4: capture by a reactive sphere in free 3-D space; P(T <= t) from the radial
-    reduction u = r p to the half-line (derived in sweep.analytic_reactive), tending
+    reduction u = r p to the half-line (derived in sweep.analytic.reactive), tending
     to Collins & Kimball's (a/r0) kappa a/(kappa a + D) [from memory]."""
     a, kappa, d, r0, n = 0.5, 1.0, 1.0, 1.0, 10_000
     times = (0.5, 2.0, 8.0)
@@ -171,7 +171,7 @@ def test_reactive_sphere_in_free_space_law() -> None:
 @pytest.mark.parametrize("dimension", [2, 3])
 def test_obstacle_in_absorbing_ball_mean(dimension: int) -> None:
     """J5: absorbing ball R around a reflecting obstacle a at its centre (derived in
-    sweep.analytic_reactive)."""
+    sweep.analytic.reactive)."""
     big_r, a, d, r0 = 1.0, 0.4, 1.0, 0.6
     dom = ball3(big_r, r0, dimension, diffusivity=d, dt=1e-4, n_steps=100_000,
                 ball_absorbing=True, obstacle_centers=((0.0,) * dimension,),

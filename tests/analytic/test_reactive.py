@@ -1,4 +1,4 @@
-"""The closed forms of ``sweep.analytic_reactive`` against independent computations:
+"""The closed forms of ``sweep.analytic.reactive`` against independent computations:
 Laplace transforms (numerical quadrature), boundary-value solves (scipy solve_bvp),
 scipy.stats moments, and the limits kappa -> 0 and kappa -> inf."""
 
@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 from scipy import integrate, special, stats
 
-from sweep import analytic_reactive as ar
+from sweep.analytic import reactive as ar
 from tests.tolerances import RTOL_NUMERIC
 
 #: Quadrature of a Laplace transform and boundary-value solves on a mesh of 2001

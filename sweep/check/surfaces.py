@@ -1,5 +1,5 @@
 """``sweep check`` for points with reactive walls or targets, periodic faces or
-obstacles: which closed form of ``sweep.analytic_reactive`` applies to a point, and
+obstacles: which closed form of ``sweep.analytic.reactive`` applies to a point, and
 the comparisons it gives (the check stage; ``sweep.check`` turns them into rows).
 
 Geometries with a closed form (each a point start without drift unless said):
@@ -26,8 +26,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from sweep import analytic_reactive as ar
-from sweep.spec import Domain, PointSpec
+from sweep.analytic import reactive as ar
+from sweep.spec import PointSpec
 
 _J1 = (
     "half-line with a reactive wall (Carslaw & Jaeger 1959, §2.9, radiation "
@@ -53,21 +53,6 @@ class Comparison:
     stderr: float
     exact: float
     source: str
-
-
-def wall_words(dom: Domain) -> list[str]:
-    """Per wall of ``dom.wall_names()``: "reactive (κ ...)" or "periodic", "" for
-    the plain kinds (the caller names those)."""
-    periodic = dom.periodic or (False,) * dom.dimension
-    words = []
-    for index, kappa in enumerate(dom.wall_reactivity()):
-        if kappa is not None:
-            words.append(f"reactive (reactivity {kappa:g})")
-        elif dom.shape == "box" and index < 2 * dom.dimension and periodic[index // 2]:
-            words.append("periodic")
-        else:
-            words.append("")
-    return words
 
 
 def applies(point: PointSpec) -> bool:
