@@ -323,3 +323,19 @@ def test_periodic_sweep_displacement_check_resume_export(tmp_path: Path) -> None
 
     with h5py.File(out) as f:
         assert f["displacement"].shape == (1, 4000, 2)
+
+
+def test_plan_sizes_reactive_points_with_their_closed_form() -> None:
+    """`sweep plan` prices a reactive target in a reflecting ball with the reactive
+    mean (J3), not the absorbing one, and a geometry without a form by its pilot."""
+    from sweep import sizing
+    from sweep.analytic import reactive
+
+    text = (
+        Path(__file__).parent.parent / "sweeps" / "catalytic-pellet.toml"
+    ).read_text()
+    point = parse_spec(text, "pellet.toml").points[0]
+    exact = reactive.centre_target_reactive_mean(1.2, 0.5, 2.0, 1.0, 0.1)
+    assert sizing.expected_steps(point) == pytest.approx(exact / point.timing.dt)
+    periodic = parse_spec(PERIODIC_BOX, "p.toml").points[0]
+    assert sizing.expected_steps(periodic) is None

@@ -213,6 +213,16 @@ def comparisons(
     )
 
 
+def exact_mean(point: PointSpec) -> float | None:
+    """The closed-form mean reaction (first-passage) time of a point with these
+    surfaces, or None where :func:`comparisons` has none (``sweep plan`` sizes with
+    it): the mean rows of :func:`comparisons`, asked with a placeholder estimate."""
+    empty = np.empty(0)
+    found, _ = comparisons(point, empty, empty, 1.0, (0.0, 1.0), None, (0.0, 1.0), 1)
+    means = [c.exact for c in found if c.statistic == "mean first-passage time"]
+    return means[0] if means and math.isfinite(means[0]) else None
+
+
 def _mean(
     mean: tuple[float, float] | None, exact: float, source: str
 ) -> tuple[list[Comparison], str]:
