@@ -1,5 +1,6 @@
-"""Reading and checking the surface kinds of a definition: reactive walls and targets,
-periodic faces, reflecting obstacles (the spec stage; ``sweep.spec`` calls these).
+"""Reading and checking the surface kinds of ``[domain]``: reactive walls and targets,
+periodic faces, reflecting obstacles (helpers of :mod:`sweep.spec.sections.domain`;
+:func:`check_point` runs in :func:`sweep.spec.point.read_point`).
 
 Spellings (docs/surfaces.md): a wall is ``"absorbing"``, ``"reflecting"``,
 ``"periodic"`` (box faces, both faces of an axis together) or ``{ reactivity = κ }``
@@ -14,11 +15,11 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
-if TYPE_CHECKING:  # the parser and the model live in sweep.spec, which imports this
-    from sweep.spec import Domain, Motion, Timing, _Parser
+from sweep.spec.context import Context, toml_text
+from sweep.spec.model import Domain, Motion, Obstacle, Timing
+from sweep.spec.values import number, vector
 
 #: Keys of a reactive wall's table.
 REACTIVE_KEYS: tuple[str, ...] = ("reactivity",)
@@ -32,22 +33,8 @@ OBSTACLE_KEYS: tuple[str, ...] = ("center", "radius")
 PERIODIC_CLEARANCE = 4.0
 
 
-@dataclass(frozen=True)
-class Obstacle:
-    """A reflecting ball inside the domain.
-
-    Attributes
-    ----------
-    center : tuple of float, length d, length units
-    radius : float, length units, > 0
-    """
-
-    center: tuple[float, ...]
-    radius: float
-
-
 def wall_kind(
-    parser: _Parser, value: Any, key: str, *, periodic_allowed: bool
+    ctx: Context, value: Any, key: str, *, periodic_allowed: bool
 ) -> tuple[str, float | None]:
     """One wall's kind: ("absorbing" | "reflecting" | "periodic", None) or
     ("reactive", κ)."""
@@ -55,26 +42,27 @@ def wall_kind(
     more = "'periodic', or " if periodic_allowed else ""
     allowed = f"'absorbing' or 'reflecting' ({more}{{ reactivity = κ }})"
     if isinstance(value, dict):
-        parser.keys(value, REACTIVE_KEYS, key)
-        kappa = parser.number(
-            parser.required(value, "reactivity", key),
+        ctx.keys(value, REACTIVE_KEYS, key)
+        kappa = number(
+            ctx,
+            ctx.required(value, "reactivity", key),
             f"{key}.reactivity",
             nonnegative=True,
             allow_inf=True,
         )
         return "reactive", kappa
     if value == "periodic" and not periodic_allowed:
-        raise parser.fail(
+        raise ctx.fail(
             key,
             '"periodic" is for the faces of a box (both faces of an axis); a ball\'s '
             f"wall takes {allowed}.",
         )
     if value not in kinds:
-        raise parser.fail(key, f"must be {allowed}; got {_toml(value)}.")
+        raise ctx.fail(key, f"must be {allowed}; got {toml_text(value)}.")
     return str(value), None
 
 
-def periodic_pairs(parser: _Parser, kinds: dict[str, str], axes: Sequence[str]) -> None:
+def periodic_pairs(ctx: Context, kinds: dict[str, str], axes: Sequence[str]) -> None:
     """Refuse a periodic face whose opposite face is not periodic."""
     for axis in axes:
         low, high = kinds.get(f"{axis}_lower"), kinds.get(f"{axis}_upper")
@@ -83,43 +71,41 @@ def periodic_pairs(parser: _Parser, kinds: dict[str, str], axes: Sequence[str]) 
                 ("lower", "upper") if low == "periodic" else ("upper", "lower")
             )
             got = kinds.get(f"{axis}_{other}")
-            raise parser.fail(
+            raise ctx.fail(
                 f"domain.walls.{axis}_{periodic}",
                 f'is "periodic" but {axis}_{other} is '
-                f"{_toml(got) if got else 'at infinity'}: periodic faces come in "
+                f"{toml_text(got) if got else 'at infinity'}: periodic faces come in "
                 f'pairs. Make both {axis}_lower and {axis}_upper "periodic" (on a '
                 "finite axis), or neither.",
             )
 
 
 def obstacles(
-    parser: _Parser, table: dict[str, Any], domain: Domain
+    ctx: Context, table: dict[str, Any], domain: Domain
 ) -> tuple[Obstacle, ...]:
     """``domain.obstacles``: reflecting balls, each inside the domain, clear of every
     target and of each other."""
     raw = table.get("obstacles", [])
     if not isinstance(raw, list):
-        raise parser.fail(
-            "domain.obstacles", f"must be a list of tables; got {_toml(raw)}."
+        raise ctx.fail(
+            "domain.obstacles", f"must be a list of tables; got {toml_text(raw)}."
         )
     d = domain.dimension
     parsed: list[Obstacle] = []
     for i, entry in enumerate(raw):
         key = f"domain.obstacles.{i}"
         if not isinstance(entry, dict):
-            raise parser.fail(
+            raise ctx.fail(
                 key,
-                f"must be a table {{ center = [...], radius = ... }}; got {_toml(entry)}.",
+                f"must be a table {{ center = [...], radius = ... }}; got {toml_text(entry)}.",
             )
-        parser.keys(entry, OBSTACLE_KEYS, key)
-        center = parser.vector(
-            parser.required(entry, "center", key), f"{key}.center", d
-        )
-        radius = parser.number(
-            parser.required(entry, "radius", key), f"{key}.radius", positive=True
+        ctx.keys(entry, OBSTACLE_KEYS, key)
+        center = vector(ctx, ctx.required(entry, "center", key), f"{key}.center", d)
+        radius = number(
+            ctx, ctx.required(entry, "radius", key), f"{key}.radius", positive=True
         )
         if not _ball_inside(domain, center, radius):
-            raise parser.fail(
+            raise ctx.fail(
                 key,
                 f"(center {list(center)!r}, radius {radius!r}) must lie inside the "
                 "domain, clear of its walls: an obstacle that cuts a wall would change "
@@ -127,7 +113,7 @@ def obstacles(
             )
         for j, target in enumerate(domain.targets):
             if math.dist(center, target.center) <= radius + target.radius:
-                raise parser.fail(
+                raise ctx.fail(
                     key,
                     f"(center {list(center)!r}, radius {radius!r}) overlaps or touches "
                     f"target {j} (center {list(target.center)!r}, radius "
@@ -135,7 +121,7 @@ def obstacles(
                 )
         for j, other in enumerate(parsed):
             if math.dist(center, other.center) <= radius + other.radius:
-                raise parser.fail(
+                raise ctx.fail(
                     key,
                     f"(center {list(center)!r}, radius {radius!r}) overlaps or touches "
                     f"obstacle {j}; obstacles must be apart (the radial mirror image "
@@ -145,18 +131,16 @@ def obstacles(
     return tuple(parsed)
 
 
-def check_point(
-    parser: _Parser, domain: Domain, motion: Motion, timing: Timing
-) -> None:
+def check_point(ctx: Context, domain: Domain, motion: Motion, timing: Timing) -> None:
     """What needs the whole point: a start inside an obstacle, balls too near a
     periodic face for the step, and the schemes that support each surface."""
     if motion.start is not None:
         for i, obstacle in enumerate(domain.obstacles):
             if math.dist(motion.start, obstacle.center) <= obstacle.radius:
-                raise parser.fail(
+                raise ctx.fail(
                     "motion.start",
                     f"lies inside obstacle {i} (center {list(obstacle.center)!r}, "
-                    f"radius {obstacle.radius!r}); got {_toml(list(motion.start))}. "
+                    f"radius {obstacle.radius!r}); got {toml_text(list(motion.start))}. "
                     "Start outside every obstacle.",
                 )
     if any(domain.periodic):
@@ -176,7 +160,7 @@ def check_point(
             ):
                 gap = min(c - lo, hi - c) - radius
                 if periodic and gap < clearance:
-                    raise parser.fail(
+                    raise ctx.fail(
                         key,
                         f"comes within {gap:.4g} of a periodic face on axis {axis}; it "
                         f"must stay {PERIODIC_CLEARANCE:g} steps sqrt(2 D dt) = "
@@ -185,7 +169,7 @@ def check_point(
                         "make it smaller, or lower time.dt.",
                     )
     if timing.scheme == "spheres" and domain.has_surface_kinds():
-        raise parser.fail(
+        raise ctx.fail(
             "time.scheme",
             '"spheres" supports absorbing and reflecting walls and absorbing targets '
             "only; this point has "
@@ -201,9 +185,3 @@ def _ball_inside(domain: Domain, center: Sequence[float], radius: float) -> bool
         lo + radius < c < hi - radius
         for c, lo, hi in zip(center, domain.lower, domain.upper)
     )
-
-
-def _toml(value: Any) -> str:
-    from sweep.spec import _toml as toml
-
-    return toml(value)
