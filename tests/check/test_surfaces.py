@@ -118,9 +118,7 @@ def test_plan_sizes_reactive_points_with_their_closed_form() -> None:
     from sweep import sizing
     from sweep.analytic import reactive
 
-    text = (
-        Path(__file__).parent.parent / "sweeps" / "catalytic-pellet.toml"
-    ).read_text()
+    text = (Path(__file__).parents[2] / "sweeps" / "catalytic-pellet.toml").read_text()
     point = parse_spec(text, "pellet.toml").points[0]
     exact = reactive.centre_target_reactive_mean(1.2, 0.5, 2.0, 1.0, 0.1)
     assert sizing.expected_steps(point) == pytest.approx(exact / point.timing.dt)
