@@ -102,7 +102,8 @@ def describe(sweep: Sweep) -> str:
             f"{unit('length')} ({sides})"
         )
     if dom.targets:
-        where += "; absorbing targets " + ", ".join(
+        plain = all(t.reactivity is None for t in dom.targets)
+        where += ("; absorbing targets " if plain else "; targets ") + ", ".join(
             f"target_{i} at {vec(t.center)} radius {show_value(t.radius)}"
             + (
                 f" reactivity {show_value(t.reactivity)}{unit('velocity')}"
