@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator, kernels/walkers.py and rng.py: e4f1f7f8634d787a3fc4edeadc0f22af
+Digest of template, generator, kernels/walkers.py and rng.py: 1a61a25cb22ac3e205bd9eed7c1eeb02
 """
 
 # ruff: noqa

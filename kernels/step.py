@@ -37,7 +37,14 @@ those of the kernel before this template (``benchmarks/bit_identity.py`` checks 
 Adding a kind of surface: its parameters go into ``Geometry`` (``kernels/inputs.py``);
 here, one block in section 3 ("surfaces near the step") that computes the signed
 distances d1, d2 of the step's start and end and calls ``_earliest``, one placement
-in section 5 ("exit point"), and a wall index after the existing ones.
+in section 5 ("exit point"), and a wall index after the existing ones. Surfaces that
+move the step's end come before section 3, each in one block: 2b reactive surfaces
+(faces inline, spheres in ``reactive_spheres``; ``_react`` gives the push and the
+reaction), 2c obstacles (``obstacle_mirror``); periodic faces wrap the new position
+after the step, and the bookkeeping adds the widths crossed to the displacement.
+Each new kind also has one setup line per axis (its face positions) and a flag that
+skips its block, so definitions without it run the same instructions and draws as
+before (``benchmarks/bit_identity.py``).
 """
 
 

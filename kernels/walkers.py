@@ -17,7 +17,10 @@ Each axis moves as ``dX = drift dt + sqrt(2 D) dW``; a step draws one standard n
 per axis. Walls:
 
 * reflecting flat wall: the increment is mirrored (exact in law without drift);
-* reflecting ball surface: radial mirror image;
+* reflecting ball surface and obstacles: radial mirror image;
+* reactive (partially absorbing) surfaces: Skorokhod push, reacting when the
+  boundary local time passes an exponential threshold (:func:`_react`);
+* periodic faces: positions wrapped into the cell, widths crossed counted;
 * absorbing wall, target or ball surface: a walker whose step ends beyond it is absorbed.
   With ``bridge`` on, a walker whose step ends inside is also absorbed with the
   Brownian-bridge crossing probability ``exp(-(a - x1)(a - x2) / (D dt))`` (curved
@@ -370,7 +373,8 @@ def _react(rs, d1, d2, q, kill_scale, diffusivity, dt):  # type: ignore[no-untyp
     without drift). The push is the boundary local time the step adds, and a reaction
     happens when the accumulated local time passes an exponential threshold of rate
     q (the encounter-based form of the Robin condition, survival E[exp(-q l)];
-    Grebenkov 2020, Phys. Rev. Lett. 125, 078102): each step draws its own threshold
+    Grebenkov 2020, Phys. Rev. Lett. 125, 078102 [abstract seen; q = kappa / D
+    derived in docs/surfaces.md]): each step draws its own threshold
     (memoryless), reacts with probability 1 - exp(-q push), and then at the time the
     bridge first reaches the depth of the threshold (F6). No step-size limit:
     kappa = inf reacts at the first touch (absorbing), kappa = 0 never (reflecting).
