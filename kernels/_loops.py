@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator, kernels/walkers.py and rng.py: 1a61a25cb22ac3e205bd9eed7c1eeb02
+Digest of template, generator, kernels/walkers.py and rng.py: 44d7f7dd3e3407f78cce1d88a93a9967
 """
 
 # ruff: noqa
@@ -16,6 +16,7 @@ from kernels.walkers import (
     BRIDGE_CUTOFF,
     REACH,
     SURFACE_MARGIN,
+    _band,
     _cell_next,
     _crossing,
     _earliest,
@@ -96,6 +97,9 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -163,6 +167,7 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 x[i] = motion.start[i]
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -189,8 +194,25 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -220,12 +242,17 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                         (y0,), obstacle_center, obstacle_radius
                     )
                     y0 = ys[0]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
@@ -427,6 +454,9 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -465,6 +495,9 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -534,6 +567,7 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -562,10 +596,30 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -614,12 +668,17 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                     )
                     y0 = ys[0]
                     y1 = ys[1]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
@@ -859,6 +918,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -897,6 +959,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -935,6 +1000,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -1006,6 +1074,7 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1036,12 +1105,35 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -1109,12 +1201,17 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                     y0 = ys[0]
                     y1 = ys[1]
                     y2 = ys[2]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
@@ -1392,6 +1489,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -1430,6 +1530,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -1468,6 +1571,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -1506,6 +1612,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -1579,6 +1688,7 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1611,14 +1721,40 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -1705,12 +1841,17 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                     y1 = ys[1]
                     y2 = ys[2]
                     y3 = ys[3]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
@@ -2026,6 +2167,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -2064,6 +2208,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -2102,6 +2249,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -2140,6 +2290,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -2178,6 +2331,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -2253,6 +2409,7 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -2287,16 +2444,45 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -2402,12 +2588,17 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                     y2 = ys[2]
                     y3 = ys[3]
                     y4 = ys[4]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
@@ -2761,6 +2952,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -2799,6 +2993,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -2837,6 +3034,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -2875,6 +3075,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -2913,6 +3116,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -2951,6 +3157,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl5 > -math.inf or kh5 < math.inf
     periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -3028,6 +3237,7 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3064,18 +3274,50 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -3200,12 +3442,17 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                     y3 = ys[3]
                     y4 = ys[4]
                     y5 = ys[5]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
@@ -3597,6 +3844,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -3635,6 +3885,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -3673,6 +3926,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -3711,6 +3967,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -3749,6 +4008,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -3787,6 +4049,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl5 > -math.inf or kh5 < math.inf
     periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -3825,6 +4090,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl6 > -math.inf or kh6 < math.inf
     periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -3904,6 +4172,7 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3942,20 +4211,55 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -4099,12 +4403,17 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                     y4 = ys[4]
                     y5 = ys[5]
                     y6 = ys[6]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
@@ -4534,6 +4843,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -4572,6 +4884,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -4610,6 +4925,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -4648,6 +4966,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -4686,6 +5007,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -4724,6 +5048,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl5 > -math.inf or kh5 < math.inf
     periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -4762,6 +5089,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl6 > -math.inf or kh6 < math.inf
     periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -4800,6 +5130,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl7 > -math.inf or kh7 < math.inf
     periodic = periodic or pw7 > 0.0
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -4881,6 +5214,7 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4921,22 +5255,60 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
-                if y7 < rl7 or y7 > rh7:
-                    y7 = _fold(y7, rl7, rh7)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -5099,12 +5471,17 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                     y5 = ys[5]
                     y6 = ys[6]
                     y7 = ys[7]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
@@ -5572,6 +5949,9 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -5639,6 +6019,7 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 x[i] = motion.start[i]
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -5665,8 +6046,25 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -5692,7 +6090,7 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                             hit_wall = 2 * 0 + 1
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2)
@@ -5700,8 +6098,8 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                             or ((x0 - target_center[k, 0]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
-                    if near:
+                            near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_box_targets1(
                             rs, (x0,),
                             (y0,), target_center,
@@ -5717,12 +6115,17 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                         (y0,), obstacle_center, obstacle_radius
                     )
                     y0 = ys[0]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
@@ -6027,6 +6430,9 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -6065,6 +6471,9 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -6134,6 +6543,7 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6162,10 +6572,30 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -6209,7 +6639,7 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                             hit_wall = 2 * 1 + 1
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2)
@@ -6217,8 +6647,8 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
-                    if near:
+                            near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_box_targets2(
                             rs, (x0, x1,),
                             (y0, y1,), target_center,
@@ -6236,12 +6666,17 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                     )
                     y0 = ys[0]
                     y1 = ys[1]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
@@ -6584,6 +7019,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -6622,6 +7060,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -6660,6 +7101,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -6731,6 +7175,7 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6761,12 +7206,35 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -6828,7 +7296,7 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                             hit_wall = 2 * 2 + 1
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2)
@@ -6836,8 +7304,8 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
-                    if near:
+                            near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_box_targets3(
                             rs, (x0, x1, x2,),
                             (y0, y1, y2,), target_center,
@@ -6857,12 +7325,17 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                     y0 = ys[0]
                     y1 = ys[1]
                     y2 = ys[2]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
@@ -7243,6 +7716,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -7281,6 +7757,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -7319,6 +7798,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -7357,6 +7839,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -7430,6 +7915,7 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7462,14 +7948,40 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -7549,7 +8061,7 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                             hit_wall = 2 * 3 + 1
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2)
@@ -7557,8 +8069,8 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
-                    if near:
+                            near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_box_targets4(
                             rs, (x0, x1, x2, x3,),
                             (y0, y1, y2, y3,), target_center,
@@ -7580,12 +8092,17 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                     y1 = ys[1]
                     y2 = ys[2]
                     y3 = ys[3]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
@@ -8004,6 +8521,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -8042,6 +8562,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -8080,6 +8603,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -8118,6 +8644,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -8156,6 +8685,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -8231,6 +8763,7 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8265,16 +8798,45 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -8372,7 +8934,7 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                             hit_wall = 2 * 4 + 1
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2)
@@ -8380,8 +8942,8 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
-                    if near:
+                            near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_box_targets5(
                             rs, (x0, x1, x2, x3, x4,),
                             (y0, y1, y2, y3, y4,), target_center,
@@ -8405,12 +8967,17 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                     y2 = ys[2]
                     y3 = ys[3]
                     y4 = ys[4]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
@@ -8867,6 +9434,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -8905,6 +9475,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -8943,6 +9516,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -8981,6 +9557,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -9019,6 +9598,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -9057,6 +9639,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl5 > -math.inf or kh5 < math.inf
     periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -9134,6 +9719,7 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -9170,18 +9756,50 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -9297,7 +9915,7 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                             hit_wall = 2 * 5 + 1
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2)
@@ -9305,8 +9923,8 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
-                    if near:
+                            near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_box_targets6(
                             rs, (x0, x1, x2, x3, x4, x5,),
                             (y0, y1, y2, y3, y4, y5,), target_center,
@@ -9332,12 +9950,17 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                     y3 = ys[3]
                     y4 = ys[4]
                     y5 = ys[5]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
@@ -9832,6 +10455,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -9870,6 +10496,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -9908,6 +10537,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -9946,6 +10578,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -9984,6 +10619,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -10022,6 +10660,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl5 > -math.inf or kh5 < math.inf
     periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -10060,6 +10701,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl6 > -math.inf or kh6 < math.inf
     periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -10139,6 +10783,7 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -10177,20 +10822,55 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -10324,7 +11004,7 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                             hit_wall = 2 * 6 + 1
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2)
@@ -10332,8 +11012,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
-                    if near:
+                            near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_box_targets7(
                             rs, (x0, x1, x2, x3, x4, x5, x6,),
                             (y0, y1, y2, y3, y4, y5, y6,), target_center,
@@ -10361,12 +11041,17 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                     y4 = ys[4]
                     y5 = ys[5]
                     y6 = ys[6]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
@@ -10899,6 +11584,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -10937,6 +11625,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -10975,6 +11666,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -11013,6 +11707,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -11051,6 +11748,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -11089,6 +11789,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl5 > -math.inf or kh5 < math.inf
     periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -11127,6 +11830,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl6 > -math.inf or kh6 < math.inf
     periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -11165,6 +11871,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     reactive = reactive or kl7 > -math.inf or kh7 < math.inf
     periodic = periodic or pw7 > 0.0
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -11246,6 +11955,7 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -11286,22 +11996,60 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
-                if y7 < rl7 or y7 > rh7:
-                    y7 = _fold(y7, rl7, rh7)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -11453,7 +12201,7 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                             hit_wall = 2 * 7 + 1
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2 + (y7 - target_center[k, 7]) ** 2)
@@ -11461,8 +12209,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2 + (x7 - target_center[k, 7]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
-                    if near:
+                            near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_box_targets8(
                             rs, (x0, x1, x2, x3, x4, x5, x6, x7,),
                             (y0, y1, y2, y3, y4, y5, y6, y7,), target_center,
@@ -11492,12 +12240,17 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                     y5 = ys[5]
                     y6 = ys[6]
                     y7 = ys[7]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
@@ -12049,6 +12802,9 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -12068,6 +12824,9 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -12145,6 +12904,7 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -12180,7 +12940,7 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                 if reactive:
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2)
@@ -12188,13 +12948,13 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
+                            near_sphere = True
                     if (
                         rb1 >= react_inner2
                         or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2) >= react_inner2
                     ):
-                        near = True
-                    if near:
+                        near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_ball2(
                             rs, (x0, x1,),
                             (y0, y1,), target_center,
@@ -12556,6 +13316,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -12575,6 +13338,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -12594,6 +13360,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -12673,6 +13442,7 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -12710,7 +13480,7 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
                 if reactive:
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2)
@@ -12718,13 +13488,13 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
+                            near_sphere = True
                     if (
                         rb1 >= react_inner2
                         or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2) >= react_inner2
                     ):
-                        near = True
-                    if near:
+                        near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_ball3(
                             rs, (x0, x1, x2,),
                             (y0, y1, y2,), target_center,
@@ -13116,6 +13886,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -13135,6 +13908,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -13154,6 +13930,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -13173,6 +13952,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -13254,6 +14036,7 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -13293,7 +14076,7 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
                 if reactive:
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2)
@@ -13301,13 +14084,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
+                            near_sphere = True
                     if (
                         rb1 >= react_inner2
                         or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2) >= react_inner2
                     ):
-                        near = True
-                    if near:
+                        near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_ball4(
                             rs, (x0, x1, x2, x3,),
                             (y0, y1, y2, y3,), target_center,
@@ -13729,6 +14512,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -13748,6 +14534,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -13767,6 +14556,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -13786,6 +14578,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -13805,6 +14600,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -13888,6 +14686,7 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -13929,7 +14728,7 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
                 if reactive:
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2)
@@ -13937,13 +14736,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
+                            near_sphere = True
                     if (
                         rb1 >= react_inner2
                         or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2) >= react_inner2
                     ):
-                        near = True
-                    if near:
+                        near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_ball5(
                             rs, (x0, x1, x2, x3, x4,),
                             (y0, y1, y2, y3, y4,), target_center,
@@ -14395,6 +15194,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -14414,6 +15216,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -14433,6 +15238,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -14452,6 +15260,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -14471,6 +15282,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -14490,6 +15304,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl5 > -math.inf or kh5 < math.inf
     periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -14575,6 +15392,7 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -14618,7 +15436,7 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
                 if reactive:
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2)
@@ -14626,13 +15444,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
+                            near_sphere = True
                     if (
                         rb1 >= react_inner2
                         or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2) >= react_inner2
                     ):
-                        near = True
-                    if near:
+                        near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_ball6(
                             rs, (x0, x1, x2, x3, x4, x5,),
                             (y0, y1, y2, y3, y4, y5,), target_center,
@@ -15114,6 +15932,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -15133,6 +15954,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -15152,6 +15976,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -15171,6 +15998,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -15190,6 +16020,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -15209,6 +16042,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl5 > -math.inf or kh5 < math.inf
     periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -15228,6 +16064,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl6 > -math.inf or kh6 < math.inf
     periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -15315,6 +16154,7 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -15360,7 +16200,7 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
                 if reactive:
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2)
@@ -15368,13 +16208,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
+                            near_sphere = True
                     if (
                         rb1 >= react_inner2
                         or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2) >= react_inner2
                     ):
-                        near = True
-                    if near:
+                        near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_ball7(
                             rs, (x0, x1, x2, x3, x4, x5, x6,),
                             (y0, y1, y2, y3, y4, y5, y6,), target_center,
@@ -15886,6 +16726,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl0 > -math.inf or kh0 < math.inf
     periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -15905,6 +16748,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl1 > -math.inf or kh1 < math.inf
     periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -15924,6 +16770,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl2 > -math.inf or kh2 < math.inf
     periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -15943,6 +16792,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl3 > -math.inf or kh3 < math.inf
     periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -15962,6 +16814,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl4 > -math.inf or kh4 < math.inf
     periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -15981,6 +16836,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl5 > -math.inf or kh5 < math.inf
     periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -16000,6 +16858,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl6 > -math.inf or kh6 < math.inf
     periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -16019,6 +16880,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     reactive = reactive or kl7 > -math.inf or kh7 < math.inf
     periodic = periodic or pw7 > 0.0
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -16108,6 +16972,7 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -16155,7 +17020,7 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
                 if reactive:
                     # Only steps near a reactive sphere call the helper (a
                     # call passes arrays, whose reference counts cost ~50 ns).
-                    near = False
+                    near_sphere = False
                     for k in range(n_targets):
                         if (
                             ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2 + (y7 - target_center[k, 7]) ** 2)
@@ -16163,13 +17028,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
                             or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2 + (x7 - target_center[k, 7]) ** 2)
                             <= react_reach2[k]
                         ):
-                            near = True
+                            near_sphere = True
                     if (
                         rb1 >= react_inner2
                         or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2 + (y7 - bc7) ** 2) >= react_inner2
                     ):
-                        near = True
-                    if near:
+                        near_sphere = True
+                    if near_sphere:
                         frac, hit_wall, ys, rs = reactive_spheres_ball8(
                             rs, (x0, x1, x2, x3, x4, x5, x6, x7,),
                             (y0, y1, y2, y3, y4, y5, y6, y7,), target_center,

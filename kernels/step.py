@@ -9,9 +9,10 @@ Python with three mechanical rules, so it reads top to bottom as the algorithm:
 
 * ``for i in AXES:`` is unrolled, one copy of its body per axis; in it ``name_i`` is
   the scalar ``name0``, ``name1``, ... and a bare ``i`` the axis number. Outside such
-  a loop, ``sum(E for i in AXES)``, ``min(E for i in AXES)`` and
-  ``tuple(E for i in AXES)`` are written out axis by axis (sums from the first axis
-  on, in order).
+  a loop, ``sum(E for i in AXES)``, ``min(E for i in AXES)``,
+  ``all(E for i in AXES)`` and ``tuple(E for i in AXES)`` are written out axis by axis
+  (sums from the first axis on, in order; ``all`` joins booleans with ``&``, one
+  branch on the whole).
 * ``if static(COND):`` (with an optional ``else:``) is decided when generating, from
   ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``) and ``DIM``: each loop holds only the
   code of its own kind of domain.
@@ -118,6 +119,9 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         reactive = reactive or kl_i > -math.inf or kh_i < math.inf
         periodic = periodic or pw_i > 0.0
         absorbing_faces = absorbing_faces or al_i > -math.inf or ah_i < math.inf
+        # The band of the axis: a step that starts and ends inside it crosses no
+        # reflecting face and comes near no absorbing one (see _band).
+        blo_i, bhi_i = _band(rl_i, rh_i, al_i, ah_i, cut)
         ol_i = recording.occupancy_lower[i]
         oh_i = recording.occupancy_upper[i]
         bc_i = ball_center[i]
@@ -200,6 +204,7 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         for i in AXES:
             x_i = x[i]
             wrap_i = 0.0  # periodic widths crossed, for the unwrapped displacement
+        x_inside = all((blo_i <= x_i) & (x_i <= bhi_i) for i in AXES)
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -228,9 +233,28 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     z, rs = draw_normal(rs)
                     y_i = x_i + s_i + sigma * z
                 if static(KIND != BALL):
-                    for i in AXES:
-                        if y_i < rl_i or y_i > rh_i:
-                            y_i = _fold(y_i, rl_i, rh_i)
+                    # Box faces matter only to a step that starts or ends outside
+                    # the band; the common step skips the folds and face products,
+                    # whose outcome (nothing) is known there. x_inside: the next
+                    # step's start (this step's end, after any fold).
+                    y_inside = all((blo_i <= y_i) & (y_i <= bhi_i) for i in AXES)
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
+                    if near:
+                        # The mirror image in the face crossed, as _fold makes it,
+                        # chosen without a branch per axis (a walker near a face
+                        # folds at random steps: branches mispredict); _fold itself
+                        # only for a step whose image overshoots the opposite face.
+                        for i in AXES:
+                            c_i = 2.0 * rl_i - y_i if y_i < rl_i else y_i
+                            c_i = 2.0 * rh_i - y_i if y_i > rh_i else c_i
+                        if not all((rl_i <= c_i) & (c_i <= rh_i) for i in AXES):
+                            for i in AXES:
+                                if y_i < rl_i or y_i > rh_i:
+                                    c_i = _fold(y_i, rl_i, rh_i)
+                        for i in AXES:
+                            y_i = c_i
+                        x_inside = all((blo_i <= y_i) & (y_i <= bhi_i) for i in AXES)
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -259,7 +283,7 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     if static(KIND != BOX):
                         # Only steps near a reactive sphere call the helper (a
                         # call passes arrays, whose reference counts cost ~50 ns).
-                        near = False
+                        near_sphere = False
                         for k in range(n_targets):
                             if (
                                 sum((y_i - target_center[k, i]) ** 2 for i in AXES)
@@ -267,14 +291,14 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                                 or sum((x_i - target_center[k, i]) ** 2 for i in AXES)
                                 <= react_reach2[k]
                             ):
-                                near = True
+                                near_sphere = True
                         if static(KIND == BALL):
                             if (
                                 rb1 >= react_inner2
                                 or sum((y_i - bc_i) ** 2 for i in AXES) >= react_inner2
                             ):
-                                near = True
-                        if near:
+                                near_sphere = True
+                        if near_sphere:
                             frac, hit_wall, ys, rs = reactive_spheres(
                                 rs, tuple(x_i for i in AXES),
                                 tuple(y_i for i in AXES), target_center,
@@ -292,6 +316,12 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     )
                     for i in AXES:
                         y_i = ys[i]
+                if static(KIND != BALL):
+                    if reactive or n_obstacles > 0:
+                        # A push or mirror may move the end out of the band: then
+                        # the faces are examined after all (conservative).
+                        x_inside = all((blo_i <= y_i) & (y_i <= bhi_i) for i in AXES)
+                        near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -299,9 +329,9 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     # Absorbing box faces: one branch per step on the smallest
                     # product, then each face, axis by axis, lower first.
                     if static(KIND == BOX):
-                        faces = True
+                        faces = near
                     else:
-                        faces = absorbing_faces
+                        faces = near and absorbing_faces
                     if faces:
                         p = min(
                             min(
