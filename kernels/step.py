@@ -13,8 +13,9 @@ Python with three mechanical rules, so it reads top to bottom as the algorithm:
   ``tuple(E for i in AXES)`` are written out axis by axis (sums from the first axis
   on, in order).
 * ``if static(COND):`` (with an optional ``else:``) is decided when generating, from
-  ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``) and ``DIM``: each loop holds only the
-  code of its own kind of domain.
+  ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``), ``DIM`` and ``FORCE`` (0: no force,
+  1: a potential, ``kernels.inputs.Force``): each loop holds only the code of its own
+  kind of domain, and the loops without a force hold none of its code.
 * Every function here is emitted once per (kind, dimension) under a suffixed name, and
   calls between them are renamed to match.
 
@@ -160,7 +161,12 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                 #    only when that overshoots the opposite face).
                 for i in AXES:
                     z, rs = draw_normal(rs)
-                    y_i = x_i + s_i + sigma * z
+                    if static(FORCE == 1):
+                        # A potential (kernels.inputs.Force): OU update, or Euler-
+                        # Maruyama in -D U'(x); walls below treat it as constant.
+                        y_i = _forced(x_i, z, i, motion.force)
+                    else:
+                        y_i = x_i + s_i + sigma * z
                 if static(KIND != BALL):
                     for i in AXES:
                         if y_i < rl_i or y_i > rh_i:

@@ -47,7 +47,7 @@ from numba.np.random._constants import (
 from numba.np.random.generator_core import next_double, next_uint64
 from numpy.typing import NDArray
 
-from kernels import rng
+from kernels import inputs, rng
 from kernels.inputs import Geometry, Motion, Outputs, Recording
 
 
@@ -265,7 +265,9 @@ def simulate(
         kind = BOX_TARGETS
     else:
         kind = BOX
-    loop = _loops.LOOPS[kind, geometry.lower.shape[0]]
+    # Loops with a force are separate variants: those without stay as they were.
+    loops = _loops.LOOPS if motion.force.kind == inputs.NO_FORCE else _loops.FORCE_LOOPS
+    loop = loops[kind, geometry.lower.shape[0]]
     return loop(state, n_walkers, geometry, motion, recording, out)  # type: ignore[no-any-return]
 
 
@@ -372,6 +374,36 @@ def _cell_next(cell, x, lower, upper, bins):  # type: ignore[no-untyped-def]
     if cell < 0 or b < 0:
         return -1
     return cell * bins + b
+
+
+@njit(nogil=True, cache=True)
+def _forced(x, z, axis, force):  # type: ignore[no-untyped-def]
+    """End of one axis' step in a force field (kernels.inputs.Force): the
+    Ornstein-Uhlenbeck update of a harmonic axis (exact in law), the free step on an
+    axis the force ignores, Euler-Maruyama ``x + drift dt - D dt U'(x) + sqrt(2 D
+    dt) z`` on a one-dimensional family's axis."""
+    y = force.offset[axis] + force.factor[axis] * x + force.spread[axis] * z
+    if axis == force.axis:
+        y += force.scale * _slope(x, force)
+    return y
+
+
+@njit(nogil=True, cache=True)
+def _slope(x, force):  # type: ignore[no-untyped-def]
+    """dU/dx (kT / length) of a one-dimensional family at ``x``."""
+    p = force.params
+    if force.kind == inputs.DOUBLE_WELL:
+        u = x - p[0]
+        return 4.0 * p[1] * (u * u / p[2] - 1.0) * u / p[2]
+    if force.kind == inputs.TILTED_PERIODIC:
+        return -p[0] * math.sin(p[1] * x) - p[2]
+    # The table's spline, cell by the knot spacing (clamped: walkers stay inside
+    # the domain, which the table covers, up to rounding).
+    cells = force.table.shape[0]
+    j = int(math.floor((x - force.table_lower) / force.table_spacing))
+    j = min(max(j, 0), cells - 1)
+    t = x - (force.table_lower + j * force.table_spacing)
+    return force.table[j, 0] + t * (force.table[j, 1] + force.table[j, 2] * t)
 
 
 # The generated loops import the helpers above from this module, so they come last.

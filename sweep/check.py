@@ -154,6 +154,21 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
             unchecked.append((p, "no finished tasks yet"))
             continue
         censored = float(mean["censored"][p]) if mean is not None else math.nan
+        if point.force is not None:  # the potential's references: sweep/check_force.py
+            from sweep.check_force import force_rows
+
+            one = {"point": p}
+            found, reason = force_rows(
+                p,
+                point,
+                None if mean is None else mean.isel(one),
+                None if split is None else split.isel(one),
+                censored,
+            )
+            rows += found
+            if reason:
+                unchecked.append((p, reason))
+            continue
         reason = unsupported(point)
         if reason:
             if concentric(point) and split is not None and censored == 0.0:

@@ -176,3 +176,42 @@ def max_curvature(force: Force, axis: int, lower: float, upper: float) -> float:
         return 4.0 * f.barrier * max(3.0 * s - 1.0, 1.0) / f.half_separation**2
     knots = np.linspace(f.lower, f.upper, len(f.values))
     return float(np.max(np.abs(f.spline()(knots, 2))))
+
+
+def kernel_force(
+    force: Force | None,
+    dimension: int,
+    diffusivity: float,
+    dt: float,
+    drift: tuple[float, ...],
+) -> Any:
+    """The kernel's ``kernels.inputs.Force`` for a point (``no_force`` without one)."""
+    from kernels import inputs  # numpy only
+
+    if force is None:
+        return inputs.no_force(dimension)
+    common = dict(dimension=dimension, diffusivity=diffusivity, dt=dt, drift=drift)
+    if force.potential == "harmonic":
+        return inputs.force(
+            inputs.HARMONIC, stiffness=force.stiffness, center=force.center, **common
+        )
+    if force.potential == "double_well":
+        params = (force.center[0], force.barrier, force.half_separation**2)
+        return inputs.force(
+            inputs.DOUBLE_WELL, axis=force.axis, params=params, **common
+        )
+    if force.potential == "tilted_periodic":
+        q = 2.0 * math.pi / force.period
+        params = (force.amplitude * q, q, force.tilt)
+        return inputs.force(
+            inputs.TILTED_PERIODIC, axis=force.axis, params=params, **common
+        )
+    spacing = (force.upper - force.lower) / (len(force.values) - 1)
+    return inputs.force(
+        inputs.TABLE,
+        axis=force.axis,
+        table=slope_coefficients(force),
+        table_lower=force.lower,
+        table_spacing=spacing,
+        **common,
+    )

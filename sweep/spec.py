@@ -24,6 +24,7 @@ from pathlib import Path
 from typing import Any, Literal
 
 from sweep.errors import SpecError, SweepWarning
+from sweep.potentials import FAMILY_KEYS, Force
 
 WallKind = Literal["absorbing", "reflecting"]
 WALL_KINDS: tuple[str, ...] = ("absorbing", "reflecting")
@@ -78,11 +79,13 @@ SECTIONS: dict[str, tuple[str, ...]] = {
         "targets",
     ),
     "record": ("per_walker", "survival", "occupancy", "fpt_bins"),
+    # A potential in kT (sweep/potentials.py, read by sweep/force_section.py).
+    "force": ("potential", *sorted({k for ks in FAMILY_KEYS.values() for k in ks})),
     "grid": (),
     "zip": (),
 }
 #: Tables whose keys may be swept by [grid] and [[zip]].
-SWEEPABLE_SECTIONS = ("motion", "time", "domain")
+SWEEPABLE_SECTIONS = ("motion", "time", "domain", "force")
 #: Keys that change array shapes or the meaning of stored indices: one store, one value.
 SHAPE_KEYS = ("motion.dimension", "domain.shape")
 TARGET_KEYS = ("center", "radius")
@@ -238,6 +241,9 @@ class PointSpec:
     timing: Timing
     domain: Domain
     record: Record
+    #: The [force] potential, or None (then left out of the canonical form, so
+    #: definitions without a force keep their hash and streams).
+    force: Force | None = None
 
     def canonical(self) -> dict[str, Any]:
         """A JSON-able dictionary of this point's parameters (used for seeding)."""
@@ -256,6 +262,11 @@ class PointSpec:
                 },
                 "record": self.record.__dict__,
             }
+            | (
+                {"force": self.force.canonical(axis_names(self.motion.dimension))}
+                if self.force is not None
+                else {}
+            )
         )
 
 
@@ -603,7 +614,7 @@ class _Parser:
                     f"{self.source}: the table [{name}] is missing; a definition needs "
                     f"[sweep], [motion], [time] and [domain]."
                 )
-        for name in ("sweep", "motion", "time", "domain", "record", "grid"):
+        for name in ("sweep", "motion", "time", "domain", "record", "grid", "force"):
             self.table(raw, name, "")
         head = raw["sweep"]
         self.keys(head, SECTIONS["sweep"], "sweep")
@@ -657,7 +668,7 @@ class _Parser:
             )
         base = {
             k: copy.deepcopy(raw[k])
-            for k in ("motion", "time", "domain", "record")
+            for k in ("motion", "time", "domain", "record", "force")
             if k in raw
         }
         combos = list(itertools.product(*(values for _, values in axes)))
@@ -798,7 +809,7 @@ class _Parser:
             raise self.fail(
                 f"{where}.{key}",
                 f"is not a sweepable key. Sweepable keys are dotted paths into "
-                f"[motion], [time] and [domain]: {allowed} "
+                f"[motion], [time], [domain] and [force]: {allowed} "
                 f"(and domain.targets.<i>.center / domain.targets.<i>.radius, "
                 f"domain.walls.<wall>).",
             )
@@ -928,9 +939,21 @@ class _Parser:
         motion = self.motion(motion_raw, dimension, domain)
         self.scales(motion, timing, domain)
         record = self.record(self.table(raw, "record", ""), timing, domain)
+        force = None
+        if "force" in raw:
+            from sweep.force_section import read_force
+
+            extent = tuple(zip(domain.lower, domain.upper))
+            names = axis_names(dimension)
+            force = read_force(
+                self, raw["force"], names, extent, motion.diffusivity, timing.dt,
+                timing.scheme,
+            )  # fmt: skip
         if timing.scheme == "spheres":
             self.spheres_allowed(motion, record)
-        return PointSpec(motion=motion, timing=timing, domain=domain, record=record)
+        return PointSpec(
+            motion=motion, timing=timing, domain=domain, record=record, force=force
+        )
 
     def spheres_allowed(self, motion: Motion, record: Record) -> None:
         """Refuse what the sphere jumps cannot do: drift and occupancy snapshots."""

@@ -1,0 +1,158 @@
+"""``sweep check`` for points with a ``[force]``: the exact one-dimensional references.
+
+A potential is separable (harmonic) or acts on one axis, so in a box whose only
+absorbing faces are those of one axis (other axes reflecting or unbounded, no
+targets, a point start) the first passage is that of the one-dimensional motion along
+that axis in ``U_a(x) - drift_a x / D``: its mean first-passage time and splitting
+probability are the quadratures of ``sweep.analytic_force`` (Gardiner §5.2.7
+[memory]). An unbounded side counts as reflecting at infinity and needs a confining
+potential (cut where U exceeds its minimum by ``potentials.CONFINED_KT``). A
+tilted-periodic point absorbed a whole number of periods ahead on an axis unbounded
+behind also compares its drift velocity (distance / mean time, exact by renewal)
+with Stratonovich's formula (Reimann 2002 [memory]).
+
+Not compared: survival curves (no closed form in a potential), balls, targets,
+uniform starts. Endpoint monitoring is compared with the same references; no
+shifted-wall bias is predicted for it in a force (allowance 0).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import xarray as xr
+
+from sweep import analytic_force, stats
+from sweep.check import Z_PASS, CheckRow
+from sweep.spec import PointSpec
+
+SOURCE_MEAN = (
+    "1-D mean first-passage time by quadrature (Gardiner §5.2.7) [from memory]"
+)
+SOURCE_SPLIT = "1-D splitting probability by quadrature (Gardiner §5.2.8) [from memory]"
+SOURCE_VELOCITY = (
+    "tilted-periodic drift velocity (Stratonovich; Reimann 2002) [from memory]"
+)
+#: A start this close (relative) to a whole number of periods from the wall counts.
+PERIOD_RTOL = 1e-9
+
+
+def force_axis(point: PointSpec) -> tuple[int | None, str]:
+    """(The one axis with absorbing faces, "") or (None, why not comparable)."""
+    m, dom = point.motion, point.domain
+    if dom.shape != "box":
+        return None, "force in a ball: no closed form"
+    if dom.targets:
+        return None, "absorbing targets: no closed form"
+    if m.start is None:
+        return None, "uniform start: no closed form implemented"
+    axes = [
+        i for i in range(m.dimension) if dom.absorbing_low[i] or dom.absorbing_high[i]
+    ]
+    if len(axes) != 1:
+        return None, "force with absorbing faces on several axes: no closed form"
+    return axes[0], ""
+
+
+def _problem(point: PointSpec, axis: int) -> tuple:
+    m, dom, f = point.motion, point.domain, point.force
+    u = analytic_force.effective_profile(f, axis, m.diffusivity, m.drift[axis])
+    kind = {True: "absorbing", False: "reflecting"}
+    walls = (kind[dom.absorbing_low[axis]], kind[dom.absorbing_high[axis]])
+    assert m.start is not None
+    return u, dom.lower[axis], dom.upper[axis], m.start[axis], walls
+
+
+def exact_mean(point: PointSpec) -> float:
+    """The quadrature's mean first-passage time [time]; ValueError if none."""
+    axis, why = force_axis(point)
+    if axis is None:
+        raise ValueError(why)
+    u, lo, hi, x0, walls = _problem(point, axis)
+    return analytic_force.mean_exit_time(
+        u, lo, hi, x0, point.motion.diffusivity, walls
+    ).value
+
+
+def force_rows(
+    p: int,
+    point: PointSpec,
+    mean: xr.Dataset | None,
+    split: xr.Dataset | None,
+    censored: float,
+) -> tuple[list[CheckRow], str]:
+    """Rows comparing point ``p`` with the references, and why nothing was compared
+    ("" when something was)."""
+    axis, why = force_axis(point)
+    if axis is None:
+        return [], why
+    if mean is None or split is None:
+        return (
+            [],
+            "force: only the mean and splitting have references (per-walker data needed)",
+        )
+    if censored > 0:
+        return [], (
+            f"force: the mean and splitting are compared only without censored walkers "
+            f"({censored:.1%} censored: lengthen time.horizon)"
+        )
+    u, lo, hi, x0, walls = _problem(point, axis)
+    D = point.motion.diffusivity
+    rows: list[CheckRow] = []
+    try:
+        exact = analytic_force.mean_exit_time(u, lo, hi, x0, D, walls).value
+    except ValueError as err:
+        return [], f"force: {err}"
+    est, se = float(mean["estimate"]), float(mean["stderr"])
+    if se > 0 and math.isfinite(se):
+        rows.append(_row(p, "mean first-passage time", est, se, exact, SOURCE_MEAN))
+        velocity = _velocity_row(p, point, axis, est, se)
+        if velocity is not None:
+            rows.append(velocity)
+    if walls == ("absorbing", "absorbing"):
+        prob = analytic_force.splitting(u, lo, hi, x0).value
+        wall = point.domain.wall_names()[2 * axis + 1]
+        n = float(split["n"])
+        sim = float(split["estimate"].sel(wall=wall))
+        se_p = math.sqrt(prob * (1 - prob) / n)
+        rows.append(_row(p, f"P(absorbed at {wall})", sim, se_p, prob, SOURCE_SPLIT))
+    return rows, "" if rows else "force: fewer than two absorbed walkers"
+
+
+def _velocity_row(
+    p: int, point: PointSpec, axis: int, mean: float, se: float
+) -> CheckRow | None:
+    f, dom, m = point.force, point.domain, point.motion
+    if f is None or f.potential != "tilted_periodic" or f.axis != axis:
+        return None
+    if math.isfinite(dom.lower[axis]) or not dom.absorbing_high[axis]:
+        return None
+    assert m.start is not None
+    distance = dom.upper[axis] - m.start[axis]
+    periods = distance / f.period
+    if round(periods) < 1 or abs(periods - round(periods)) > PERIOD_RTOL * periods:
+        return None
+    exact = analytic_force.periodic_drift_velocity(
+        lambda x: f.amplitude * np.cos(2 * np.pi * x / f.period),
+        f.period,
+        f.tilt,
+        m.diffusivity,
+        m.drift[axis],
+    )
+    # distance / T by the delta method: se(v) = distance se(T) / T^2.
+    return _row(
+        p,
+        "drift velocity",
+        distance / mean,
+        distance * se / mean**2,
+        exact,
+        SOURCE_VELOCITY,
+    )
+
+
+def _row(
+    p: int, name: str, sim: float, se: float, exact: float, source: str
+) -> CheckRow:
+    z = stats.zscore(sim, exact, se)
+    return CheckRow(p, name, sim, se, exact, z, abs(z) <= Z_PASS, source, 0.0)
