@@ -17,8 +17,8 @@ well's minimum, above 2 it diverges) a definition is refused; above :data:`DT_WA
 bound. The harmonic well is stepped by its exact Ornstein–Uhlenbeck update, which has
 no such error in the bulk: it is only warned about (walls still treat the drift as
 constant over a step). ``max|U''|`` is taken over the domain along each axis the
-potential acts on (for the double well on an unbounded side: up to where U exceeds
-its minimum by ``potentials.CONFINED_KT``).
+potential acts on (for the double well: up to where U exceeds its minimum by
+``potentials.CURVATURE_KT``).
 """
 
 from __future__ import annotations
@@ -227,4 +227,24 @@ def dt_warning(
         f"point {index}: dt = {dt:g} is coarse for the force: D dt max|U''| = "
         f"{q_per_dt * dt:.3g} exceeds {DT_WARN:g}{exact}; the largest dt within the "
         f"bound is {DT_WARN / q_per_dt:.3g}."
+    )
+
+
+def horizon_warning(index: int, point: Any) -> str | None:
+    """``sweep plan``'s warning when the horizon is under three exact mean
+    first-passage times (where ``sweep.check_force`` has one): then walkers are
+    censored and the mean cannot be checked."""
+    from sweep.check_force import exact_mean
+
+    try:
+        mean = exact_mean(point)
+    except ValueError:
+        return None
+    if point.timing.horizon >= 3 * mean:
+        return None
+    return (
+        f"point {index}: horizon {point.timing.horizon:g} is short: the exact mean "
+        f"first-passage time in the potential is {mean:.3g}, so many walkers may "
+        f"still be free (censored) at the horizon; lengthen time.horizon to at least "
+        f"{10 * mean:.3g} for a checkable mean."
     )

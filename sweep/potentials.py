@@ -45,6 +45,10 @@ FAMILY_KEYS: dict[str, tuple[str, ...]] = {
 #: quartic's curvature enters the dt bound, and where the references cut an infinite
 #: reflecting side off.
 CONFINED_KT = 50.0
+#: The dt bound takes an unbounded quartic's curvature where U is at most this many kT
+#: above its minimum: an equilibrium walker is beyond with probability about e^-20,
+#: and a brief excursion there adds little to Euler's error.
+CURVATURE_KT = 20.0
 
 
 @dataclass(frozen=True)
@@ -156,8 +160,8 @@ def slope_coefficients(force: Force) -> NDArray[np.float64]:
 def max_curvature(force: Force, axis: int, lower: float, upper: float) -> float:
     """The largest |d2U/dx2| along ``axis`` over [lower, upper] (kT / length^2).
 
-    For the double well on an unbounded side the range is cut where U exceeds its
-    minimum by :data:`CONFINED_KT` (walkers practically never get there); a table's
+    For the double well the range is cut where U exceeds its minimum by
+    :data:`CURVATURE_KT` (walkers practically never get there); a table's
     curvature is linear in each cell, so its largest value sits on a knot.
     """
     f = force
@@ -168,7 +172,7 @@ def max_curvature(force: Force, axis: int, lower: float, upper: float) -> float:
     if f.potential == "tilted_periodic":
         return abs(f.amplitude) * (2.0 * math.pi / f.period) ** 2
     if f.potential == "double_well":
-        reach = f.half_separation * math.sqrt(1.0 + math.sqrt(CONFINED_KT / f.barrier))
+        reach = f.half_separation * math.sqrt(1.0 + math.sqrt(CURVATURE_KT / f.barrier))
         lo = max(lower, f.center[0] - reach)
         hi = min(upper, f.center[0] + reach)
         s = max((lo - f.center[0]) ** 2, (hi - f.center[0]) ** 2) / f.half_separation**2

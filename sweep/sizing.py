@@ -153,6 +153,13 @@ def expected_steps(point: PointSpec) -> float | None:
         return JUMP_STEPS * jumps + steps
 
     horizon_steps = point.timing.n_steps
+    if point.force is not None:  # the potential's quadrature (sweep/check_force.py)
+        from sweep.check_force import exact_mean as force_mean
+
+        try:
+            return float(min(force_mean(point) / point.timing.dt, horizon_steps))
+        except ValueError:
+            return None
     narrow = _narrow_escape_time(point)
     if narrow is not None:
         return float(min(narrow / point.timing.dt, horizon_steps))
@@ -239,7 +246,7 @@ def _narrow_escape_time(point: PointSpec) -> float | None:
 def slowest_decay_time(point: PointSpec) -> float:
     """1 / (slowest decay rate) of the survival, for bounded driftless cases; else inf."""
     dom, m = point.domain, point.motion
-    if any(v != 0.0 for v in m.drift):
+    if any(v != 0.0 for v in m.drift) or point.force is not None:
         return math.inf
     narrow = _narrow_escape_time(point)
     if narrow is not None:
@@ -288,6 +295,12 @@ def point_warnings(index: int, point: PointSpec) -> list[str]:
                 f"{step:.3g} exceeds {STEP_FRACTION:g} x the smallest {name} "
                 f"({smallest:.3g}); halve dt until results stop moving."
             )
+    if point.force is not None:
+        from sweep.force_section import dt_warning, horizon_warning
+
+        extent = tuple(zip(dom.lower, dom.upper))
+        warned = dt_warning(index, point.force, extent, m.diffusivity, tm.dt)
+        out += [w for w in (warned, horizon_warning(index, point)) if w]
     tau = slowest_decay_time(point)
     if math.isfinite(tau) and tm.horizon < 3 * tau:
         censored = math.exp(-tm.horizon / tau)
