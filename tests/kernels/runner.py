@@ -49,6 +49,8 @@ class Domain:
     occupancy_bins: int = 1
     fpt_bin_width: float = 1.0
     fpt_bins: int = 0
+    #: A potential: ``kernels.inputs.force(...)`` (None: no force).
+    force: Any = None
 
     @property
     def dimension(self) -> int:
@@ -97,6 +99,7 @@ class Domain:
             n_steps=self.n_steps,
             drift=self.drift,
             bridge=self.bridge,
+            force=self.force,
         )
         recording = inputs.recording(
             d,
