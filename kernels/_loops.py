@@ -3,7 +3,7 @@ EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,
 ``FORCE_LOOPS[kind, dim]`` those with a force field.
-Digest of template, generator, kernels/walkers.py and rng.py: 4878d00ea259f1c87df022692ee10a39
+Digest of template, generator, kernels/walkers.py and rng.py: 0ef29e480a2f2a06c9de996237394ca0
 """
 
 # ruff: noqa
@@ -21,9 +21,9 @@ from kernels.walkers import (
     _crossing,
     _earliest,
     _fold,
-    _forced,
     _free,
     _random_state,
+    _slope,
     _store_state,
     draw_normal,
     draw_uniform,
@@ -45,6 +45,12 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -79,6 +85,8 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -252,6 +260,12 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -286,6 +300,8 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -306,6 +322,8 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -514,6 +532,12 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -548,6 +572,8 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -568,6 +594,8 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -588,6 +616,8 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -831,6 +861,12 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -865,6 +901,8 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -885,6 +923,8 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -905,6 +945,8 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -925,6 +967,8 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -1203,6 +1247,12 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -1237,6 +1287,8 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -1257,6 +1309,8 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -1277,6 +1331,8 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -1297,6 +1353,8 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -1317,6 +1375,8 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -1630,6 +1690,12 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -1664,6 +1730,8 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -1684,6 +1752,8 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -1704,6 +1774,8 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -1724,6 +1796,8 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -1744,6 +1818,8 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -1764,6 +1840,8 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -2112,6 +2190,12 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -2146,6 +2230,8 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -2166,6 +2252,8 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -2186,6 +2274,8 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -2206,6 +2296,8 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -2226,6 +2318,8 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -2246,6 +2340,8 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -2266,6 +2362,8 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -2649,6 +2747,12 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -2683,6 +2787,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -2703,6 +2809,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -2723,6 +2831,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -2743,6 +2853,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -2763,6 +2875,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -2783,6 +2897,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -2803,6 +2919,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     s7 = motion.drift[7] * dt
     lo7 = lower[7]
     hi7 = upper[7]
@@ -2823,6 +2941,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
     tc7 = target_center[0, 7] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo7, ff7, fs7 = force.offset[7], force.factor[7], force.spread[7]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -3241,6 +3361,12 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -3275,6 +3401,8 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -3501,6 +3629,12 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -3535,6 +3669,8 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -3555,6 +3691,8 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -3816,6 +3954,12 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -3850,6 +3994,8 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -3870,6 +4016,8 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -3890,6 +4038,8 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -4186,6 +4336,12 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -4220,6 +4376,8 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -4240,6 +4398,8 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -4260,6 +4420,8 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -4280,6 +4442,8 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -4611,6 +4775,12 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -4645,6 +4815,8 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -4665,6 +4837,8 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -4685,6 +4859,8 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -4705,6 +4881,8 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -4725,6 +4903,8 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -5091,6 +5271,12 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -5125,6 +5311,8 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -5145,6 +5333,8 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -5165,6 +5355,8 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -5185,6 +5377,8 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -5205,6 +5399,8 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -5225,6 +5421,8 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -5626,6 +5824,12 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -5660,6 +5864,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -5680,6 +5886,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -5700,6 +5908,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -5720,6 +5930,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -5740,6 +5952,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -5760,6 +5974,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -5780,6 +5996,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -6216,6 +6434,12 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -6250,6 +6474,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -6270,6 +6496,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -6290,6 +6518,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -6310,6 +6540,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -6330,6 +6562,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -6350,6 +6584,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -6370,6 +6606,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     s7 = motion.drift[7] * dt
     lo7 = lower[7]
     hi7 = upper[7]
@@ -6390,6 +6628,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
     tc7 = target_center[0, 7] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo7, ff7, fs7 = force.offset[7], force.factor[7], force.spread[7]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -6861,6 +7101,12 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -6887,6 +7133,8 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -6899,6 +7147,8 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -7164,6 +7414,12 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -7190,6 +7446,8 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -7202,6 +7460,8 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -7214,6 +7474,8 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -7502,6 +7764,12 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -7528,6 +7796,8 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -7540,6 +7810,8 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -7552,6 +7824,8 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -7564,6 +7838,8 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -7875,6 +8151,12 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -7901,6 +8183,8 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -7913,6 +8197,8 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -7925,6 +8211,8 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -7937,6 +8225,8 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -7949,6 +8239,8 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -8283,6 +8575,12 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -8309,6 +8607,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -8321,6 +8621,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -8333,6 +8635,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -8345,6 +8649,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -8357,6 +8663,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -8369,6 +8677,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -8726,6 +9036,12 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -8752,6 +9068,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -8764,6 +9082,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -8776,6 +9096,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -8788,6 +9110,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -8800,6 +9124,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -8812,6 +9138,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -8824,6 +9152,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -9204,6 +9534,12 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -9230,6 +9566,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -9242,6 +9580,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -9254,6 +9594,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -9266,6 +9608,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -9278,6 +9622,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -9290,6 +9636,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -9302,6 +9650,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     s7 = motion.drift[7] * dt
     lo7 = lower[7]
     hi7 = upper[7]
@@ -9314,6 +9664,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
     tc7 = target_center[0, 7] if n_targets > 0 else 0.0
+    if False:  # the force's update per axis (kernels.inputs.Force)
+        fo7, ff7, fs7 = force.offset[7], force.factor[7], force.spread[7]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -9717,6 +10069,12 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -9751,6 +10109,8 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -9814,7 +10174,11 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
@@ -9926,6 +10290,12 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -9960,6 +10330,8 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -9980,6 +10352,8 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -10044,11 +10418,19 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -10192,6 +10574,12 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -10226,6 +10614,8 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -10246,6 +10636,8 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -10266,6 +10658,8 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -10331,15 +10725,27 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -10515,6 +10921,12 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -10549,6 +10961,8 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -10569,6 +10983,8 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -10589,6 +11005,8 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -10609,6 +11027,8 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -10675,19 +11095,35 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -10895,6 +11331,12 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -10929,6 +11371,8 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -10949,6 +11393,8 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -10969,6 +11415,8 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -10989,6 +11437,8 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -11009,6 +11459,8 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -11076,23 +11528,43 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -11332,6 +11804,12 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -11366,6 +11844,8 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -11386,6 +11866,8 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -11406,6 +11888,8 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -11426,6 +11910,8 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -11446,6 +11932,8 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -11466,6 +11954,8 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -11534,27 +12024,51 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y5 = _forced(x5, z, 5, motion.force)
+                y5 = fo5 + ff5 * x5 + fs5 * z
+                if 5 == force_axis:
+                    y5 += force_scale * _slope(
+                        x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -11826,6 +12340,12 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -11860,6 +12380,8 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -11880,6 +12402,8 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -11900,6 +12424,8 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -11920,6 +12446,8 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -11940,6 +12468,8 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -11960,6 +12490,8 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -11980,6 +12512,8 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -12049,31 +12583,59 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y5 = _forced(x5, z, 5, motion.force)
+                y5 = fo5 + ff5 * x5 + fs5 * z
+                if 5 == force_axis:
+                    y5 += force_scale * _slope(
+                        x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y6 = _forced(x6, z, 6, motion.force)
+                y6 = fo6 + ff6 * x6 + fs6 * z
+                if 6 == force_axis:
+                    y6 += force_scale * _slope(
+                        x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -12377,6 +12939,12 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -12411,6 +12979,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -12431,6 +13001,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -12451,6 +13023,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -12471,6 +13045,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -12491,6 +13067,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -12511,6 +13089,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -12531,6 +13111,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     s7 = motion.drift[7] * dt
     lo7 = lower[7]
     hi7 = upper[7]
@@ -12551,6 +13133,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
     tc7 = target_center[0, 7] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo7, ff7, fs7 = force.offset[7], force.factor[7], force.spread[7]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -12621,35 +13205,67 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y5 = _forced(x5, z, 5, motion.force)
+                y5 = fo5 + ff5 * x5 + fs5 * z
+                if 5 == force_axis:
+                    y5 += force_scale * _slope(
+                        x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y6 = _forced(x6, z, 6, motion.force)
+                y6 = fo6 + ff6 * x6 + fs6 * z
+                if 6 == force_axis:
+                    y6 += force_scale * _slope(
+                        x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y7 = _forced(x7, z, 7, motion.force)
+                y7 = fo7 + ff7 * x7 + fs7 * z
+                if 7 == force_axis:
+                    y7 += force_scale * _slope(
+                        x7, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -12985,6 +13601,12 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -13019,6 +13641,8 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -13082,7 +13706,11 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
@@ -13247,6 +13875,12 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -13281,6 +13915,8 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -13301,6 +13937,8 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -13365,11 +14003,19 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -13566,6 +14212,12 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -13600,6 +14252,8 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -13620,6 +14274,8 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -13640,6 +14296,8 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -13705,15 +14363,27 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -13942,6 +14612,12 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -13976,6 +14652,8 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -13996,6 +14674,8 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -14016,6 +14696,8 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -14036,6 +14718,8 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -14102,19 +14786,35 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -14375,6 +15075,12 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -14409,6 +15115,8 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -14429,6 +15137,8 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -14449,6 +15159,8 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -14469,6 +15181,8 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -14489,6 +15203,8 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -14556,23 +15272,43 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -14865,6 +15601,12 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -14899,6 +15641,8 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -14919,6 +15663,8 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -14939,6 +15685,8 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -14959,6 +15707,8 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -14979,6 +15729,8 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -14999,6 +15751,8 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -15067,27 +15821,51 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y5 = _forced(x5, z, 5, motion.force)
+                y5 = fo5 + ff5 * x5 + fs5 * z
+                if 5 == force_axis:
+                    y5 += force_scale * _slope(
+                        x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -15412,6 +16190,12 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -15446,6 +16230,8 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -15466,6 +16252,8 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -15486,6 +16274,8 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -15506,6 +16296,8 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -15526,6 +16318,8 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -15546,6 +16340,8 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -15566,6 +16362,8 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -15635,31 +16433,59 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y5 = _forced(x5, z, 5, motion.force)
+                y5 = fo5 + ff5 * x5 + fs5 * z
+                if 5 == force_axis:
+                    y5 += force_scale * _slope(
+                        x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y6 = _forced(x6, z, 6, motion.force)
+                y6 = fo6 + ff6 * x6 + fs6 * z
+                if 6 == force_axis:
+                    y6 += force_scale * _slope(
+                        x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -16016,6 +16842,12 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -16050,6 +16882,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -16070,6 +16904,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -16090,6 +16926,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -16110,6 +16948,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -16130,6 +16970,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -16150,6 +16992,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -16170,6 +17014,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     s7 = motion.drift[7] * dt
     lo7 = lower[7]
     hi7 = upper[7]
@@ -16190,6 +17036,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
     tc7 = target_center[0, 7] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo7, ff7, fs7 = force.offset[7], force.factor[7], force.spread[7]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -16260,35 +17108,67 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y5 = _forced(x5, z, 5, motion.force)
+                y5 = fo5 + ff5 * x5 + fs5 * z
+                if 5 == force_axis:
+                    y5 += force_scale * _slope(
+                        x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y6 = _forced(x6, z, 6, motion.force)
+                y6 = fo6 + ff6 * x6 + fs6 * z
+                if 6 == force_axis:
+                    y6 += force_scale * _slope(
+                        x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y7 = _forced(x7, z, 7, motion.force)
+                y7 = fo7 + ff7 * x7 + fs7 * z
+                if 7 == force_axis:
+                    y7 += force_scale * _slope(
+                        x7, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 if y0 < rl0 or y0 > rh0:
                     y0 = _fold(y0, rl0, rh0)
                 if y1 < rl1 or y1 > rh1:
@@ -16677,6 +17557,12 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -16703,6 +17589,8 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -16715,6 +17603,8 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -16779,11 +17669,19 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -16984,6 +17882,12 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -17010,6 +17914,8 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -17022,6 +17928,8 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -17034,6 +17942,8 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -17099,15 +18009,27 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -17328,6 +18250,12 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -17354,6 +18282,8 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -17366,6 +18296,8 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -17378,6 +18310,8 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -17390,6 +18324,8 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -17456,19 +18392,35 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -17709,6 +18661,12 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -17735,6 +18693,8 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -17747,6 +18707,8 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -17759,6 +18721,8 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -17771,6 +18735,8 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -17783,6 +18749,8 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -17850,23 +18818,43 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -18127,6 +19115,12 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -18153,6 +19147,8 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -18165,6 +19161,8 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -18177,6 +19175,8 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -18189,6 +19189,8 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -18201,6 +19203,8 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -18213,6 +19217,8 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -18281,27 +19287,51 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y5 = _forced(x5, z, 5, motion.force)
+                y5 = fo5 + ff5 * x5 + fs5 * z
+                if 5 == force_axis:
+                    y5 += force_scale * _slope(
+                        x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -18582,6 +19612,12 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -18608,6 +19644,8 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -18620,6 +19658,8 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -18632,6 +19672,8 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -18644,6 +19686,8 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -18656,6 +19700,8 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -18668,6 +19714,8 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -18680,6 +19728,8 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -18749,31 +19799,59 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y5 = _forced(x5, z, 5, motion.force)
+                y5 = fo5 + ff5 * x5 + fs5 * z
+                if 5 == force_axis:
+                    y5 += force_scale * _slope(
+                        x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y6 = _forced(x6, z, 6, motion.force)
+                y6 = fo6 + ff6 * x6 + fs6 * z
+                if 6 == force_axis:
+                    y6 += force_scale * _slope(
+                        x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -19074,6 +20152,12 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -19100,6 +20184,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
     tc0 = target_center[0, 0] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo0, ff0, fs0 = force.offset[0], force.factor[0], force.spread[0]
     s1 = motion.drift[1] * dt
     lo1 = lower[1]
     hi1 = upper[1]
@@ -19112,6 +20198,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
     tc1 = target_center[0, 1] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo1, ff1, fs1 = force.offset[1], force.factor[1], force.spread[1]
     s2 = motion.drift[2] * dt
     lo2 = lower[2]
     hi2 = upper[2]
@@ -19124,6 +20212,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
     tc2 = target_center[0, 2] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo2, ff2, fs2 = force.offset[2], force.factor[2], force.spread[2]
     s3 = motion.drift[3] * dt
     lo3 = lower[3]
     hi3 = upper[3]
@@ -19136,6 +20226,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
     tc3 = target_center[0, 3] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo3, ff3, fs3 = force.offset[3], force.factor[3], force.spread[3]
     s4 = motion.drift[4] * dt
     lo4 = lower[4]
     hi4 = upper[4]
@@ -19148,6 +20240,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
     tc4 = target_center[0, 4] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo4, ff4, fs4 = force.offset[4], force.factor[4], force.spread[4]
     s5 = motion.drift[5] * dt
     lo5 = lower[5]
     hi5 = upper[5]
@@ -19160,6 +20254,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
     tc5 = target_center[0, 5] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo5, ff5, fs5 = force.offset[5], force.factor[5], force.spread[5]
     s6 = motion.drift[6] * dt
     lo6 = lower[6]
     hi6 = upper[6]
@@ -19172,6 +20268,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
     tc6 = target_center[0, 6] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo6, ff6, fs6 = force.offset[6], force.factor[6], force.spread[6]
     s7 = motion.drift[7] * dt
     lo7 = lower[7]
     hi7 = upper[7]
@@ -19184,6 +20282,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
     tc7 = target_center[0, 7] if n_targets > 0 else 0.0
+    if True:  # the force's update per axis (kernels.inputs.Force)
+        fo7, ff7, fs7 = force.offset[7], force.factor[7], force.spread[7]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -19254,35 +20354,67 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y0 = _forced(x0, z, 0, motion.force)
+                y0 = fo0 + ff0 * x0 + fs0 * z
+                if 0 == force_axis:
+                    y0 += force_scale * _slope(
+                        x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y1 = _forced(x1, z, 1, motion.force)
+                y1 = fo1 + ff1 * x1 + fs1 * z
+                if 1 == force_axis:
+                    y1 += force_scale * _slope(
+                        x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y2 = _forced(x2, z, 2, motion.force)
+                y2 = fo2 + ff2 * x2 + fs2 * z
+                if 2 == force_axis:
+                    y2 += force_scale * _slope(
+                        x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y3 = _forced(x3, z, 3, motion.force)
+                y3 = fo3 + ff3 * x3 + fs3 * z
+                if 3 == force_axis:
+                    y3 += force_scale * _slope(
+                        x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y4 = _forced(x4, z, 4, motion.force)
+                y4 = fo4 + ff4 * x4 + fs4 * z
+                if 4 == force_axis:
+                    y4 += force_scale * _slope(
+                        x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y5 = _forced(x5, z, 5, motion.force)
+                y5 = fo5 + ff5 * x5 + fs5 * z
+                if 5 == force_axis:
+                    y5 += force_scale * _slope(
+                        x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y6 = _forced(x6, z, 6, motion.force)
+                y6 = fo6 + ff6 * x6 + fs6 * z
+                if 6 == force_axis:
+                    y6 += force_scale * _slope(
+                        x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 z, rs = draw_normal(rs)
                 # A potential (kernels.inputs.Force): OU update, or Euler-
                 # Maruyama in -D U'(x); walls below treat it as constant.
-                y7 = _forced(x7, z, 7, motion.force)
+                y7 = fo7 + ff7 * x7 + fs7 * z
+                if 7 == force_axis:
+                    y7 += force_scale * _slope(
+                        x7, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                    )
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.

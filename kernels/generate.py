@@ -34,8 +34,8 @@ DIMENSIONS = range(1, 9)
 #: Names the template imports from kernels/walkers.py.
 HELPERS = (
     "BRIDGE_CUTOFF", "REACH", "SURFACE_MARGIN", "_cell_next", "_crossing",
-    "_earliest", "_fold", "_forced", "_free", "_random_state", "_store_state",
-    "draw_normal", "draw_uniform",
+    "_earliest", "_fold", "_free", "_random_state", "_slope",
+    "_store_state", "draw_normal", "draw_uniform",
 )  # fmt: skip
 
 _STATIC_IF = re.compile(r"^(\s*)(if|elif) static\((.*)\):\s*$")

@@ -91,7 +91,8 @@ class Force(NamedTuple):
     scale : float
         -D dt (length^2 per kT): the Euler drift per unit slope.
     params : float64 (3,)
-        Double well: centre, barrier (kT), half-separation squared; tilted periodic:
+        Double well: centre, 4 barrier / b^2 (kT / length^2), 1 / b^2 (b the
+        half-separation); tilted periodic:
         amplitude times 2 pi / period (kT / length), 2 pi / period, tilt.
     table : float64 (cells, 3)
         Table: the spline's slope in cell j, ``a + t (b + c t)``, t from the cell's

@@ -56,6 +56,12 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    force = motion.force
+    force_axis, force_scale = force.axis, force.scale
+    fk, ftable, flower, fspacing = (
+        force.kind, force.table, force.table_lower, force.table_spacing
+    )  # fmt: skip
+    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     if static(KIND == BALL):
         n_box_walls = 0
     else:
@@ -95,6 +101,8 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         oh_i = recording.occupancy_upper[i]
         bc_i = ball_center[i]
         tc_i = target_center[0, i] if n_targets > 0 else 0.0
+        if static(FORCE == 1):  # the force's update per axis (kernels.inputs.Force)
+            fo_i, ff_i, fs_i = force.offset[i], force.factor[i], force.spread[i]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -164,7 +172,11 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     if static(FORCE == 1):
                         # A potential (kernels.inputs.Force): OU update, or Euler-
                         # Maruyama in -D U'(x); walls below treat it as constant.
-                        y_i = _forced(x_i, z, i, motion.force)
+                        y_i = fo_i + ff_i * x_i + fs_i * z
+                        if i == force_axis:
+                            y_i += force_scale * _slope(
+                                x_i, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                            )
                     else:
                         y_i = x_i + s_i + sigma * z
                 if static(KIND != BALL):

@@ -376,34 +376,25 @@ def _cell_next(cell, x, lower, upper, bins):  # type: ignore[no-untyped-def]
     return cell * bins + b
 
 
-@njit(nogil=True, cache=True)
-def _forced(x, z, axis, force):  # type: ignore[no-untyped-def]
-    """End of one axis' step in a force field (kernels.inputs.Force): the
-    Ornstein-Uhlenbeck update of a harmonic axis (exact in law), the free step on an
-    axis the force ignores, Euler-Maruyama ``x + drift dt - D dt U'(x) + sqrt(2 D
-    dt) z`` on a one-dimensional family's axis."""
-    y = force.offset[axis] + force.factor[axis] * x + force.spread[axis] * z
-    if axis == force.axis:
-        y += force.scale * _slope(x, force)
-    return y
-
-
-@njit(nogil=True, cache=True)
-def _slope(x, force):  # type: ignore[no-untyped-def]
-    """dU/dx (kT / length) of a one-dimensional family at ``x``."""
-    p = force.params
-    if force.kind == inputs.DOUBLE_WELL:
-        u = x - p[0]
-        return 4.0 * p[1] * (u * u / p[2] - 1.0) * u / p[2]
-    if force.kind == inputs.TILTED_PERIODIC:
-        return -p[0] * math.sin(p[1] * x) - p[2]
+@njit(nogil=True, cache=True, inline="always")
+def _slope(x, kind, p0, p1, p2, table, table_lower, table_spacing):  # type: ignore[no-untyped-def]
+    """dU/dx (kT / length) at ``x`` of a one-dimensional family of
+    ``kernels.inputs.Force`` (its kind, params and table, passed as scalars and one
+    array: the loop keeps them in registers; inlined)."""
+    if kind == inputs.DOUBLE_WELL:  # p = centre, 4 barrier / b^2, 1 / b^2
+        u = x - p0
+        return p1 * (u * u * p2 - 1.0) * u
+    if (
+        kind == inputs.TILTED_PERIODIC
+    ):  # p = amplitude 2 pi / period, 2 pi / period, tilt
+        return -p0 * math.sin(p1 * x) - p2
     # The table's spline, cell by the knot spacing (clamped: walkers stay inside
     # the domain, which the table covers, up to rounding).
-    cells = force.table.shape[0]
-    j = int(math.floor((x - force.table_lower) / force.table_spacing))
+    cells = table.shape[0]
+    j = int(math.floor((x - table_lower) / table_spacing))
     j = min(max(j, 0), cells - 1)
-    t = x - (force.table_lower + j * force.table_spacing)
-    return force.table[j, 0] + t * (force.table[j, 1] + force.table[j, 2] * t)
+    t = x - (table_lower + j * table_spacing)
+    return table[j, 0] + t * (table[j, 1] + table[j, 2] * t)
 
 
 # The generated loops import the helpers above from this module, so they come last.

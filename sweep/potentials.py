@@ -200,7 +200,8 @@ def kernel_force(
             inputs.HARMONIC, stiffness=force.stiffness, center=force.center, **common
         )
     if force.potential == "double_well":
-        params = (force.center[0], force.barrier, force.half_separation**2)
+        b2 = force.half_separation**2
+        params = (force.center[0], 4.0 * force.barrier / b2, 1.0 / b2)
         return inputs.force(
             inputs.DOUBLE_WELL, axis=force.axis, params=params, **common
         )
