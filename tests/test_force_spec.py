@@ -12,6 +12,7 @@ import pytest
 from sweep.check import check_store
 from sweep.errors import SpecError
 from sweep.execute import RunOptions, run
+from sweep.report import write_report
 from sweep.spec import parse_spec
 from tests.conftest import SMALL_SPEC, assert_stores_identical, build_store, run_cli
 
@@ -158,3 +159,7 @@ def test_force_sweep_resumes_bit_identically_and_checks(tmp_path: Path) -> None:
     assert report.passed, report
     assert {r.statistic for r in report.rows} == {"mean first-passage time"}
     assert len({r.point for r in report.rows}) == 2
+    # The report's escape-time figure: simulated, exact quadrature and Kramers.
+    write_report(full, tmp_path / "report")
+    assert (tmp_path / "report" / "escape_time.png").stat().st_size > 0
+    assert "Kramers" in (tmp_path / "report" / "index.html").read_text()
