@@ -164,6 +164,7 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
                 None if mean is None else mean.isel(one),
                 None if split is None else split.isel(one),
                 censored,
+                ds.isel(one),
             )
             rows += found
             if reason:

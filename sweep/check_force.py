@@ -11,6 +11,11 @@ tilted-periodic point absorbed a whole number of periods ahead on an axis unboun
 behind also compares its drift velocity (distance / mean time, exact by renewal)
 with Stratonovich's formula (Reimann 2002 [memory]).
 
+A harmonic well in free space (a box with every side unbounded, a point start) has
+an exact Gaussian occupancy at every snapshot: per snapshot and axis, the fraction of
+walkers between the histogram edges nearest mean -+ one standard deviation is compared
+with the Gaussian's mass there (a binomial standard error).
+
 Not compared: survival curves (no closed form in a potential), balls, targets,
 uniform starts. Endpoint monitoring is compared with the same references; no
 shifted-wall bias is predicted for it in a force (allowance 0).
@@ -22,6 +27,7 @@ import math
 
 import numpy as np
 import xarray as xr
+from scipy.special import ndtr
 
 from sweep import analytic_force, stats
 from sweep.check import Z_PASS, CheckRow
@@ -31,6 +37,10 @@ SOURCE_MEAN = (
     "1-D mean first-passage time by quadrature (Gardiner §5.2.7) [from memory]"
 )
 SOURCE_SPLIT = "1-D splitting probability by quadrature (Gardiner §5.2.8) [from memory]"
+SOURCE_OU = (
+    "Ornstein-Uhlenbeck occupancy, Gaussian with variance (1 - e^(-2Dkt))/k "
+    "(Uhlenbeck & Ornstein 1930; Gardiner §3.8.4) [from memory]"
+)
 SOURCE_VELOCITY = (
     "tilted-periodic drift velocity (Stratonovich; Reimann 2002) [from memory]"
 )
@@ -81,9 +91,15 @@ def force_rows(
     mean: xr.Dataset | None,
     split: xr.Dataset | None,
     censored: float,
+    data: xr.Dataset | None = None,
 ) -> tuple[list[CheckRow], str]:
     """Rows comparing point ``p`` with the references, and why nothing was compared
-    ("" when something was)."""
+    ("" when something was). ``data``: the point's slice of the store's Dataset (for
+    the occupancy of a harmonic well in free space)."""
+    f, dom = point.force, point.domain
+    assert f is not None
+    if f.potential == "harmonic" and not any(dom.wall_absorbing()):
+        return ou_rows(p, point, data)
     axis, why = force_axis(point)
     if axis is None:
         return [], why
@@ -156,3 +172,68 @@ def _row(
 ) -> CheckRow:
     z = stats.zscore(sim, exact, se)
     return CheckRow(p, name, sim, se, exact, z, abs(z) <= Z_PASS, source, 0.0)
+
+
+def ou_rows(
+    p: int, point: PointSpec, data: xr.Dataset | None
+) -> tuple[list[CheckRow], str]:
+    """Occupancy of a harmonic well in free space against the exact Gaussian law."""
+    f, dom, m = point.force, point.domain, point.motion
+    assert f is not None
+    if dom.shape != "box" or dom.targets or m.start is None:
+        return (
+            [],
+            "harmonic well: occupancy compared only for a box, no targets, a point start",
+        )
+    if any(math.isfinite(v) for v in dom.lower + dom.upper):
+        return [], (
+            "harmonic well with walls: no closed form (the Gaussian occupancy holds "
+            "in free space only)"
+        )
+    if data is None or "occupancy" not in data:
+        return [], "harmonic well without walls: record.occupancy gives the comparison"
+    counts = data["occupancy"].values  # (snapshot, bins, ..., bins)
+    times = data["snapshot_time"].values
+    n = float(data["walkers_done"])
+    bins = counts.shape[1]
+    rows: list[CheckRow] = []
+    names = ("x", "y", "z")
+    for s, t in enumerate(times):
+        if t <= 0:
+            continue
+        laws = [_gaussian(point, i, float(t)) for i in range(m.dimension)]
+        lo, hi = data["occupancy_lower"].values, data["occupancy_upper"].values
+        # The histogram holds walkers inside its range on every axis; the axes are
+        # independent, so each marginal carries the other axes' in-range mass.
+        inside = [
+            float(ndtr((hi[i] - mu) / sd) - ndtr((lo[i] - mu) / sd))
+            for i, (mu, sd) in enumerate(laws)
+        ]
+        for i, (mean, sd) in enumerate(laws):
+            edges = np.linspace(float(lo[i]), float(hi[i]), bins + 1)
+            a = int(np.argmin(np.abs(edges - (mean - sd))))
+            b = int(np.argmin(np.abs(edges - (mean + sd))))
+            if b <= a:
+                continue
+            rest = tuple(j for j in range(m.dimension) if j != i)
+            marginal = counts[s].sum(axis=rest) if rest else counts[s]
+            sim = float(marginal[a:b].sum()) / n
+            exact = float(ndtr((edges[b] - mean) / sd) - ndtr((edges[a] - mean) / sd))
+            exact *= math.prod(inside[j] for j in rest)
+            se = math.sqrt(exact * (1 - exact) / n)
+            name = names[i] if i < 3 else f"x{i}"
+            label = f"P({edges[a]:.3g} <= {name} < {edges[b]:.3g}, t = {t:g})"
+            rows.append(_row(p, label, sim, se, exact, SOURCE_OU))
+    return rows, "" if rows else "harmonic well: no snapshot resolves the occupancy"
+
+
+def _gaussian(point: PointSpec, axis: int, t: float) -> tuple[float, float]:
+    """(mean, standard deviation) of coordinate ``axis`` at time ``t`` in a harmonic
+    well (free motion with drift where its stiffness is 0)."""
+    f, m = point.force, point.motion
+    assert f is not None and m.start is not None
+    k, D, mu, x0 = f.stiffness[axis], m.diffusivity, m.drift[axis], m.start[axis]
+    if k > 0:
+        mean = float(analytic_force.ou_mean(t, x0, f.center[axis], k, D, mu))
+        return mean, math.sqrt(float(analytic_force.ou_variance(t, k, D)))
+    return x0 + mu * t, math.sqrt(2.0 * D * t)

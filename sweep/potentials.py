@@ -29,7 +29,6 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.interpolate import CubicSpline
 
 #: The families, as the definition spells them.
 FAMILIES = ("harmonic", "double_well", "tilted_periodic", "table")
@@ -102,8 +101,12 @@ class Force:
                 out[key] = list(value) if isinstance(value, tuple) else value
         return out
 
-    def spline(self) -> CubicSpline:
-        """The table's interpolant (natural cubic spline); tables only."""
+    def spline(self) -> Any:
+        """The table's interpolant, a ``scipy.interpolate.CubicSpline`` (natural);
+        tables only. scipy is imported here: the definition reader imports this
+        module, and most definitions have no table."""
+        from scipy.interpolate import CubicSpline
+
         grid = np.linspace(self.lower, self.upper, len(self.values))
         return CubicSpline(grid, np.array(self.values), bc_type="natural")
 
