@@ -3,7 +3,7 @@
 A walker escapes from the left well of the double well ``U = h ((x/b)^2 - 1)^2``
 (h = 2 kT, b = 1, D = 1): reflecting at -2.5, absorbing at the right minimum +1, start
 at the left minimum. The exact mean escape time is the quadrature of
-``sweep.analytic_force.mean_exit_time`` (Gardiner §5.2.7 [memory]); the kernel steps
+``sweep.analytic.force.mean_exit_time`` (Gardiner §5.2.7 [memory]); the kernel steps
 the force by Euler–Maruyama and monitors the absorbing wall with the Brownian bridge,
 so the bias should shrink like dt (order 1). Each rung runs WALKERS walkers; the order
 is the least-squares slope of log|bias| against log dt, printed with each rung's
@@ -21,7 +21,7 @@ import math
 
 import numpy as np
 
-from sweep import analytic_force
+from sweep.analytic import force as analytic_force
 from sweep.potentials import Force, kernel_force, max_curvature
 from tests.kernels.runner import Domain, run
 
@@ -57,7 +57,7 @@ def main() -> None:
         u, -2.5, 1.0, -1.0, 1.0, ("reflecting", "absorbing")
     ).value
     print(f"double well h = 2 kT: exact mean escape time {exact:.6f} (quadrature)")
-    # The definition's dt bound (sweep.force_section): D dt max|U''| <= 0.05 warned.
+    # The definition's dt bound (sweep.spec.sections.force): D dt max|U''| <= 0.05 warned.
     curvature = max_curvature(force, 0, -2.5, 1.0)
     biases = []
     for k, dt in enumerate(DTS):

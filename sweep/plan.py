@@ -18,7 +18,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from kernels import inputs
-from sweep.analytic import centre_exit_table
+from sweep.exit_times import centre_exit_table
 from sweep.potentials import kernel_force
 from sweep.spec import PointSpec, Sweep, axis_names
 
@@ -54,7 +54,7 @@ class KernelArgs:
     scheme: str = "steps"
     #: Protective radius below which the spheres scheme steps, length units.
     handover: float = 0.0
-    #: The centre-exit inverse CDF of a d-ball (sweep.analytic.ExitTable): knot values,
+    #: The centre-exit inverse CDF of a d-ball (sweep.exit_times.ExitTable): knot values,
     #: slopes times the spacing, first knot, spacing, tail slope.
     exit_tau: NDArray[np.float64] = field(default_factory=lambda: np.zeros(0))
     exit_dtau: NDArray[np.float64] = field(default_factory=lambda: np.zeros(0))

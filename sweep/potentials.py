@@ -13,11 +13,11 @@ constant drift of ``[motion]`` (overdamped Langevin motion
   joined by the natural cubic spline through them (``scipy.interpolate.CubicSpline``,
   ``bc_type="natural"``). The kernel evaluates the slope of this very spline from its
   per-cell coefficients (:func:`slope_coefficients`), and the exact references
-  (``sweep.analytic_force``) integrate the same spline, so a table is checked against
+  (``sweep.analytic.force``) integrate the same spline, so a table is checked against
   its own interpolant.
 
 This module is the lowest layer of the force feature: the definition reader
-(``sweep.force_section``), the plan (kernel coefficients), the references and the
+(``sweep.spec.sections.force``), the plan (kernel coefficients), the references and the
 checks all take their formulas from here. numpy and scipy only; nothing from sweep.
 """
 

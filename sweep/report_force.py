@@ -1,7 +1,7 @@
 """The report's figure for force fields: mean escape time against barrier height.
 
 For a sweep whose only swept key is ``force.barrier`` of a double well, with the mean
-first-passage time compared by ``sweep check`` (``sweep.check_force``): the simulated
+first-passage time compared by ``sweep check`` (``sweep.check.force``): the simulated
 mean with its 95 % interval, the exact quadrature (Gardiner §5.2.7 [memory]) and the
 Kramers asymptote 1/r (Kramers 1940; Hänggi, Talkner & Borkovec 1990 [memory]; the
 time from one minimum across the barrier) side by side, on a log scale. Built on a
@@ -14,7 +14,7 @@ from pathlib import Path
 
 from matplotlib.figure import Figure
 
-from sweep.analytic_force import kramers_escape_time
+from sweep.analytic.force import kramers_escape_time
 from sweep.check import CheckReport
 from sweep.spec import Sweep
 

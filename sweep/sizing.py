@@ -153,8 +153,8 @@ def expected_steps(point: PointSpec) -> float | None:
         return JUMP_STEPS * jumps + steps
 
     horizon_steps = point.timing.n_steps
-    if point.force is not None:  # the potential's quadrature (sweep/check_force.py)
-        from sweep.check_force import exact_mean as force_mean
+    if point.force is not None:  # the potential's quadrature (sweep/check/force.py)
+        from sweep.check.force import exact_mean as force_mean
 
         try:
             return float(min(force_mean(point) / point.timing.dt, horizon_steps))
@@ -296,7 +296,8 @@ def point_warnings(index: int, point: PointSpec) -> list[str]:
                 f"({smallest:.3g}); halve dt until results stop moving."
             )
     if point.force is not None:
-        from sweep.force_section import dt_warning, horizon_warning
+        from sweep.check.force import horizon_warning
+        from sweep.spec.sections.force import dt_warning
 
         extent = tuple(zip(dom.lower, dom.upper))
         warned = dt_warning(index, point.force, extent, m.diffusivity, tm.dt)

@@ -1,5 +1,5 @@
 """The kernel in a force field (kernels.inputs.Force) against the exact references
-of sweep.analytic_force and against the slow numpy reference (tests/kernels/reference.py,
+of sweep.analytic.force and against the slow numpy reference (tests/kernels/reference.py,
 rules 1'). Small walker counts; the dt-ladder order study is benchmarks/force_order.py."""
 
 from __future__ import annotations
@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from sweep import analytic_force
+from sweep.analytic import force as analytic_force
 from sweep.potentials import Force, along, kernel_force
 from tests.kernels.reference import simulate_reference
 from tests.kernels.runner import Domain, run
@@ -53,7 +53,7 @@ OU_START, OU_DRIFT = (1.2, 0.1), (0.6, -0.4)
 
 @pytest.mark.parametrize("dt,n_steps", [(0.25, 2), (0.01, 50)])
 def test_ou_exact_update_moments(dt: float, n_steps: int) -> None:
-    # Uhlenbeck & Ornstein (1930); Gardiner §3.8.4 [memory] (sweep.analytic_force):
+    # Uhlenbeck & Ornstein (1930); Gardiner §3.8.4 [memory] (sweep.analytic.force):
     # the exact update has the exact law at any dt, here D k dt up to 0.8. The y axis
     # (k = 0) is free motion with drift (reference sheet A2).
     dom = _domain(HARMONIC, OU_START, (-INF, -INF), (INF, INF), [(False, False)] * 2,

@@ -1,8 +1,7 @@
 """The ``[force]`` table of a sweep definition: reading, refusals and the dt bound.
 
-``sweep.spec`` calls :func:`read_force` for each point with its parser (the value
-readers and the message template: file, key, got, allowed, how to fix) once the
-point's motion, time and domain are read; :func:`dt_warning` gives ``sweep plan``
+``sweep.spec.point`` calls :func:`read_force` for each point once its motion, time and
+domain are read; :func:`dt_warning` gives ``sweep plan``
 (and ``sweep run``, which repeats plan's warnings) its warning. The model and the
 formulas are in :mod:`sweep.potentials`.
 
@@ -24,9 +23,16 @@ potential acts on (for the double well: up to where U exceeds its minimum by
 from __future__ import annotations
 
 import math
-from typing import Any, Protocol
+from typing import Any
 
 from sweep.potentials import FAMILIES, FAMILY_KEYS, Force, max_curvature
+from sweep.spec.context import Context, toml_text
+from sweep.spec.sections.section import Section
+from sweep.spec.values import choice, number, vector
+
+#: Every key of every family (potentials.FAMILY_KEYS says which a family takes).
+KEYS = ("potential", *dict.fromkeys(k for ks in FAMILY_KEYS.values() for k in ks))
+SECTION = Section("force", KEYS, per_point=True, sweepable=True)
 
 #: Refuse above this D dt max|U''| (see the module docstring).
 DT_LIMIT = 0.5
@@ -36,23 +42,8 @@ DT_WARN = 0.05
 MAX_TABLE_VALUES = 1_000_000
 
 
-class _Parser(Protocol):  # the parts of sweep.spec's parser used here
-    def fail(self, key: str, message: str) -> Exception: ...
-    def keys(self, table: Any, allowed: Any, where: str) -> None: ...
-    def required(self, table: Any, key: str, where: str) -> Any: ...
-    def number(self, value: Any, key: str, **kw: bool) -> float: ...
-    def vector(self, value: Any, key: str, dimension: int) -> tuple[float, ...]: ...
-    def choice(self, value: Any, key: str, allowed: Any) -> str: ...
-
-
-def _toml(value: Any) -> str:
-    from sweep.spec import _toml as show
-
-    return show(value)
-
-
 def read_force(
-    p: _Parser,
+    ctx: Context,
     table: Any,
     axes: tuple[str, ...],
     extent: tuple[tuple[float, float], ...],
@@ -64,7 +55,7 @@ def read_force(
 
     Parameters
     ----------
-    p : the spec parser (messages and value readers)
+    ctx : the definition's context (file, key and grid point of messages)
     table : the raw table
     axes : axis names of the domain (x, y, ...)
     extent : (lower, upper) of the domain per axis (a ball: its bounding box)
@@ -72,16 +63,16 @@ def read_force(
     scheme : time.scheme; "spheres" is refused
     """
     if not isinstance(table, dict):
-        raise p.fail("force", f"must be a table; got {_toml(table)}.")
-    potential = p.choice(
-        p.required(table, "potential", "force"), "force.potential", FAMILIES
+        raise ctx.fail("force", f"must be a table; got {toml_text(table)}.")
+    potential = choice(
+        ctx, ctx.required(table, "potential", "force"), "force.potential", FAMILIES
     )
     keys = FAMILY_KEYS[potential]
-    p.keys(table, ("potential", *keys), f"force] (potential = {potential!r}")
+    ctx.keys(table, ("potential", *keys), f"force] (potential = {potential!r}")
     for key in keys:
-        p.required(table, key, "force")
+        ctx.required(table, key, "force")
     if scheme == "spheres":
-        raise p.fail(
+        raise ctx.fail(
             "time.scheme",
             'must be "steps" with a [force]: the sphere jumps use the exit laws of '
             'free Brownian motion, exact only without a force. Got "spheres"; use '
@@ -92,21 +83,21 @@ def read_force(
     if "axis" in keys:
         name = table["axis"]
         if name not in axes:
-            raise p.fail(
+            raise ctx.fail(
                 "force.axis",
                 f"must name an axis of the {d}-dimensional domain: "
-                f"{' or '.join(repr(a) for a in axes)}; got {_toml(name)}.",
+                f"{' or '.join(repr(a) for a in axes)}; got {toml_text(name)}.",
             )
         axis = axes.index(name)
     if potential == "harmonic":
-        center = p.vector(table["center"], "force.center", d)
-        stiffness = p.vector(table["stiffness"], "force.stiffness", d)
+        center = vector(ctx, table["center"], "force.center", d)
+        stiffness = vector(ctx, table["stiffness"], "force.stiffness", d)
         for name, k in zip(axes, stiffness):
             if k < 0:
-                raise p.fail(
+                raise ctx.fail(
                     "force.stiffness",
                     f"must be >= 0 on every axis (kT per length^2; 0 leaves an axis "
-                    f"free); got {_toml(list(stiffness))} ({name}: {k!r}). A negative "
+                    f"free); got {toml_text(list(stiffness))} ({name}: {k!r}). A negative "
                     f"stiffness is an inverted well that throws walkers out.",
                 )
         force = Force(potential, center=center, stiffness=stiffness)
@@ -114,25 +105,25 @@ def read_force(
         force = Force(
             potential,
             axis=axis,
-            center=(p.number(table["center"], "force.center"),),
-            barrier=p.number(table["barrier"], "force.barrier", positive=True),
-            half_separation=p.number(
-                table["half_separation"], "force.half_separation", positive=True
+            center=(number(ctx, table["center"], "force.center"),),
+            barrier=number(ctx, table["barrier"], "force.barrier", positive=True),
+            half_separation=number(
+                ctx, table["half_separation"], "force.half_separation", positive=True
             ),
         )
     elif potential == "tilted_periodic":
         force = Force(
             potential,
             axis=axis,
-            amplitude=p.number(table["amplitude"], "force.amplitude"),
-            period=p.number(table["period"], "force.period", positive=True),
-            tilt=p.number(table["tilt"], "force.tilt"),
+            amplitude=number(ctx, table["amplitude"], "force.amplitude"),
+            period=number(ctx, table["period"], "force.period", positive=True),
+            tilt=number(ctx, table["tilt"], "force.tilt"),
         )
     else:
-        force = _table(p, table, axis, axes, extent)
+        force = _table(ctx, table, axis, axes, extent)
     q_per_dt = diffusivity * _curvature(force, extent)
     if potential != "harmonic" and q_per_dt * dt > DT_LIMIT:
-        raise p.fail(
+        raise ctx.fail(
             "time.dt",
             f"= {dt!r} is too coarse for the force: D dt max|U''| = "
             f"{q_per_dt * dt:.3g} exceeds {DT_LIMIT:g} (Euler–Maruyama would overshoot "
@@ -144,16 +135,16 @@ def read_force(
 
 
 def _table(
-    p: _Parser,
+    ctx: Context,
     table: dict[str, Any],
     axis: int,
     axes: tuple[str, ...],
     extent: tuple[tuple[float, float], ...],
 ) -> Force:
-    lower = p.number(table["lower"], "force.lower")
-    upper = p.number(table["upper"], "force.upper")
+    lower = number(ctx, table["lower"], "force.lower")
+    upper = number(ctx, table["upper"], "force.upper")
     if not lower < upper:
-        raise p.fail(
+        raise ctx.fail(
             "force.upper", f"must exceed force.lower = {lower!r}; got {upper!r}."
         )
     values = table["values"]
@@ -162,22 +153,22 @@ def _table(
         or not 2 <= len(values) <= MAX_TABLE_VALUES
         or any(isinstance(v, bool) or not isinstance(v, int | float) for v in values)
     ):
-        raise p.fail(
+        raise ctx.fail(
             "force.values",
             f"must be a list of 2 to {MAX_TABLE_VALUES:,} numbers (U in kT at evenly "
-            f"spaced points from force.lower to force.upper); got {_toml(values)}.",
+            f"spaced points from force.lower to force.upper); got {toml_text(values)}.",
         )
     bad = [i for i, v in enumerate(values) if not math.isfinite(float(v))]
     if bad:
-        raise p.fail(
+        raise ctx.fail(
             "force.values",
-            f"must all be finite numbers; entry {bad[0]} is {_toml(values[bad[0]])}"
+            f"must all be finite numbers; entry {bad[0]} is {toml_text(values[bad[0]])}"
             f"{f' ({len(bad)} entries in all)' if len(bad) > 1 else ''}. Give U in kT "
             f"at every grid point (a wall belongs in [domain], not in the table).",
         )
     lo, hi = extent[axis]
     if not (lower <= lo and hi <= upper):
-        raise p.fail(
+        raise ctx.fail(
             "force.lower",
             f"the table spans [{lower!r}, {upper!r}] along {axes[axis]} but the domain "
             f"reaches [{lo!r}, {hi!r}] there; a table must cover the domain along its "
@@ -227,24 +218,4 @@ def dt_warning(
         f"point {index}: dt = {dt:g} is coarse for the force: D dt max|U''| = "
         f"{q_per_dt * dt:.3g} exceeds {DT_WARN:g}{exact}; the largest dt within the "
         f"bound is {DT_WARN / q_per_dt:.3g}."
-    )
-
-
-def horizon_warning(index: int, point: Any) -> str | None:
-    """``sweep plan``'s warning when the horizon is under three exact mean
-    first-passage times (where ``sweep.check_force`` has one): then walkers are
-    censored and the mean cannot be checked."""
-    from sweep.check_force import exact_mean
-
-    try:
-        mean = exact_mean(point)
-    except ValueError:
-        return None
-    if point.timing.horizon >= 3 * mean:
-        return None
-    return (
-        f"point {index}: horizon {point.timing.horizon:g} is short: the exact mean "
-        f"first-passage time in the potential is {mean:.3g}, so many walkers may "
-        f"still be free (censored) at the horizon; lengthen time.horizon to at least "
-        f"{10 * mean:.3g} for a checkable mean."
     )

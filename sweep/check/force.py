@@ -4,7 +4,7 @@ A potential is separable (harmonic) or acts on one axis, so in a box whose only
 absorbing faces are those of one axis (other axes reflecting or unbounded, no
 targets, a point start) the first passage is that of the one-dimensional motion along
 that axis in ``U_a(x) - drift_a x / D``: its mean first-passage time and splitting
-probability are the quadratures of ``sweep.analytic_force`` (Gardiner §5.2.7
+probability are the quadratures of ``sweep.analytic.force`` (Gardiner §5.2.7
 [memory]). An unbounded side counts as reflecting at infinity and needs a confining
 potential (cut where U exceeds its minimum by ``potentials.CONFINED_KT``). A
 tilted-periodic point absorbed a whole number of periods ahead on an axis unbounded
@@ -29,7 +29,8 @@ import numpy as np
 import xarray as xr
 from scipy.special import ndtr
 
-from sweep import analytic_force, stats
+from sweep import stats
+from sweep.analytic import force as analytic_force
 from sweep.check import Z_PASS, CheckRow
 from sweep.spec import PointSpec
 
@@ -237,3 +238,21 @@ def _gaussian(point: PointSpec, axis: int, t: float) -> tuple[float, float]:
         mean = float(analytic_force.ou_mean(t, x0, f.center[axis], k, D, mu))
         return mean, math.sqrt(float(analytic_force.ou_variance(t, k, D)))
     return x0 + mu * t, math.sqrt(2.0 * D * t)
+
+
+def horizon_warning(index: int, point: PointSpec) -> str | None:
+    """``sweep plan``'s warning when the horizon is under three exact mean
+    first-passage times (where ``sweep.check.force`` has one): then walkers are
+    censored and the mean cannot be checked."""
+    try:
+        mean = exact_mean(point)
+    except ValueError:
+        return None
+    if point.timing.horizon >= 3 * mean:
+        return None
+    return (
+        f"point {index}: horizon {point.timing.horizon:g} is short: the exact mean "
+        f"first-passage time in the potential is {mean:.3g}, so many walkers may "
+        f"still be free (censored) at the horizon; lengthen time.horizon to at least "
+        f"{10 * mean:.3g} for a checkable mean."
+    )

@@ -1,4 +1,4 @@
-"""The force-field references (sweep.analytic_force, sweep.potentials) against
+"""The force-field references (sweep.analytic.force, sweep.potentials) against
 independent computations: the flat-potential interval formulas of sweep.analytic, a
 boundary-value solve of the backward equation, a moment ODE and a renewal argument."""
 
@@ -10,7 +10,8 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from sweep import analytic, analytic_force
+from sweep import analytic
+from sweep.analytic import force as analytic_force
 from sweep.potentials import Force, along, max_curvature, slope_coefficients
 from tests.tolerances import RTOL_NUMERIC
 

@@ -1,0 +1,1 @@
+"""Tests of ``sweep.check``, one file per module of the package."""
