@@ -3,7 +3,7 @@ EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,
 ``FORCE_LOOPS[kind, dim]`` those with a force field.
-Digest of template, generator, kernels/walkers.py and rng.py: 0ef29e480a2f2a06c9de996237394ca0
+Digest of template, generator, kernels/walkers.py and rng.py: 7eecaddb697306f6aba6c739b1241ada
 """
 
 # ruff: noqa
@@ -45,12 +45,13 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -260,12 +261,13 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -532,12 +534,13 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -861,12 +864,13 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -1247,12 +1251,13 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -1690,12 +1695,13 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -2190,12 +2196,13 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -2747,12 +2754,13 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -3361,12 +3369,13 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -3629,12 +3638,13 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -3954,12 +3964,13 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -4336,12 +4347,13 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -4775,12 +4787,13 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -5271,12 +5284,13 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -5824,12 +5838,13 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -6434,12 +6449,13 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -7101,12 +7117,13 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -7414,12 +7431,13 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -7764,12 +7782,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -8151,12 +8170,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -8575,12 +8595,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -9036,12 +9057,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -9534,12 +9556,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if False:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -10069,12 +10092,13 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -10290,12 +10314,13 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -10574,12 +10599,13 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -10921,12 +10947,13 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -11331,12 +11358,13 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -11804,12 +11832,13 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -12340,12 +12369,13 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -12939,12 +12969,13 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -13601,12 +13632,13 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 1
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -13875,12 +13907,13 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 2
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -14212,12 +14245,13 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 3
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -14612,12 +14646,13 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 4
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -15075,12 +15110,13 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 5
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -15601,12 +15637,13 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 6
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -16190,12 +16227,13 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 7
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -16842,12 +16880,13 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 2 * 8
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -17557,12 +17596,13 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -17882,12 +17922,13 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -18250,12 +18291,13 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -18661,12 +18703,13 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -19115,12 +19158,13 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -19612,12 +19656,13 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or
@@ -20152,12 +20197,13 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if True:  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     n_box_walls = 0
     sigma = math.sqrt(2.0 * diffusivity * dt)
     # One test per surface and step: d1 d2 <= cut holds when the step ends on or

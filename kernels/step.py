@@ -56,12 +56,13 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
-    force = motion.force
-    force_axis, force_scale = force.axis, force.scale
-    fk, ftable, flower, fspacing = (
-        force.kind, force.table, force.table_lower, force.table_spacing
-    )  # fmt: skip
-    fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
+    if static(FORCE == 1):  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     if static(KIND == BALL):
         n_box_walls = 0
     else:
