@@ -3,7 +3,7 @@ EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,
 ``FORCE_LOOPS[kind, dim]`` those with a force field.
-Digest of template, generator, kernels/walkers.py and rng.py: 7eecaddb697306f6aba6c739b1241ada
+Digest of template, generator, kernels/walkers.py and rng.py: 0d46da49bc97f37fd7d14d896d574ab0
 """
 
 # ruff: noqa
@@ -17,6 +17,7 @@ from kernels.walkers import (
     BRIDGE_CUTOFF,
     REACH,
     SURFACE_MARGIN,
+    _band,
     _cell_next,
     _crossing,
     _earliest,
@@ -82,6 +83,9 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -124,6 +128,7 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -150,14 +155,31 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
@@ -298,6 +320,9 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -320,6 +345,9 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -363,6 +391,7 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 x[i] = motion.start[i]
         x0 = x[0]
         x1 = x[1]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -391,16 +420,36 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
@@ -571,6 +620,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -593,6 +645,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -615,6 +670,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -659,6 +717,7 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         x0 = x[0]
         x1 = x[1]
         x2 = x[2]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -689,18 +748,41 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
@@ -901,6 +983,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -923,6 +1008,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -945,6 +1033,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -967,6 +1058,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -1012,6 +1106,7 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         x1 = x[1]
         x2 = x[2]
         x3 = x[3]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1044,20 +1139,46 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
@@ -1288,6 +1409,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -1310,6 +1434,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -1332,6 +1459,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -1354,6 +1484,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -1376,6 +1509,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -1422,6 +1558,7 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         x2 = x[2]
         x3 = x[3]
         x4 = x[4]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1456,22 +1593,51 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
@@ -1732,6 +1898,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -1754,6 +1923,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -1776,6 +1948,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -1798,6 +1973,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -1820,6 +1998,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -1842,6 +2023,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -1889,6 +2073,7 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         x3 = x[3]
         x4 = x[4]
         x5 = x[5]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1925,24 +2110,56 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
@@ -2233,6 +2450,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -2255,6 +2475,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -2277,6 +2500,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -2299,6 +2525,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -2321,6 +2550,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -2343,6 +2575,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -2365,6 +2600,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -2413,6 +2651,7 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         x4 = x[4]
         x5 = x[5]
         x6 = x[6]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -2451,26 +2690,61 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
@@ -2791,6 +3065,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -2813,6 +3090,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -2835,6 +3115,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -2857,6 +3140,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -2879,6 +3165,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -2901,6 +3190,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -2923,6 +3215,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -2945,6 +3240,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh7 = upper[7]
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -2994,6 +3292,7 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         x5 = x[5]
         x6 = x[6]
         x7 = x[7]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3034,28 +3333,66 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
-                if y7 < rl7 or y7 > rh7:
-                    y7 = _fold(y7, rl7, rh7)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
@@ -3406,6 +3743,9 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -3448,6 +3788,7 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3474,14 +3815,31 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
@@ -3675,6 +4033,9 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -3697,6 +4058,9 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -3740,6 +4104,7 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 x[i] = motion.start[i]
         x0 = x[0]
         x1 = x[1]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3768,16 +4133,36 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
@@ -4001,6 +4386,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -4023,6 +4411,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -4045,6 +4436,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -4089,6 +4483,7 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         x0 = x[0]
         x1 = x[1]
         x2 = x[2]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4119,18 +4514,41 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
@@ -4384,6 +4802,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -4406,6 +4827,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -4428,6 +4852,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -4450,6 +4877,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -4495,6 +4925,7 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         x1 = x[1]
         x2 = x[2]
         x3 = x[3]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4527,20 +4958,46 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
@@ -4824,6 +5281,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -4846,6 +5306,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -4868,6 +5331,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -4890,6 +5356,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -4912,6 +5381,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -4958,6 +5430,7 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         x2 = x[2]
         x3 = x[3]
         x4 = x[4]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4992,22 +5465,51 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
@@ -5321,6 +5823,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -5343,6 +5848,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -5365,6 +5873,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -5387,6 +5898,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -5409,6 +5923,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -5431,6 +5948,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -5478,6 +5998,7 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         x3 = x[3]
         x4 = x[4]
         x5 = x[5]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -5514,24 +6035,56 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
@@ -5875,6 +6428,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -5897,6 +6453,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -5919,6 +6478,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -5941,6 +6503,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -5963,6 +6528,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -5985,6 +6553,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -6007,6 +6578,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -6055,6 +6629,7 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         x4 = x[4]
         x5 = x[5]
         x6 = x[6]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6093,26 +6668,61 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
@@ -6486,6 +7096,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -6508,6 +7121,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -6530,6 +7146,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -6552,6 +7171,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -6574,6 +7196,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -6596,6 +7221,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -6618,6 +7246,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -6640,6 +7271,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh7 = upper[7]
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -6689,6 +7323,7 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         x5 = x[5]
         x6 = x[6]
         x7 = x[7]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6729,28 +7364,66 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
-                if y7 < rl7 or y7 > rh7:
-                    y7 = _fold(y7, rl7, rh7)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
@@ -7146,6 +7819,9 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -7160,6 +7836,9 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -7203,6 +7882,7 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                 x[i] = motion.start[i]
         x0 = x[0]
         x1 = x[1]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7460,6 +8140,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -7474,6 +8157,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -7488,6 +8174,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -7532,6 +8221,7 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         x0 = x[0]
         x1 = x[1]
         x2 = x[2]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7811,6 +8501,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -7825,6 +8518,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -7839,6 +8535,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -7853,6 +8552,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -7898,6 +8600,7 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         x1 = x[1]
         x2 = x[2]
         x3 = x[3]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8199,6 +8902,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -8213,6 +8919,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -8227,6 +8936,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -8241,6 +8953,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -8255,6 +8970,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -8301,6 +9019,7 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         x2 = x[2]
         x3 = x[3]
         x4 = x[4]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8624,6 +9343,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -8638,6 +9360,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -8652,6 +9377,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -8666,6 +9394,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -8680,6 +9411,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -8694,6 +9428,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al5 = -math.inf
     ah5 = math.inf
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -8741,6 +9478,7 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         x3 = x[3]
         x4 = x[4]
         x5 = x[5]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -9086,6 +9824,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -9100,6 +9841,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -9114,6 +9858,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -9128,6 +9875,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -9142,6 +9892,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -9156,6 +9909,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al5 = -math.inf
     ah5 = math.inf
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -9170,6 +9926,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al6 = -math.inf
     ah6 = math.inf
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -9218,6 +9977,7 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         x4 = x[4]
         x5 = x[5]
         x6 = x[6]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -9585,6 +10345,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -9599,6 +10362,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -9613,6 +10379,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -9627,6 +10396,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -9641,6 +10413,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -9655,6 +10430,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al5 = -math.inf
     ah5 = math.inf
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -9669,6 +10447,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al6 = -math.inf
     ah6 = math.inf
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -9683,6 +10464,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al7 = -math.inf
     ah7 = math.inf
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -9732,6 +10516,7 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         x5 = x[5]
         x6 = x[6]
         x7 = x[7]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -10129,6 +10914,9 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -10171,6 +10959,7 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -10203,14 +10992,31 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
                     y0 += force_scale * _slope(
                         x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
@@ -10351,6 +11157,9 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -10373,6 +11182,9 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -10416,6 +11228,7 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
                 x[i] = motion.start[i]
         x0 = x[0]
         x1 = x[1]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -10456,16 +11269,36 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
                     y1 += force_scale * _slope(
                         x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
@@ -10636,6 +11469,9 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -10658,6 +11494,9 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -10680,6 +11519,9 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -10724,6 +11566,7 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
         x0 = x[0]
         x1 = x[1]
         x2 = x[2]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -10772,18 +11615,41 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
                     y2 += force_scale * _slope(
                         x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
@@ -10984,6 +11850,9 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -11006,6 +11875,9 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -11028,6 +11900,9 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -11050,6 +11925,9 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -11095,6 +11973,7 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
         x1 = x[1]
         x2 = x[2]
         x3 = x[3]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -11151,20 +12030,46 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
                     y3 += force_scale * _slope(
                         x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
@@ -11395,6 +12300,9 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -11417,6 +12325,9 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -11439,6 +12350,9 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -11461,6 +12375,9 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -11483,6 +12400,9 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -11529,6 +12449,7 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
         x2 = x[2]
         x3 = x[3]
         x4 = x[4]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -11593,22 +12514,51 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
                     y4 += force_scale * _slope(
                         x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
@@ -11869,6 +12819,9 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -11891,6 +12844,9 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -11913,6 +12869,9 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -11935,6 +12894,9 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -11957,6 +12919,9 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -11979,6 +12944,9 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -12026,6 +12994,7 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
         x3 = x[3]
         x4 = x[4]
         x5 = x[5]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -12098,24 +13067,56 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
                     y5 += force_scale * _slope(
                         x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
@@ -12406,6 +13407,9 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -12428,6 +13432,9 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -12450,6 +13457,9 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -12472,6 +13482,9 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -12494,6 +13507,9 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -12516,6 +13532,9 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -12538,6 +13557,9 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -12586,6 +13608,7 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
         x4 = x[4]
         x5 = x[5]
         x6 = x[6]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -12666,26 +13689,61 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
                     y6 += force_scale * _slope(
                         x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
@@ -13006,6 +14064,9 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -13028,6 +14089,9 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -13050,6 +14114,9 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -13072,6 +14139,9 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -13094,6 +14164,9 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -13116,6 +14189,9 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -13138,6 +14214,9 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -13160,6 +14239,9 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     else:
         rh7 = upper[7]
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -13209,6 +14291,7 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
         x5 = x[5]
         x6 = x[6]
         x7 = x[7]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -13297,28 +14380,66 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
                     y7 += force_scale * _slope(
                         x7, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
-                if y7 < rl7 or y7 > rh7:
-                    y7 = _fold(y7, rl7, rh7)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
@@ -13669,6 +14790,9 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -13711,6 +14835,7 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -13743,14 +14868,31 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
                     y0 += force_scale * _slope(
                         x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
@@ -13944,6 +15086,9 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -13966,6 +15111,9 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -14009,6 +15157,7 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
                 x[i] = motion.start[i]
         x0 = x[0]
         x1 = x[1]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -14049,16 +15198,36 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
                     y1 += force_scale * _slope(
                         x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
@@ -14282,6 +15451,9 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -14304,6 +15476,9 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -14326,6 +15501,9 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -14370,6 +15548,7 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
         x0 = x[0]
         x1 = x[1]
         x2 = x[2]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -14418,18 +15597,41 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
                     y2 += force_scale * _slope(
                         x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
@@ -14683,6 +15885,9 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -14705,6 +15910,9 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -14727,6 +15935,9 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -14749,6 +15960,9 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -14794,6 +16008,7 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
         x1 = x[1]
         x2 = x[2]
         x3 = x[3]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -14850,20 +16065,46 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
                     y3 += force_scale * _slope(
                         x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
@@ -15147,6 +16388,9 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -15169,6 +16413,9 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -15191,6 +16438,9 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -15213,6 +16463,9 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -15235,6 +16488,9 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -15281,6 +16537,7 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
         x2 = x[2]
         x3 = x[3]
         x4 = x[4]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -15345,22 +16602,51 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
                     y4 += force_scale * _slope(
                         x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
@@ -15674,6 +16960,9 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -15696,6 +16985,9 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -15718,6 +17010,9 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -15740,6 +17035,9 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -15762,6 +17060,9 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -15784,6 +17085,9 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -15831,6 +17135,7 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
         x3 = x[3]
         x4 = x[4]
         x5 = x[5]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -15903,24 +17208,56 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
                     y5 += force_scale * _slope(
                         x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
@@ -16264,6 +17601,9 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -16286,6 +17626,9 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -16308,6 +17651,9 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -16330,6 +17676,9 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -16352,6 +17701,9 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -16374,6 +17726,9 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -16396,6 +17751,9 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -16444,6 +17802,7 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
         x4 = x[4]
         x5 = x[5]
         x6 = x[6]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -16524,26 +17883,61 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
                     y6 += force_scale * _slope(
                         x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
@@ -16917,6 +18311,9 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -16939,6 +18336,9 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -16961,6 +18361,9 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -16983,6 +18386,9 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -17005,6 +18411,9 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -17027,6 +18436,9 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -17049,6 +18461,9 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -17071,6 +18486,9 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     else:
         rh7 = upper[7]
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -17120,6 +18538,7 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
         x5 = x[5]
         x6 = x[6]
         x7 = x[7]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -17208,28 +18627,66 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
                     y7 += force_scale * _slope(
                         x7, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
-                if y7 < rl7 or y7 > rh7:
-                    y7 = _fold(y7, rl7, rh7)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
@@ -17625,6 +19082,9 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -17639,6 +19099,9 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -17682,6 +19145,7 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
                 x[i] = motion.start[i]
         x0 = x[0]
         x1 = x[1]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -17951,6 +19415,9 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -17965,6 +19432,9 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -17979,6 +19449,9 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -18023,6 +19496,7 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
         x0 = x[0]
         x1 = x[1]
         x2 = x[2]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -18320,6 +19794,9 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -18334,6 +19811,9 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -18348,6 +19828,9 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -18362,6 +19845,9 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -18407,6 +19893,7 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
         x1 = x[1]
         x2 = x[2]
         x3 = x[3]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -18732,6 +20219,9 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -18746,6 +20236,9 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -18760,6 +20253,9 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -18774,6 +20270,9 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -18788,6 +20287,9 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -18834,6 +20336,7 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
         x2 = x[2]
         x3 = x[3]
         x4 = x[4]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -19187,6 +20690,9 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -19201,6 +20707,9 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -19215,6 +20724,9 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -19229,6 +20741,9 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -19243,6 +20758,9 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -19257,6 +20775,9 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     al5 = -math.inf
     ah5 = math.inf
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -19304,6 +20825,7 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
         x3 = x[3]
         x4 = x[4]
         x5 = x[5]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -19685,6 +21207,9 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -19699,6 +21224,9 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -19713,6 +21241,9 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -19727,6 +21258,9 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -19741,6 +21275,9 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -19755,6 +21292,9 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     al5 = -math.inf
     ah5 = math.inf
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -19769,6 +21309,9 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     al6 = -math.inf
     ah6 = math.inf
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -19817,6 +21360,7 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
         x4 = x[4]
         x5 = x[5]
         x6 = x[6]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -20226,6 +21770,9 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -20240,6 +21787,9 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -20254,6 +21804,9 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -20268,6 +21821,9 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -20282,6 +21838,9 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -20296,6 +21855,9 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     al5 = -math.inf
     ah5 = math.inf
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -20310,6 +21872,9 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     al6 = -math.inf
     ah6 = math.inf
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -20324,6 +21889,9 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     al7 = -math.inf
     ah7 = math.inf
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -20373,6 +21941,7 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
         x5 = x[5]
         x6 = x[6]
         x7 = x[7]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
