@@ -85,6 +85,53 @@ class Geometry(NamedTuple):
         return faces + int(self.target_radius.shape[0])
 
 
+#: Force kinds (Force.kind): none, harmonic (exact Ornstein-Uhlenbeck update per
+#: axis), then the one-dimensional families stepped by Euler-Maruyama.
+NO_FORCE, HARMONIC, DOUBLE_WELL, TILTED_PERIODIC, TABLE = 0, 1, 2, 3, 4
+
+
+class Force(NamedTuple):
+    """A potential U (units of kT) acting on the walkers (see ``sweep.potentials``).
+
+    A step of axis i ends at ``offset_i + factor_i x_i + spread_i z`` (z a standard
+    normal), plus ``scale dU/dx(x_i)`` on the axis of a one-dimensional family: the
+    exact Ornstein-Uhlenbeck update of a harmonic axis (with the constant drift folded
+    into its centre), ``x + drift dt + sqrt(2 D dt) z`` elsewhere, and Euler-Maruyama
+    in the force on the family's axis.
+
+    Attributes
+    ----------
+    kind : int
+        NO_FORCE, HARMONIC, DOUBLE_WELL, TILTED_PERIODIC or TABLE.
+    axis : int
+        Axis of a one-dimensional family; -1 for none and harmonic.
+    offset, factor, spread : float64 (d,)
+        The per-axis update (length, 1, length).
+    scale : float
+        -D dt (length^2 per kT): the Euler drift per unit slope.
+    params : float64 (3,)
+        Double well: centre, 4 barrier / b^2 (kT / length^2), 1 / b^2 (b the
+        half-separation); tilted periodic:
+        amplitude times 2 pi / period (kT / length), 2 pi / period, tilt.
+    table : float64 (cells, 3)
+        Table: the spline's slope in cell j, ``a + t (b + c t)``, t from the cell's
+        left knot (``sweep.potentials.slope_coefficients``).
+    table_lower, table_spacing : float
+        The table's first knot and knot spacing (length).
+    """
+
+    kind: int
+    axis: int
+    offset: NDArray[np.float64]
+    factor: NDArray[np.float64]
+    spread: NDArray[np.float64]
+    scale: float
+    params: NDArray[np.float64]
+    table: NDArray[np.float64]
+    table_lower: float
+    table_spacing: float
+
+
 class Motion(NamedTuple):
     """How the walkers move and for how long.
 
@@ -113,6 +160,8 @@ class Motion(NamedTuple):
     dt: float
     n_steps: int
     bridge: bool
+    #: The potential (``kind`` NO_FORCE for none: the loops without a force run).
+    force: Force
 
 
 class Recording(NamedTuple):
@@ -249,9 +298,13 @@ def motion(
     n_steps: int,
     drift: Sequence[float] | None = None,
     bridge: bool = True,
+    force: Force | None = None,
 ) -> Motion:
-    """Walkers from ``start`` (``None``: uniform over the domain); see :class:`Motion`."""
+    """Walkers from ``start`` (``None``: uniform over the domain); see :class:`Motion`.
+    ``force``: from :func:`force` (default: none)."""
     f64 = np.float64
+    if force is None:
+        force = no_force(dimension)
     return Motion(
         start=np.array(start if start is not None else [math.nan] * dimension, f64),
         uniform_start=start is None,
@@ -260,6 +313,71 @@ def motion(
         dt=float(dt),
         n_steps=int(n_steps),
         bridge=bool(bridge),
+        force=force,
+    )
+
+
+def no_force(dimension: int) -> Force:
+    """The absent force (a valid :class:`Force` the loops without force ignore)."""
+    return Force(
+        kind=NO_FORCE,
+        axis=-1,
+        offset=np.zeros(dimension),
+        factor=np.ones(dimension),
+        spread=np.zeros(dimension),
+        scale=0.0,
+        params=np.zeros(3),
+        table=np.zeros((0, 3)),
+        table_lower=0.0,
+        table_spacing=1.0,
+    )
+
+
+def force(
+    kind: int,
+    *,
+    dimension: int,
+    diffusivity: float,
+    dt: float,
+    drift: Sequence[float] | None = None,
+    axis: int = -1,
+    stiffness: Sequence[float] | None = None,
+    center: Sequence[float] | None = None,
+    params: Sequence[float] = (0.0, 0.0, 0.0),
+    table: NDArray[np.float64] | None = None,
+    table_lower: float = 0.0,
+    table_spacing: float = 1.0,
+) -> Force:
+    """A :class:`Force`; the harmonic update's coefficients are computed here.
+
+    Harmonic axis of stiffness k (kT / length^2), q = D k dt: ``factor = e^-q``,
+    ``offset = c (1 - e^-q) + drift dt (1 - e^-q) / q`` (the OU update towards the
+    centre shifted by drift / (D k), written to stay exact as k -> 0),
+    ``spread = sqrt(2 D dt (1 - e^-2q) / (2q))``; k = 0 gives the free step.
+    """
+    d = dimension
+    mu = np.array(drift if drift is not None else [0.0] * d, np.float64)
+    k = np.array(stiffness if stiffness is not None else [0.0] * d, np.float64)
+    c = np.array(center if center is not None else [0.0] * d, np.float64)
+    if kind != HARMONIC:
+        k = np.zeros(d)
+    q = diffusivity * k * dt
+    with np.errstate(invalid="ignore", divide="ignore"):
+        one = np.where(q > 0, -np.expm1(-q) / np.where(q > 0, q, 1.0), 1.0)
+        two = np.where(q > 0, -np.expm1(-2 * q) / np.where(q > 0, 2 * q, 1.0), 1.0)
+    return Force(
+        kind=int(kind),
+        axis=int(axis) if kind not in (NO_FORCE, HARMONIC) else -1,
+        offset=c * -np.expm1(-q) + mu * dt * one,
+        factor=np.exp(-q),
+        spread=np.sqrt(2.0 * diffusivity * dt * two),
+        scale=-float(diffusivity) * float(dt),
+        params=np.array(params, np.float64).reshape(3),
+        table=np.ascontiguousarray(
+            table if table is not None else np.zeros((0, 3)), np.float64
+        ),
+        table_lower=float(table_lower),
+        table_spacing=float(table_spacing),
     )
 
 

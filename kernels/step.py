@@ -14,8 +14,9 @@ Python with three mechanical rules, so it reads top to bottom as the algorithm:
   (sums from the first axis on, in order; ``all`` joins booleans with ``&``, one
   branch on the whole).
 * ``if static(COND):`` (with an optional ``else:``) is decided when generating, from
-  ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``) and ``DIM``: each loop holds only the
-  code of its own kind of domain.
+  ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``), ``DIM`` and ``FORCE`` (0: no force,
+  1: a potential, ``kernels.inputs.Force``): each loop holds only the code of its own
+  kind of domain, and the loops without a force hold none of its code.
 * Every function here is emitted once per (kind, dimension) under a suffixed name, and
   calls between them are renamed to match.
 
@@ -63,6 +64,13 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
     n_targets = target_radius.shape[0]
     n_snapshots = occupancy_steps.shape[0]
     rs = _random_state(state)  # threaded through every draw below
+    if static(FORCE == 1):  # a potential's parameters, in registers (inputs.Force)
+        force = motion.force
+        force_axis, force_scale = force.axis, force.scale
+        fk, ftable, flower, fspacing = (
+            force.kind, force.table, force.table_lower, force.table_spacing
+        )  # fmt: skip
+        fp0, fp1, fp2 = force.params[0], force.params[1], force.params[2]
     if static(KIND == BALL):
         n_box_walls = 0
     else:
@@ -126,6 +134,8 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         oh_i = recording.occupancy_upper[i]
         bc_i = ball_center[i]
         tc_i = target_center[0, i] if n_targets > 0 else 0.0
+        if static(FORCE == 1):  # the force's update per axis (kernels.inputs.Force)
+            fo_i, ff_i, fs_i = force.offset[i], force.factor[i], force.spread[i]
     # A target or ball surface is only examined for steps that start or end within
     # REACH sigma of it: farther, d1 d2 > REACH^2 sigma^2 exceeds any cut. Endpoint
     # monitoring only needs steps that end inside (SURFACE_MARGIN).
@@ -231,7 +241,16 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                 #    only when that overshoots the opposite face).
                 for i in AXES:
                     z, rs = draw_normal(rs)
-                    y_i = x_i + s_i + sigma * z
+                    if static(FORCE == 1):
+                        # A potential (kernels.inputs.Force): OU update, or Euler-
+                        # Maruyama in -D U'(x); walls below treat it as constant.
+                        y_i = fo_i + ff_i * x_i + fs_i * z
+                        if i == force_axis:
+                            y_i += force_scale * _slope(
+                                x_i, fk, fp0, fp1, fp2, ftable, flower, fspacing
+                            )
+                    else:
+                        y_i = x_i + s_i + sigma * z
                 if static(KIND != BALL):
                     # Box faces matter only to a step that starts or ends outside
                     # the band; the common step skips the folds and face products,

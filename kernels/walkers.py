@@ -50,7 +50,7 @@ from numba.np.random._constants import (
 from numba.np.random.generator_core import next_double, next_uint64
 from numpy.typing import NDArray
 
-from kernels import rng
+from kernels import inputs, rng
 from kernels.inputs import Geometry, Motion, Outputs, Recording
 
 
@@ -268,7 +268,9 @@ def simulate(
         kind = BOX_TARGETS
     else:
         kind = BOX
-    loop = _loops.LOOPS[kind, geometry.lower.shape[0]]
+    # Loops with a force are separate variants: those without stay as they were.
+    loops = _loops.LOOPS if motion.force.kind == inputs.NO_FORCE else _loops.FORCE_LOOPS
+    loop = loops[kind, geometry.lower.shape[0]]
     return loop(state, n_walkers, geometry, motion, recording, out)  # type: ignore[no-any-return]
 
 
@@ -455,6 +457,27 @@ def _cell_next(cell, x, lower, upper, bins):  # type: ignore[no-untyped-def]
     if cell < 0 or b < 0:
         return -1
     return cell * bins + b
+
+
+@njit(nogil=True, cache=True, inline="always")
+def _slope(x, kind, p0, p1, p2, table, table_lower, table_spacing):  # type: ignore[no-untyped-def]
+    """dU/dx (kT / length) at ``x`` of a one-dimensional family of
+    ``kernels.inputs.Force`` (its kind, params and table, passed as scalars and one
+    array: the loop keeps them in registers; inlined)."""
+    if kind == inputs.DOUBLE_WELL:  # p = centre, 4 barrier / b^2, 1 / b^2
+        u = x - p0
+        return p1 * (u * u * p2 - 1.0) * u
+    if (
+        kind == inputs.TILTED_PERIODIC
+    ):  # p = amplitude 2 pi / period, 2 pi / period, tilt
+        return -p0 * math.sin(p1 * x) - p2
+    # The table's spline, cell by the knot spacing (clamped: walkers stay inside
+    # the domain, which the table covers, up to rounding).
+    cells = table.shape[0]
+    j = int(math.floor((x - table_lower) / table_spacing))
+    j = min(max(j, 0), cells - 1)
+    t = x - (table_lower + j * table_spacing)
+    return table[j, 0] + t * (table[j, 1] + table[j, 2] * t)
 
 
 # The generated loops import the helpers above from this module, so they come last.

@@ -19,6 +19,7 @@ from numpy.typing import NDArray
 
 from kernels import inputs
 from sweep.exit_times import centre_exit_table
+from sweep.potentials import kernel_force
 from sweep.spec import Domain, PointSpec, Sweep, axis_names
 
 #: The generator of every task's stream, as numpy names it. SFC64 (a small fast chaotic
@@ -175,6 +176,7 @@ def kernel_args(point: PointSpec) -> KernelArgs:
             n_steps=tm.n_steps,
             drift=m.drift,
             bridge=tm.monitoring == "bridge",
+            force=kernel_force(point.force, d, m.diffusivity, tm.dt, m.drift),
         ),
         recording=inputs.recording(
             d,

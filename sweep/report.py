@@ -57,6 +57,11 @@ def write_report(path: str | Path, out: str | Path) -> Path:
         figures.append(_splitting_figure(ds, sweep, out))
     if "occupancy" in ds:
         figures.append(_occupancy_figure(ds, sweep, labels, out))
+    from sweep.report_force import escape_time_figure  # force fields (issue 22)
+
+    escape = escape_time_figure(sweep, report, out)
+    if escape is not None:
+        figures.append(escape)
     page = out / "index.html"
     page.write_text(_html(sweep, ds, report, figures))
     return page

@@ -127,6 +127,8 @@ def expected_steps(point: PointSpec) -> float | None:
         return JUMP_STEPS * jumps + steps
 
     horizon_steps = point.timing.n_steps
+    if point.force is not None and point.domain.has_surface_kinds():
+        return None  # no closed form: the pilot measures these points
     if point.domain.has_surface_kinds():
         # Reactive, periodic and obstacle surfaces have their own closed forms
         # (sweep.check.surfaces); elsewhere the pilot measures these points.
@@ -136,6 +138,13 @@ def expected_steps(point: PointSpec) -> float | None:
         return (
             None if mean is None else float(min(mean / point.timing.dt, horizon_steps))
         )
+    if point.force is not None:  # the potential's quadrature (sweep/check/force.py)
+        from sweep.check.force import exact_mean as force_mean
+
+        try:
+            return float(min(force_mean(point) / point.timing.dt, horizon_steps))
+        except ValueError:
+            return None
     narrow = _narrow_escape_time(point)
     if narrow is not None:
         return float(min(narrow / point.timing.dt, horizon_steps))
@@ -222,7 +231,7 @@ def _narrow_escape_time(point: PointSpec) -> float | None:
 def slowest_decay_time(point: PointSpec) -> float:
     """1 / (slowest decay rate) of the survival, for bounded driftless cases; else inf."""
     dom, m = point.domain, point.motion
-    if any(v != 0.0 for v in m.drift):
+    if any(v != 0.0 for v in m.drift) or point.force is not None:
         return math.inf
     narrow = _narrow_escape_time(point)
     if narrow is not None:
@@ -271,6 +280,13 @@ def point_warnings(index: int, point: PointSpec) -> list[str]:
                 f"{step:.3g} exceeds {STEP_FRACTION:g} x the smallest {name} "
                 f"({smallest:.3g}); halve dt until results stop moving."
             )
+    if point.force is not None:
+        from sweep.check.force import horizon_warning
+        from sweep.spec.sections.force import dt_warning
+
+        extent = tuple(zip(dom.lower, dom.upper))
+        warned = dt_warning(index, point.force, extent, m.diffusivity, tm.dt)
+        out += [w for w in (warned, horizon_warning(index, point)) if w]
     tau = slowest_decay_time(point)
     if math.isfinite(tau) and tm.horizon < 3 * tau:
         censored = math.exp(-tm.horizon / tau)

@@ -23,6 +23,7 @@ ROOT = Path(__file__).resolve().parent.parent
 ORDER = (
     "errors",
     "text",
+    "potentials",  # the force fields' families (issue 22): spec's model holds a Force
     "spec",
     "exit_times",
     "plan",
@@ -37,6 +38,7 @@ ORDER = (
     "compare",
     "export",
     "views",
+    "report_force",  # the escape-time figure (issue 22), called by report
     "report",
     "bench",
     "cli",

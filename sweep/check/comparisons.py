@@ -60,6 +60,15 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
             unchecked.append((p, "no finished tasks yet"))
             continue
         censored = float(mean["censored"][p]) if mean is not None else math.nan
+        if point.force is not None and surfaces.applies(point):
+            unchecked.append(
+                (
+                    p,
+                    "no closed form for a force together with reactive or periodic "
+                    "surfaces or obstacles",
+                )
+            )
+            continue
         if surfaces.applies(point):
             # Reactive, periodic and obstacle surfaces: their own closed forms.
             found, why = _surface_rows(
@@ -68,6 +77,22 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
             rows += found
             if not found:
                 unchecked.append((p, why))
+            continue
+        if point.force is not None:  # the potential's references: sweep/check/force.py
+            from sweep.check.force import force_rows
+
+            one = {"point": p}
+            found, reason = force_rows(
+                p,
+                point,
+                None if mean is None else mean.isel(one),
+                None if split is None else split.isel(one),
+                censored,
+                ds.isel(one),
+            )
+            rows += found
+            if reason:
+                unchecked.append((p, reason))
             continue
         reason = unsupported(point)
         if reason:

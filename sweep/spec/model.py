@@ -16,6 +16,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
+from sweep.potentials import Force
+
 #: The most axes a domain may have (``motion.dimension``); kernels compile a loop for each.
 MAX_DIMENSION = 8
 
@@ -245,6 +247,9 @@ class PointSpec:
     timing: Timing
     domain: Domain
     record: Record
+    #: The [force] potential (sweep.potentials), or None: then it is left out of the
+    #: canonical form, so definitions without a force keep their hash and streams.
+    force: Force | None = None
 
     def canonical(self) -> dict[str, Any]:
         """A JSON-able dictionary of this point's parameters (used for seeding)."""
@@ -282,6 +287,11 @@ class PointSpec:
                 },
                 "record": self.record.__dict__,
             }
+            | (
+                {"force": self.force.canonical(axis_names(self.motion.dimension))}
+                if self.force is not None
+                else {}
+            )
         )
 
 

@@ -12,8 +12,9 @@ from typing import Any
 
 from sweep.spec.context import Context, toml_text
 from sweep.spec.magnitudes import check_scales
-from sweep.spec.model import Motion, PointSpec, Record
+from sweep.spec.model import Motion, PointSpec, Record, axis_names
 from sweep.spec.sections.domain import read_domain
+from sweep.spec.sections.force import read_force
 from sweep.spec.sections.motion import read_dimension, read_motion
 from sweep.spec.sections.record import read_record
 from sweep.spec.sections.surfaces import check_point
@@ -31,9 +32,18 @@ def read_point(ctx: Context, raw: dict[str, Any]) -> PointSpec:
     check_scales(ctx, motion, timing, domain)
     check_point(ctx, domain, motion, timing)
     record = read_record(ctx, ctx.table(raw, "record", ""), timing, domain)
+    force = None
+    if "force" in raw:  # a potential (sweep/spec/sections/force.py)
+        force = read_force(
+            ctx, raw["force"], axis_names(dimension),
+            tuple(zip(domain.lower, domain.upper)), motion.diffusivity, timing.dt,
+            timing.scheme,
+        )  # fmt: skip
     if timing.scheme == "spheres":
         check_spheres(ctx, motion, record)
-    return PointSpec(motion=motion, timing=timing, domain=domain, record=record)
+    return PointSpec(
+        motion=motion, timing=timing, domain=domain, record=record, force=force
+    )
 
 
 def check_spheres(ctx: Context, motion: Motion, record: Record) -> None:

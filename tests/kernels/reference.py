@@ -18,11 +18,21 @@ Rules (see the step template ``kernels/step.py`` and the analytic sheet, section
    end. The earliest crossing wins; a tie goes to the face listed first.
 4. Exit position: on the wall; the other axes follow the Brownian bridge from ``x1`` to
    ``x2`` at the hitting fraction, clipped to the box.
+
+With a force (``slope`` or ``harmonic``), rule 1 becomes (``sweep.potentials``,
+analytic sheet J9):
+
+1'. Euler–Maruyama: ``y = x + drift dt - D dt dU/dx(x) + sqrt(2 D dt) xi``, with
+    ``slope(x)`` giving dU/dx per axis; or, for a harmonic well (stiffness k_i,
+    centre c_i), the exact Ornstein–Uhlenbeck update per axis with the drift folded
+    into the centre, ``c' = c + drift / (D k)``:
+    ``y = c' + (x - c') e^{-D k dt} + sqrt((1 - e^{-2 D k dt}) / k) xi`` (k = 0: free).
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -42,6 +52,8 @@ def simulate_reference(
     n_steps: int,
     bridge: bool,
     survival_times: ArrayLike,
+    slope: Callable[[NDArray[np.float64]], NDArray[np.float64]] | None = None,
+    harmonic: tuple[ArrayLike, ArrayLike] | None = None,
 ) -> tuple[
     NDArray[np.float64],
     NDArray[np.int16],
@@ -97,8 +109,14 @@ def simulate_reference(
         if walkers.size == 0:
             break
         x1 = x[walkers]
-        # 1. Free step.
-        x2 = x1 + drift * dt + sigma * rng.standard_normal(x1.shape)
+        # 1. Free step (1'. in a force field).
+        xi = rng.standard_normal(x1.shape)
+        if harmonic is not None:
+            x2 = _ou_step(x1, xi, harmonic, drift, diffusivity, dt)
+        else:
+            x2 = x1 + drift * dt + sigma * xi
+            if slope is not None:
+                x2 = x2 - diffusivity * dt * slope(x1)
         # 2. Mirror images at reflecting faces.
         x2 = _reflect(x2, lower, upper, ~absorbing_low, ~absorbing_high)
 
@@ -146,6 +164,34 @@ def simulate_reference(
         [np.count_nonzero(first_passage > t) for t in survival_times], dtype=np.int64
     )
     return time, wall, position, survival_count, final_position
+
+
+def _ou_step(
+    x: NDArray[np.float64],
+    xi: NDArray[np.float64],
+    harmonic: tuple[ArrayLike, ArrayLike],
+    drift: NDArray[np.float64],
+    diffusivity: float,
+    dt: float,
+) -> NDArray[np.float64]:
+    """Rule 1': the exact Ornstein-Uhlenbeck update, axis by axis."""
+    k = np.asarray(harmonic[0], dtype=np.float64)
+    c = np.asarray(harmonic[1], dtype=np.float64)
+    y = np.empty_like(x)
+    for axis in range(x.shape[1]):
+        if k[axis] == 0.0:
+            y[:, axis] = (
+                x[:, axis]
+                + drift[axis] * dt
+                + math.sqrt(2 * diffusivity * dt) * xi[:, axis]
+            )
+            continue
+        rate = diffusivity * k[axis]
+        centre = c[axis] + drift[axis] / rate
+        decay = math.exp(-rate * dt)
+        spread = math.sqrt((1.0 - decay**2) / k[axis])
+        y[:, axis] = centre + (x[:, axis] - centre) * decay + spread * xi[:, axis]
+    return y
 
 
 def _reflect(

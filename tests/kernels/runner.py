@@ -58,6 +58,8 @@ class Domain:
     obstacle_centers: tuple[tuple[float, ...], ...] = ()
     obstacle_radii: tuple[float, ...] = ()
     displacement: bool = False
+    #: A potential: ``kernels.inputs.force(...)`` (None: no force).
+    force: Any = None
 
     @property
     def dimension(self) -> int:
@@ -113,6 +115,7 @@ class Domain:
             n_steps=self.n_steps,
             drift=self.drift,
             bridge=self.bridge,
+            force=self.force,
         )
         recording = inputs.recording(
             d,

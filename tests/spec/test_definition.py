@@ -27,7 +27,7 @@ BAD_INPUTS = [
         "unknown-top-level",
         spec(LINE, grids={}),
         "unknown key 'grids' at the top level. Allowed keys: sweep, motion, time, domain, "
-        "record, grid, zip.",
+        "record, force, grid, zip.",
         "Did you mean 'grid'?",
     ),
     bad(

@@ -9,7 +9,7 @@ the package reads, so a section registered here is known everywhere.
 
 from __future__ import annotations
 
-from sweep.spec.sections import domain, head, motion, record, timing
+from sweep.spec.sections import domain, force, head, motion, record, timing
 from sweep.spec.sections.section import Section
 
 #: Every top-level table, in the order "Allowed keys" messages list them.
@@ -19,6 +19,7 @@ REGISTRY: tuple[Section, ...] = (
     timing.SECTION,
     domain.SECTION,
     record.SECTION,
+    force.SECTION,
     Section("grid", ()),
     Section("zip", (), array=True),
 )

@@ -33,6 +33,20 @@ def test_sections_and_their_keys_in_message_order() -> None:
             "obstacles",  # docs/surfaces.md
         ),
         "record": ("per_walker", "survival", "occupancy", "fpt_bins"),
+        "force": (
+            "potential",
+            "center",
+            "stiffness",
+            "axis",
+            "barrier",
+            "half_separation",
+            "amplitude",
+            "period",
+            "tilt",
+            "lower",
+            "upper",
+            "values",
+        ),
         "grid": (),
         "zip": (),
     }
@@ -42,14 +56,15 @@ def test_sections_and_their_keys_in_message_order() -> None:
         "time",
         "domain",
         "record",
+        "force",
         "grid",
         "zip",
     ]
 
 
 def test_roles_of_the_tables() -> None:
-    assert SWEEPABLE_SECTIONS == ("motion", "time", "domain")
+    assert SWEEPABLE_SECTIONS == ("motion", "time", "domain", "force")
     assert SHAPE_KEYS == ("motion.dimension", "domain.shape")
     assert REQUIRED == ("sweep", "motion", "time", "domain")
-    assert PER_POINT == ("motion", "time", "domain", "record")
-    assert TABLES == ("sweep", "motion", "time", "domain", "record", "grid")
+    assert PER_POINT == ("motion", "time", "domain", "record", "force")
+    assert TABLES == ("sweep", "motion", "time", "domain", "record", "force", "grid")
