@@ -384,8 +384,11 @@ def _status(args: argparse.Namespace) -> int:
     markers = store.read_markers(path)
     n_c = attrs["n_chunks"]
     per_point: dict[int, list[dict[str, object]]] = {}
+    # Markers carry store indices; rows follow the definition (grown stores differ).
+    order = store.point_order(attrs)
     for m in markers:
-        per_point.setdefault(int(m["point"]), []).append(m)  # type: ignore[arg-type]
+        p = order[int(m["point"])]  # type: ignore[call-overload]
+        per_point.setdefault(p, []).append(m)
     holder = store.lock_holder(path)
     print(
         f"store {path}: sweep {sweep.name!r}, {sweep.n_points} points x {n_c} tasks, definition hash {attrs['spec_hash'][:12]}"
@@ -404,27 +407,69 @@ def _status(args: argparse.Namespace) -> int:
         "walkers",
         "censored",
     ]
+    target = sweep.precision
+    if target is not None:
+        header.append("precision (95 %)")
+        print(
+            f"precision target: {target.describe()}, at most "
+            f"{target.max_walkers:,} walkers per point"
+        )
     rows = [header]
     total = 0
+    planned_total = 0
+    censored_points = 0
     for p in range(sweep.n_points):
         ms = per_point.get(p, [])
         total += len(ms)
         walkers = sum(int(m["walkers"]) for m in ms)  # type: ignore[call-overload]
         censored = sum(int(m["censored"]) for m in ms)  # type: ignore[call-overload]
         frac = f"{censored / walkers:.3%}" if walkers else "-"
+        planned = f"{len(ms)}/{n_c}"
+        extra = []
+        if target is not None:
+            from sweep.execute import target_wall_index
+            from sweep.precision import describe_estimate, planned_chunks
+
+            chunks, final, last = planned_chunks(
+                target,
+                target_wall_index(sweep),
+                sweep.chunk,
+                n_c,
+                {int(m["chunk"]): m for m in ms},  # type: ignore[call-overload]
+            )
+            planned_total += chunks
+            planned = f"{len(ms)}/{chunks}" + ("" if final else "+")
+            state = describe_estimate(target, last)
+            if final and last is not None and not last.met:
+                state += " (ceiling reached)"
+            censored_points += bool(last is not None and last.censored)
+            extra.append(state)
         rows.append(
             [
                 str(p),
                 *(show_value(values[p]) for values in columns.values()),
-                f"{len(ms)}/{n_c}",
+                planned,
                 str(walkers),
                 frac,
+                *extra,
             ]
         )
     widths = [max(len(r[i]) for r in rows) for i in range(len(header))]
     for r in rows:
         print("  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip())
-    print(f"{total}/{sweep.n_points * n_c} tasks done")
+    if target is None:
+        print(f"{total}/{sweep.n_points * n_c} tasks done")
+        return 0
+    print(
+        f"{total}/{planned_total} tasks done so far (a '+': the point is not decided "
+        f"yet and gets more tasks; at most {n_c} per point)"
+    )
+    if censored_points and target.statistic == "mean_first_passage_time":
+        print(
+            f"{censored_points} point(s) have censored walkers: a mean's target is "
+            f"not met while any walker is still free at the horizon; raise "
+            f"time.horizon (in a new store) to reach it."
+        )
     return 0
 
 

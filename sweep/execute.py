@@ -32,9 +32,9 @@ import numpy as np
 from kernels import spheres
 from kernels.inputs import allocate
 from kernels.walkers import simulate
-from sweep import store
+from sweep import precision, store
 from sweep.errors import StoreError, SweepError, TaskError
-from sweep.plan import Task, make_plan
+from sweep.plan import Plan, Task, make_plan
 from sweep.sizing import check_memory
 from sweep.spec import Sweep, load_spec
 
@@ -275,6 +275,9 @@ def run_task(
             "seconds": round(time.perf_counter() - start, 6),
             "censored": int(np.count_nonzero(output.wall < 0)),
             "absorbed_by": np.bincount(output.wall[output.wall >= 0]).tolist(),
+            # For precision targets (sweep.precision): count, mean and squared
+            # deviations of this chunk's first-passage times.
+            "fpt_moments": precision.chunk_moments(output.time),
             "host": socket.gethostname(),
             "pid": os.getpid(),
             "thread": threading.current_thread().name,
@@ -388,7 +391,10 @@ class Progress:
         enabled: bool,
         concurrency: int,
         started: float | None = None,
+        note: str = "",
     ) -> None:
+        #: Shown after the counts (a precision target's state of the points).
+        self.note = note
         self.total = total
         self.done = done
         self.start_done = done
@@ -429,6 +435,8 @@ class Progress:
             f"[{bar}] {self.done}/{self.total} tasks  {rate / 1e6:8.2f} M walker-steps/s  "
             f"elapsed {_duration(now - self.started)}  left {eta}"
         )
+        if self.note:
+            line += f"  {self.note}"
         sys.stderr.write(("\r" + line) if self.tty else (line + "\n"))
         sys.stderr.flush()
 
@@ -503,28 +511,55 @@ def _run_prepared(
 ) -> RunSummary:
     path = store.prepare(store_path, plan)
     with store.runner_lock(path):
+        # A growth stopped midway is finished first; then the definition is checked
+        # again under the lock, and a definition that adds work grows the store.
+        store.finish_growth(path)
+        growth = store.check_matches(path, plan.sweep)
+        if growth is not None:
+            store.grow(path, plan.sweep, growth)
+        # Tasks are numbered by the store's point indices (grown stores append
+        # the points they gained).
+        plan = make_plan(store.ordered_sweep(path, plan.sweep))
         removed = store.clean_partials(path)
         if removed:
             log.warning(
                 "%s: removed %d temporary files left by a killed writer.", path, removed
             )
         store_id, done = store.resume_state(path)
-        pending = [t for t in plan.tasks if (t.point, t.chunk) not in done]
+        targeted = plan.sweep.precision is not None
+        pending, note = (
+            _targeted_round(plan, path)
+            if targeted
+            else ([t for t in plan.tasks if (t.point, t.chunk) not in done], "")
+        )
         summary = RunSummary(
-            store=path, n_tasks=plan.n_tasks, already_done=plan.n_tasks - len(pending)
+            store=path, n_tasks=len(done) + len(pending), already_done=len(done)
         )
         if not pending:
             return summary
         _log_run(
             path,
-            f"start {options.kind}: {len(pending)} of {plan.n_tasks} tasks pending",
+            f"start {options.kind}: {len(pending)} of {plan.n_tasks} tasks pending"
+            + (" (first round of a precision target)" if targeted else ""),
         )
         start = time.monotonic()
         try:
-            if options.kind == "threads":
-                _run_threads(path, store_id, pending, options, summary)
-            else:
-                _run_distributed(path, store_id, pending, options, summary, client)
+            # One round without a target; with one, rounds until every point has
+            # met its target or its ceiling (sweep.precision: each round's tasks
+            # follow from the finished chunks alone).
+            while pending:
+                summary.n_tasks = (
+                    summary.already_done + summary.completed + len(pending)
+                )
+                if options.kind == "threads":
+                    _run_threads(path, store_id, pending, options, summary, note)
+                else:
+                    _run_distributed(
+                        path, store_id, pending, options, summary, client, note
+                    )
+                if not targeted or summary.interrupted or summary.failed:
+                    break
+                pending, note = _targeted_round(plan, path)
         finally:
             summary.seconds = time.monotonic() - start
             # Counted from the markers: tasks that finished while the run was being
@@ -538,6 +573,44 @@ def _run_prepared(
             )
     _raise_failures(summary)
     return summary
+
+
+def _targeted_round(plan: Plan, path: Path) -> tuple[list[Task], str]:
+    """The next round of a sweep with a precision target, and a progress note.
+
+    Each point is judged by :func:`sweep.precision.decide` from its finished chunks
+    (markers checked); a point not yet final gets the chunks up to its next
+    checkpoint.
+    """
+    sweep = plan.sweep
+    target = sweep.precision
+    assert target is not None
+    by_point = store.markers_by_point(path)
+    n_c = sweep.n_chunks
+    wall_index = target_wall_index(sweep)
+    first = -(-target.first_walkers // sweep.chunk)
+    tasks: list[Task] = []
+    met = 0
+    for p in range(sweep.n_points):
+        done = by_point.get(p, {})
+        decision = precision.decide(target, wall_index, first, n_c, done)
+        if decision.final:
+            met += decision.last is not None and decision.last.met
+            continue
+        tasks += [
+            plan.tasks[p * n_c + c] for c in range(decision.chunks) if c not in done
+        ]
+    final = sweep.n_points - len({t.point for t in tasks})
+    note = f"{final}/{sweep.n_points} points final ({met} at target)"
+    return tasks, note
+
+
+def target_wall_index(sweep: Any) -> int:
+    """Index of the precision target's wall among the store's walls (0 if none)."""
+    target = sweep.precision
+    if target is None or target.wall is None:
+        return 0
+    return list(sweep.points[0].domain.wall_names()).index(target.wall)
 
 
 def _handle(
@@ -567,6 +640,7 @@ def _run_threads(
     pending: list[Task],
     options: RunOptions,
     summary: RunSummary,
+    note: str = "",
 ) -> None:
     """Run tasks on local threads, keeping a window of them submitted.
 
@@ -580,7 +654,12 @@ def _run_threads(
     started = time.monotonic()
     stop = threading.Event()
     progress = Progress(
-        summary.n_tasks, summary.already_done, options.progress, n, started
+        summary.n_tasks,
+        summary.already_done + summary.completed,
+        options.progress,
+        n,
+        started,
+        note,
     )
     # Tasks running now: on Ctrl-C the pool's threads run on (a running kernel cannot
     # be stopped), so the run waits for them (holding the store's lock) before it
@@ -717,6 +796,7 @@ def _run_distributed(
     options: RunOptions,
     summary: RunSummary,
     client: Any = None,
+    note: str = "",
 ) -> None:
     from distributed import Client, as_completed
 
@@ -730,7 +810,11 @@ def _run_distributed(
     try:
         n_threads = max(1, sum(client.nthreads().values()))
         progress = Progress(
-            summary.n_tasks, summary.already_done, options.progress, n_threads
+            summary.n_tasks,
+            summary.already_done + summary.completed,
+            options.progress,
+            n_threads,
+            note=note,
         )
         window = max(2, WINDOW_PER_WORKER * n_threads)
         queue = iter(pending)

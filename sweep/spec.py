@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Literal
 
+from sweep import precision as precision_target
 from sweep.errors import SpecError, SweepWarning
 
 WallKind = Literal["absorbing", "reflecting"]
@@ -64,7 +65,15 @@ MAX_FPT_BINS = 1_000_000
 DEFAULT_SURVIVAL_POINTS = 101
 
 SECTIONS: dict[str, tuple[str, ...]] = {
-    "sweep": ("name", "seed", "walkers", "chunk", "description", "units"),
+    "sweep": (
+        "name",
+        "seed",
+        "walkers",
+        "chunk",
+        "description",
+        "units",
+        "precision",
+    ),
     "motion": ("dimension", "diffusivity", "drift", "start"),
     "time": ("dt", "horizon", "monitoring", "scheme"),
     "domain": (
@@ -356,6 +365,9 @@ class Sweep:
     text: str = field(default="", compare=False, repr=False)
     #: Units of length and time the definition names (labels for tables and plots).
     units: Units = Units()
+    #: A precision target (``[sweep] precision``): then ``walkers`` is its ceiling
+    #: and each point runs only as many chunks as its target needs.
+    precision: precision_target.Precision | None = None
 
     @property
     def n_points(self) -> int:
@@ -377,6 +389,16 @@ class Sweep:
     def chunk_walkers(self, chunk: int) -> int:
         """Number of walkers in chunk ``chunk`` (the last one may be smaller)."""
         return min(self.chunk, self.walkers - chunk * self.chunk)
+
+
+def _absorbing_everywhere(points: Sequence[PointSpec]) -> list[str]:
+    """Names of the walls and targets that absorb at every point."""
+    names = points[0].domain.wall_names()
+    return [
+        name
+        for i, name in enumerate(names)
+        if all(p.domain.wall_absorbing()[i] for p in points)
+    ]
 
 
 def canonical_hash(canonical: Mapping[str, Any]) -> str:
@@ -621,16 +643,45 @@ class _Parser:
         seed = self.integer(
             self.required(head, "seed", "sweep"), "sweep.seed", minimum=0
         )
-        walkers = self.integer(
-            self.required(head, "walkers", "sweep"), "sweep.walkers", minimum=1
-        )
+        target = None
+        if "precision" in head:
+            # A target: the store holds max_walkers per point; `walkers` (optional)
+            # is the first round's (sweep.precision).
+            target = precision_target.parse(head["precision"], self.source)
+            first = (
+                self.integer(
+                    head["walkers"],
+                    "sweep.walkers",
+                    minimum=1,
+                    maximum=target.max_walkers,
+                )
+                if "walkers" in head
+                else min(precision_target.DEFAULT_FIRST_WALKERS, target.max_walkers)
+            )
+            target = dataclasses.replace(target, first_walkers=first)
+            walkers = target.max_walkers
+            if "chunk" in head:
+                chunk = self.integer(head["chunk"], "sweep.chunk", minimum=1)
+                if chunk > walkers:
+                    raise self.fail(
+                        "sweep.precision.max_walkers",
+                        f"must hold at least one chunk of {chunk:,} walkers "
+                        f"(sweep.chunk); got {walkers:,}.",
+                    )
+        else:
+            walkers = self.integer(
+                self.required(head, "walkers", "sweep"), "sweep.walkers", minimum=1
+            )
         if walkers > MAX_WALKERS:
             raise self.fail(
                 "sweep.walkers",
                 f"must be at most {MAX_WALKERS:,} per point (the per-walker arrays "
                 f"alone would hold {walkers * 26 / 1e12:.3g} TB); got {walkers:,}.",
             )
-        if "chunk" in head:
+        if target is not None:
+            if "chunk" not in head:
+                chunk = auto_chunk(target.first_walkers)
+        elif "chunk" in head:
             chunk = self.integer(
                 head["chunk"], "sweep.chunk", minimum=1, maximum=walkers
             )
@@ -678,6 +729,10 @@ class _Parser:
         self.context = ""
         self.same_shapes(points, swept, values)
         points = self.common_survival_grid(points, raw)
+        if target is not None:
+            precision_target.check_wall(
+                target, _absorbing_everywhere(points), self.source
+            )
         # Point 0 fully resolved plus every point's swept values determine all points:
         # keys not swept are equal everywhere, swept ones are overridden everywhere.
         canonical = _jsonable(
@@ -688,7 +743,8 @@ class _Parser:
                 # Units enter the hash only when named, so definitions without them
                 # keep their hash (and their stores); a store in "um" is not resumed
                 # as one in "mm".
-                | ({"units": dataclasses.asdict(units)} if units != Units() else {}),
+                | ({"units": dataclasses.asdict(units)} if units != Units() else {})
+                | ({"precision": target.canonical()} if target is not None else {}),
                 "point0": points[0].canonical(),
                 "swept": list(swept),
                 # Every sweepable number is a float: 1 and 1.0 are the same point.
@@ -706,6 +762,7 @@ class _Parser:
             values=tuple(values),
             canonical=canonical,
             units=units,
+            precision=target,
         )
 
     def units(self, raw: Any) -> Units:

@@ -48,20 +48,27 @@ import zarr
 from numpy.typing import NDArray
 
 from kernels import STREAM_VERSION
+from sweep import precision
 from sweep.errors import (
     StaleStoreError,
     StoreDamagedError,
     StoreError,
     StoreLockedError,
     StoreMismatchError,
+    SweepError,
 )
+from sweep.growth import Growth, Refused, in_store_order, plan_growth
 from sweep.plan import BIT_GENERATOR, Plan, Task, coordinate_columns, snapshot_steps
 from sweep.spec import NO_UNITS, Sweep, Units, axis_names, key_quantity, parse_spec
 
 log = logging.getLogger(__name__)
 
 #: 2: the store id and ``_seal.json``; markers list their chunk files' checksums.
+#: 3: a grown store whose points are not in its definition's order (``point_order``).
 STORE_FORMAT = 2
+GROWN_FORMAT = 3
+#: Formats this version reads (and resumes, and grows).
+READ_FORMATS = (2, 3)
 ATTRS_KEY = "brownian_sweep"
 MARKER_DIR = "_tasks"
 #: Variables renamed since earlier store versions (old name -> new name); read stores
@@ -154,7 +161,9 @@ def prepare(path: str | Path, plan: Plan) -> Path:
     path = Path(path).expanduser().absolute()
     clean_creating(path)
     if path.exists():
-        check_matches(path, plan)
+        if not (path / GROWTH_JOURNAL).exists():
+            # Under the runner lock, the run finishes the growth and checks again.
+            check_matches(path, plan.sweep)
         return path.resolve()
     parent = path.parent
     if not parent.is_dir():
@@ -175,7 +184,7 @@ def prepare(path: str | Path, plan: Plan) -> Path:
     except OSError as err:
         _remove_tree(tmp)
         if path.exists():  # another runner created it first: check it like any store
-            check_matches(path, plan)
+            check_matches(path, plan.sweep)
             return path.resolve()
         raise os_error(path, "create the store", err) from err
     except BaseException:
@@ -184,13 +193,24 @@ def prepare(path: str | Path, plan: Plan) -> Path:
     return path.resolve()
 
 
-def _create(path: Path, plan: Plan) -> None:
+def _create(
+    path: Path,
+    plan: Plan,
+    store_id: str | None = None,
+    extra: Mapping[str, Any] | None = None,
+) -> None:
+    """Build the store of ``plan`` (its sweep's points in store order) at ``path``.
+
+    ``store_id`` and ``extra`` (attributes that override the defaults) are given when
+    a grown store's files are rebuilt: the id stays, ``created`` stays, and the
+    growth record and ``point_order`` are added.
+    """
     sweep = plan.sweep
     n_p, n_c, d = sweep.n_points, sweep.n_chunks, sweep.dimension
     first = sweep.points[0]
     rec = first.record
     domain = first.domain
-    store_id = uuid.uuid4().hex
+    store_id = store_id or uuid.uuid4().hex
     root = zarr.open_group(
         str(path),
         mode="w-",
@@ -221,7 +241,8 @@ def _create(path: Path, plan: Plan) -> None:
                 "occupancy": bool(rec.occupancy_times),
                 "fpt_bins": rec.fpt_bins,
                 "units": {"length": sweep.units.length, "time": sweep.units.time},
-            },
+            }
+            | dict(extra or {}),
             "title": f"brownian-sweep results: {sweep.name}",
             "Conventions": "CF-1.10",
         },
@@ -555,6 +576,13 @@ def read_attrs(path: str | Path, writing: bool = False) -> dict[str, Any]:
         raise StoreError(
             f"{path}: no such store (expected a directory made by `sweep run`)."
         )
+    if (path / GROWTH_JOURNAL).exists():
+        raise StoreError(
+            f"{path}: this store is being grown to a larger definition, or its growth "
+            f"was stopped midway ({GROWTH_JOURNAL} exists): wait for the run that grows "
+            f"it, or rerun `sweep run` with the new definition and --store {path} to "
+            f"finish the growth; the stored results are intact."
+        )
     ours = (path / SEAL_FILE).exists()
     try:
         attrs = json.loads(meta.read_text())["attributes"][ATTRS_KEY]
@@ -573,11 +601,11 @@ def read_attrs(path: str | Path, writing: bool = False) -> dict[str, Any]:
             f"{path}: exists but is not a brownian-sweep store (no readable zarr.json with "
             f"'{ATTRS_KEY}' attributes); nothing was changed.{fix}"
         ) from None
-    if attrs.get("format") != STORE_FORMAT:
+    if attrs.get("format") not in READ_FORMATS:
         older = isinstance(attrs.get("format"), int) and attrs["format"] < STORE_FORMAT
         raise StoreError(
             f"{path}: store format {attrs.get('format')!r}; this version of the tool reads "
-            f"format {STORE_FORMAT}."
+            f"format {' and '.join(map(str, READ_FORMATS))}."
             + (
                 " Earlier formats kept no checksums of their results: run the "
                 "definition again into a new store."
@@ -630,11 +658,30 @@ def _difference(was: Any, now: Any, since: str) -> str:
 
 
 def load_sweep(path: str | Path) -> Sweep:
-    """The validated sweep that made the store at ``path`` (from its stored text)."""
+    """The validated sweep that made the store at ``path`` (from its stored text).
+
+    Its points are in the definition's order, as :func:`open_dataset` presents them
+    (a grown store keeps them in another order on disk: see :func:`point_order`).
+    """
     attrs = read_attrs(path)
     return parse_spec(
         attrs["definition"], source=f"{attrs.get('source', '?')} (stored in {path})"
     )
+
+
+def point_order(attrs: Mapping[str, Any]) -> list[int]:
+    """Store index → index of the point in the definition (identity unless grown)."""
+    order = attrs.get("point_order")
+    return list(range(attrs["n_points"])) if order is None else list(order)
+
+
+def ordered_sweep(path: str | Path, sweep: Sweep) -> Sweep:
+    """``sweep``, the definition the store at ``path`` holds, with its points in the
+    store's order."""
+    attrs = read_attrs(path, writing=True)
+    if attrs["spec"] != sweep.canonical:
+        raise StoreMismatchError(f"{path}: not the store of {sweep.source}.")
+    return in_store_order(sweep, attrs.get("point_order"))
 
 
 def stream_version(attrs: Mapping[str, Any]) -> int:
@@ -642,8 +689,22 @@ def stream_version(attrs: Mapping[str, Any]) -> int:
     return int(attrs.get("stream_version", UNVERSIONED_STREAM))
 
 
-def check_matches(path: Path, plan: Plan) -> None:
-    """Refuse a store made with other random streams or by another definition."""
+def check_matches(path: Path, sweep: Sweep) -> Growth | None:
+    """Refuse a store made with other random streams or by a definition that does not
+    only add work to it.
+
+    Returns
+    -------
+    Growth or None
+        None when the store was made by this very definition; a :class:`Growth` when
+        the definition adds walkers or points (or lists the same points in another
+        order), which :func:`grow` applies.
+
+    Raises
+    ------
+    StoreMismatchError
+        Other random streams, or any other difference (listed).
+    """
     attrs = read_attrs(path, writing=True)
     version = stream_version(attrs)
     if version != STREAM_VERSION:
@@ -655,21 +716,30 @@ def check_matches(path: Path, plan: Plan) -> None:
             f"Finish it with a brownian-sweep that draws stream version {version}, or "
             "start the sweep again under another --store path; nothing was changed."
         )
-    stored = {"spec": attrs["spec"]}
-    wanted = {"spec": plan.sweep.canonical}
-    if stored == wanted:
-        return
+    if attrs["spec"] == sweep.canonical:
+        return None
+    try:
+        stored = parse_spec(attrs["definition"], source=f"{path}")
+        if stored.canonical != attrs["spec"]:
+            # Stored by a version that resolved the definition otherwise: only an
+            # identical definition resumes it.
+            raise Refused(list(_differences(attrs["spec"], sweep.canonical)))
+        return plan_growth(stored, attrs.get("point_order"), sweep)
+    except Refused as refused:
+        differences = refused.differences
+    except SweepError:
+        differences = list(_differences(attrs["spec"], sweep.canonical))
     lines = [
-        f"  {key}: stored {_short(a)}, now {_short(b)}"
-        for key, a, b in _differences(stored, wanted)
+        f"  {key}: stored {_short(a)}, now {_short(b)}" for key, a, b in differences
     ]
     shown = "\n".join(lines[:20]) + (
         f"\n  ... and {len(lines) - 20} more" if len(lines) > 20 else ""
     )
     raise StoreMismatchError(
         f"{path}: this store was made by a different sweep definition "
-        f"({attrs.get('source', '?')}), so resuming it with {plan.sweep.source} would mix "
-        f"results. Differences:\n{shown}\n"
+        f"({attrs.get('source', '?')}), so resuming it with {sweep.source} would mix "
+        f"results. A rerun may only add work to a store (more walkers with the same "
+        f"chunk, more grid values or zip rows). Differences:\n{shown}\n"
         f"Use another --store path for the new definition, or restore the old one."
     )
 
@@ -687,6 +757,162 @@ def _differences(a: Any, b: Any, prefix: str = "") -> Iterator[tuple[str, Any, A
 def _short(value: Any) -> str:
     text = json.dumps(value)
     return text if len(text) <= 80 else text[:77] + "..."
+
+
+# --------------------------------------------------------------------------- growth
+
+#: The growth journal: present from the moment a growth is committed until its files
+#: are all in place. Its presence means "finish me" (:func:`finish_growth`).
+GROWTH_JOURNAL = "_growth.json"
+#: A grown store's new metadata is built as ``.<name>.growing-<pid>-<random>`` beside it.
+GROWING = ".growing-"
+#: Set to a step name (``built``, ``committed``, ``installing``, ``sealed``) to make a
+#: growth stop there and wait (for tests that kill it); never set in normal use.
+PAUSE_ENV = "SWEEP_GROWTH_PAUSE"
+
+
+def _pause(step: str) -> None:
+    if os.environ.get(PAUSE_ENV) == step:
+        sys.stderr.write(f"growth paused at step {step}\n")
+        sys.stderr.flush()
+        time.sleep(3600)
+
+
+def grow(path: Path, sweep: Sweep, growth: Growth) -> None:
+    """Extend the store at ``path`` (whose runner lock the caller holds) to ``sweep``.
+
+    Crash-safe in three phases (docs/store-format.md, "Growing a store"):
+
+    1. *build*: the new metadata (every ``zarr.json``, the coordinate arrays, the
+       consolidated metadata and ``_seal.json``, with the store's own id) is made as
+       a store of its own in ``.<name>.growing-<pid>-<random>`` beside the store and
+       flushed to disk. A kill here leaves the old store untouched (the folder is
+       removed by the next run);
+    2. *commit*: ``_growth.json`` names that folder and the files of the old
+       metadata the new one no longer has; it is written atomically;
+    3. *install*: each file is renamed into the store (each rename atomic), stale
+       files removed, ``_seal.json`` renamed last, then the folder and the journal
+       are removed. While the journal exists readers refuse the store and the next
+       ``sweep run`` finishes the installation (:func:`finish_growth`) before
+       anything else.
+
+    Chunk files and completion markers are never touched: old points keep their
+    indices and chunk keys, new points and chunks get new ones.
+    """
+    attrs = read_attrs(path, writing=True)
+    ordered = in_store_order(sweep, growth.order)
+    identity = list(growth.order) == list(range(len(growth.order)))
+    record = {
+        "when": datetime.datetime.now(datetime.UTC).isoformat(timespec="seconds"),
+        "changes": list(growth.changes),
+        "points": [growth.old_points, growth.new_points],
+        "walkers": [growth.old_walkers, growth.new_walkers],
+        "from_spec_hash": attrs["spec_hash"],
+        "to_spec_hash": sweep.spec_hash,
+        "source": sweep.source,
+        "tool_version": tool_version(),
+    }
+    extra: dict[str, Any] = {
+        "created": attrs["created"],
+        "growth": [*attrs.get("growth", []), record],
+    }
+    if not identity:
+        extra["point_order"] = list(growth.order)
+        extra["format"] = GROWN_FORMAT
+    elif attrs.get("format") == GROWN_FORMAT:
+        extra["format"] = GROWN_FORMAT
+    skeleton = path.parent / (
+        f".{path.name}{GROWING}{os.getpid()}-{uuid.uuid4().hex[:8]}"
+    )
+    try:
+        _create(skeleton, Plan(sweep=ordered, tasks=()), attrs["store_id"], extra)
+        for folder, _, names in os.walk(skeleton):
+            for name in names:
+                _fsync(Path(folder) / name)
+            _fsync_dir(Path(folder))
+    except OSError as err:
+        _remove_tree(skeleton)
+        raise os_error(path, "grow the store", err) from err
+    except BaseException:
+        _remove_tree(skeleton)
+        raise
+    _pause("built")
+    old_seal = _read_json(path / SEAL_FILE) or {}
+    new_seal = _read_json(skeleton / SEAL_FILE) or {}
+    stale = sorted(set(old_seal.get("files", {})) - set(new_seal.get("files", {})))
+    _atomic_json(
+        path / GROWTH_JOURNAL,
+        {"skeleton": skeleton.name, "stale": stale, "growth": record},
+    )
+    _pause("committed")
+    finish_growth(path)
+    log.warning(
+        "%s: grown (%s); only the new tasks run.", path, "; ".join(growth.changes)
+    )
+
+
+def finish_growth(path: Path) -> bool:
+    """Finish a committed growth (its journal exists); remove uncommitted ones.
+
+    Idempotent: a kill at any point of it leaves a state the next call finishes.
+    Call it holding the runner lock.
+
+    Returns
+    -------
+    bool
+        Whether a growth was finished.
+    """
+    journal = _read_json(path / GROWTH_JOURNAL)
+    named = None if journal is None else str(journal.get("skeleton", ""))
+    # Folders of growths never committed (killed while building): the old store is
+    # intact, so they only go.
+    prefix = f".{path.name}{GROWING}"
+    with contextlib.suppress(OSError), os.scandir(path.parent) as entries:
+        for entry in list(entries):
+            if (
+                entry.name.startswith(prefix)
+                and entry.name != named
+                and entry.is_dir(follow_symlinks=False)
+            ):
+                pid = entry.name[len(prefix) :].partition("-")[0]
+                if pid.isdigit() and not _pid_alive(int(pid)):
+                    _remove_tree(Path(entry.path))
+    if journal is None:
+        if (path / GROWTH_JOURNAL).exists():
+            raise damaged(
+                [Damage(path / GROWTH_JOURNAL, "not readable as a growth journal")],
+                STORE_HINT,
+            )
+        return False
+    skeleton = path.parent / str(named)
+    if named and skeleton.is_dir():
+        moved = 0
+        for folder, _, names in sorted(os.walk(skeleton)):
+            for name in sorted(names):
+                source = Path(folder) / name
+                rel = source.relative_to(skeleton)
+                if rel.as_posix() == SEAL_FILE:
+                    continue
+                target = path / rel
+                target.parent.mkdir(parents=True, exist_ok=True)
+                os.replace(source, target)
+                moved += 1
+                if moved == 2:
+                    _pause("installing")
+        for rel in journal.get("stale", []):
+            with contextlib.suppress(FileNotFoundError):
+                os.unlink(path / rel)
+        for folder, _, _ in os.walk(path):
+            if MARKER_DIR not in Path(folder).relative_to(path).parts:
+                _fsync_dir(Path(folder))
+        if (skeleton / SEAL_FILE).exists():
+            os.replace(skeleton / SEAL_FILE, path / SEAL_FILE)
+            _fsync_dir(path)
+        _pause("sealed")
+        _remove_tree(skeleton)
+    os.unlink(path / GROWTH_JOURNAL)
+    _fsync_dir(path)
+    return True
 
 
 # --------------------------------------------------------------------------- lock
@@ -1136,6 +1362,15 @@ def done_tasks(path: Path) -> set[tuple[int, int]]:
     return set(verified_markers(path)[1])
 
 
+def markers_by_point(path: Path) -> dict[int, dict[int, dict[str, Any]]]:
+    """Markers of finished tasks (checked; damage raises): point → chunk → marker,
+    by store index."""
+    out: dict[int, dict[int, dict[str, Any]]] = {}
+    for (p, c), marker in verified_markers(path)[1].items():
+        out.setdefault(p, {})[c] = marker
+    return out
+
+
 def read_markers(path: Path) -> list[dict[str, Any]]:
     """The summaries written in every completion marker (checked; damage raises)."""
     done = verified_markers(path)[1]
@@ -1356,12 +1591,27 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
     ds["done"] = xr.DataArray(
         done, dims=("point", "chunk"), attrs={"long_name": "task completed"}
     )
+    target = precision.from_canonical(attrs["spec"]["sweep"].get("precision"))
+    if target is not None:
+        # A precision target: a point runs only the chunks its target needs.
+        planned, final = _planned(target, attrs, markers)
+        ds["planned"] = xr.DataArray(
+            planned,
+            dims=("point", "chunk"),
+            attrs={
+                "long_name": "task part of the sweep: the chunks up to the point's "
+                "deciding checkpoint, or up to its next one while undecided "
+                "(sweep.precision)"
+            },
+        )
     done_da = ds["done"]
     walkers_done = (done_da * ds["chunk_walkers"]).sum("chunk")
     ds["walkers_done"] = walkers_done.assign_attrs(
         long_name="walkers of finished tasks"
     )
     complete = bool(done.all())
+    if target is not None:
+        complete = bool(final.all() and (done | ~planned).all())
     if attrs["per_walker"]:
         for name, fill in (
             ("first_passage_time", np.nan),
@@ -1394,6 +1644,16 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
         ds["occupancy"] = occ.assign_attrs(long_name="free walkers per bin")
         for name in ("snapshot_time", "occupancy_lower", "occupancy_upper"):
             ds[name] = raw[name].compute()
+    order = attrs.get("point_order")
+    if order is not None:
+        # A grown store appended the points it gained; readers see the points in the
+        # definition's order, as in a store made at once from it.
+        ds = ds.isel(point=np.argsort(np.asarray(order)))
+        ds = ds.assign_coords(
+            point=xr.Variable(
+                ("point",), np.arange(n_p, dtype=np.int64), ds["point"].attrs
+            )
+        )
     ds.attrs = {
         "title": raw.attrs.get("title", ""),
         "spec_hash": attrs["spec_hash"],
@@ -1415,6 +1675,28 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
             if quantity and name not in ("point", "chunk"):
                 ds[name].attrs.setdefault("units", units.of(quantity))
     return ds
+
+
+def _planned(
+    target: precision.Precision,
+    attrs: Mapping[str, Any],
+    markers: Mapping[tuple[int, int], Mapping[str, Any]],
+) -> tuple[NDArray[np.bool_], NDArray[np.bool_]]:
+    """(point, chunk) tasks a precision target plans, and (point,) which points are
+    decided, from the finished tasks' markers (store indices)."""
+    n_p, n_c = attrs["n_points"], attrs["n_chunks"]
+    by_point: dict[int, dict[int, Mapping[str, Any]]] = {}
+    for (p, c), marker in markers.items():
+        by_point.setdefault(p, {})[c] = marker
+    wall = list(attrs["wall_names"]).index(target.wall) if target.wall else 0
+    planned = np.zeros((n_p, n_c), dtype=bool)
+    final = np.zeros(n_p, dtype=bool)
+    for p in range(n_p):
+        chunks, final[p], _ = precision.planned_chunks(
+            target, wall, attrs["chunk"], n_c, by_point.get(p, {})
+        )
+        planned[p, :chunks] = True
+    return planned, final
 
 
 def _mask_unfinished(data: Any, done: NDArray[np.bool_], fill: Any) -> Any:

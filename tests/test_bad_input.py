@@ -822,13 +822,13 @@ CASES: list[Case] = [
     other_definition(
         "store-of-other-grid",
         _edit(SMALL_SPEC, ("[0.5, 1.0]", "[0.5, 2.0]")),
-        "values: stored [[0.5], [1.0]], now [[0.5], [2.0]]",
+        "points removed (1; their values of motion.diffusivity: [1.0])",
     ),
     other_definition(
         "store-of-other-seed-and-horizon",
         _edit(SMALL_SPEC, ("seed = 7", "seed = 8"), ("horizon = 3.0", "horizon = 4.0")),
         "sweep.seed: stored 7, now 8",
-        "point0.time.horizon: stored 3.0, now 4.0",
+        "time.horizon: stored 3.0, now 4.0",
     ),
     Case(
         id="store-of-other-stream-version",
@@ -866,8 +866,8 @@ CASES: list[Case] = [
     Case(
         id="store-of-newer-format",
         argv=RUN_SMALL,
-        expect=("{ws}/s.zarr", "store format 3", "reads format 2"),
-        setup=(copy_store(), SMALL, edit_attrs("s.zarr", lambda a: a.update(format=3))),
+        expect=("{ws}/s.zarr", "store format 4", "reads format 2 and 3"),
+        setup=(copy_store(), SMALL, edit_attrs("s.zarr", lambda a: a.update(format=4))),
         store="s.zarr",
     ),
     # ----- paths that are not stores
