@@ -547,7 +547,10 @@ def _run_prepared(
             # One round without a target; with one, rounds until every point has
             # met its target or its ceiling (sweep.precision: each round's tasks
             # follow from the finished chunks alone).
+            rounds = 0
             while pending:
+                rounds += 1
+                _pause_before_round(rounds)
                 summary.n_tasks = (
                     summary.already_done + summary.completed + len(pending)
                 )
@@ -603,6 +606,18 @@ def _targeted_round(plan: Plan, path: Path) -> tuple[list[Task], str]:
     final = sweep.n_points - len({t.point for t in tasks})
     note = f"{final}/{sweep.n_points} points final ({met} at target)"
     return tasks, note
+
+
+#: Set to a round number to make a targeted run wait before that round (for tests
+#: that kill a run between rounds); never set in normal use.
+ROUND_PAUSE_ENV = "SWEEP_ROUND_PAUSE"
+
+
+def _pause_before_round(number: int) -> None:
+    if os.environ.get(ROUND_PAUSE_ENV) == str(number):
+        sys.stderr.write(f"run paused before round {number}\n")
+        sys.stderr.flush()
+        time.sleep(3600)
 
 
 def target_wall_index(sweep: Any) -> int:

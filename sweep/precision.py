@@ -124,7 +124,7 @@ def parse(raw: Any, source: str) -> Precision:
     later by :func:`check_wall`, once the domain is known)."""
 
     def fail(key: str, message: str) -> SpecError:
-        return SpecError(f"{source}: sweep.precision{key}: {message}")
+        return SpecError(f"{source}: [sweep.precision{key}] {message}")
 
     example = (
         '{ statistic = "mean_first_passage_time", relative_halfwidth = 0.01, '
@@ -194,7 +194,7 @@ def check_wall(precision: Precision, walls: Sequence[str], source: str) -> None:
     absorb (``walls``: the absorbing walls' names, in store order)."""
     if precision.wall is not None and precision.wall not in walls:
         raise SpecError(
-            f"{source}: sweep.precision.wall: names no absorbing wall or target of "
+            f"{source}: [sweep.precision.wall] names no absorbing wall or target of "
             f"the domain; allowed: {', '.join(walls) or 'none'}; got "
             f"{precision.wall!r}."
         )

@@ -648,6 +648,14 @@ class _Parser:
             # A target: the store holds max_walkers per point; `walkers` (optional)
             # is the first round's (sweep.precision).
             target = precision_target.parse(head["precision"], self.source)
+            if "chunk" in head:
+                chunk = self.integer(head["chunk"], "sweep.chunk", minimum=1)
+                if chunk > target.max_walkers:
+                    raise self.fail(
+                        "sweep.precision.max_walkers",
+                        f"must hold at least one chunk of {chunk:,} walkers "
+                        f"(sweep.chunk); got {target.max_walkers:,}.",
+                    )
             first = (
                 self.integer(
                     head["walkers"],
@@ -660,14 +668,6 @@ class _Parser:
             )
             target = dataclasses.replace(target, first_walkers=first)
             walkers = target.max_walkers
-            if "chunk" in head:
-                chunk = self.integer(head["chunk"], "sweep.chunk", minimum=1)
-                if chunk > walkers:
-                    raise self.fail(
-                        "sweep.precision.max_walkers",
-                        f"must hold at least one chunk of {chunk:,} walkers "
-                        f"(sweep.chunk); got {walkers:,}.",
-                    )
         else:
             walkers = self.integer(
                 self.required(head, "walkers", "sweep"), "sweep.walkers", minimum=1
