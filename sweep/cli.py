@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import logging
+import math
 import os
 import signal
 import sys
@@ -527,6 +528,8 @@ def _plan(args: argparse.Namespace) -> int:
         f"{sweep.n_chunks} per point)"
     )
     print(f"  tasks:           {plan.n_tasks:,}")
+    if sweep.precision is not None:
+        _plan_precision(plan)
     if sweep.swept:
         from sweep.plan import coordinate_columns
 
@@ -564,6 +567,29 @@ def _plan(args: argparse.Namespace) -> int:
     for warning in sizing.warnings:
         print(f"  warning: {warning}")
     return 0
+
+
+def _plan_precision(plan: Any) -> None:
+    """``sweep plan``'s lines for a precision target: walkers needed per point."""
+    from sweep.precision_plan import walkers_needed
+
+    target = plan.sweep.precision
+    print(
+        f"  precision:       {target.describe()} (95 %); first round "
+        f"{target.first_walkers:,} walkers, then doubling, at most "
+        f"{target.max_walkers:,} per point (the tasks and walker-steps below are "
+        f"that ceiling's)"
+    )
+    for need in walkers_needed(plan):
+        wanted = (
+            f"about {need.walkers:,.0f}"
+            if math.isfinite(need.walkers)
+            else "never met (walkers censored: raise time.horizon)"
+        )
+        print(
+            f"    point {need.point}: needs {wanted} walkers ({need.how}); the run "
+            f"gives it {need.planned:,}"
+        )
 
 
 def _bench_spheres() -> int:

@@ -349,3 +349,29 @@ def test_splitting_target(tmp_path: Path) -> None:
         est = precision.estimate(spec.precision, 1, [by_point[p][c] for c in chunks])
         assert est.met or len(chunks) == 32
     shutil.rmtree(store)
+
+
+def test_plan_estimates_the_walkers_each_point_needs(tmp_path: Path) -> None:
+    spec = tmp_path / "split.toml"
+    spec.write_text(
+        TARGET_SPEC.replace(
+            'precision = { statistic = "mean_first_passage_time", '
+            "relative_halfwidth = 0.05",
+            'precision = { statistic = "splitting", wall = "x_upper", '
+            "absolute_halfwidth = 0.02",
+        )
+    )
+    out = run_cli("plan", spec)
+    assert out.returncode == 0, out.stderr
+    # Closed form: from the middle P(x_upper) = 1/2 (x0 / L, the interval's splitting
+    # probability; Redner, "A Guide to First-Passage Processes", 2001, ch. 2; the
+    # chapter from memory),
+    # and the normal approximation's N = z^2 p (1 - p) / h^2 (common practice).
+    needed = precision.Z**2 * 0.25 / 0.02**2
+    assert f"point 0: needs about {needed:,.0f} walkers (closed form)" in out.stdout
+    assert "the run gives it 4,000" in out.stdout  # checkpoint 16 chunks of 250
+    mean = tmp_path / "mean.toml"
+    mean.write_text(TARGET_SPEC)
+    out = run_cli("plan", mean)
+    assert out.returncode == 0, out.stderr
+    assert "walkers (pilot of 2000 walkers); the run gives it" in out.stdout
