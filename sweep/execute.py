@@ -594,17 +594,28 @@ def _targeted_round(plan: Plan, path: Path) -> tuple[list[Task], str]:
     first = -(-target.first_walkers // sweep.chunk)
     tasks: list[Task] = []
     met = 0
+    worst: precision.Estimate | None = None
     for p in range(sweep.n_points):
         done = by_point.get(p, {})
         decision = precision.decide(target, wall_index, first, n_c, done)
         if decision.final:
             met += decision.last is not None and decision.last.met
             continue
+        last = decision.last
+        if last is not None and (
+            worst is None
+            or last.censored > worst.censored
+            or not last.halfwidth <= worst.halfwidth
+        ):
+            worst = last
         tasks += [
             plan.tasks[p * n_c + c] for c in range(decision.chunks) if c not in done
         ]
     final = sweep.n_points - len({t.point for t in tasks})
-    note = f"{final}/{sweep.n_points} points final ({met} at target)"
+    note = f"{final}/{sweep.n_points} points decided ({met} at target)"
+    if worst is not None:
+        # The farthest undecided point: its precision against the target.
+        note += f"; worst open {precision.describe_estimate(target, worst)}"
     return tasks, note
 
 

@@ -375,3 +375,21 @@ def test_plan_estimates_the_walkers_each_point_needs(tmp_path: Path) -> None:
     out = run_cli("plan", mean)
     assert out.returncode == 0, out.stderr
     assert "walkers (pilot of 2000 walkers); the run gives it" in out.stdout
+
+
+def test_a_targeted_store_grows_by_points(targeted: Path, tmp_path: Path) -> None:
+    from tests.test_growth import assert_same_points
+
+    store = tmp_path / "grown.zarr"
+    shutil.copytree(targeted, store)
+    more = TARGET_SPEC.replace("= [[0.5], [0.05]]", "= [[0.5], [0.3], [0.05]]")
+    spec = tmp_path / "more.toml"
+    spec.write_text(more)
+    summary = run(spec, store, RunOptions(threads=2, progress=False))
+    assert summary.complete
+    assert_same_points(store, build_store(more, tmp_path / "once.zarr", threads=2))
+    # The target itself cannot change on a store.
+    tighter = more.replace("relative_halfwidth = 0.05", "relative_halfwidth = 0.04")
+    spec.write_text(tighter)
+    with pytest.raises(sweep.errors.StoreMismatchError, match="sweep.precision"):
+        run(spec, store, RunOptions(threads=1, progress=False))
