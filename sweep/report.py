@@ -3,7 +3,9 @@
 Figures: survival curves with pointwise 95 % intervals against the analytic curve where
 one exists; first-passage-time densities; splitting probabilities across the first
 swept parameter; occupancy heat maps (or profiles in 1-D); and the ``sweep check``
-table. Matplotlib runs with the non-interactive Agg backend.
+table. Figures are :class:`matplotlib.figure.Figure` objects saved straight to PNG:
+nothing here selects a backend or touches pyplot's figure list, so importing this
+module (or ``sweep``) in a notebook leaves the user's plotting set-up as it was.
 """
 
 from __future__ import annotations
@@ -12,16 +14,13 @@ import html
 import math
 from pathlib import Path
 
-import matplotlib
+import numpy as np
+import xarray as xr
+from matplotlib.axes import Axes
+from matplotlib.figure import Figure
 
-matplotlib.use("Agg")  # files only; no display on compute nodes
-
-import matplotlib.pyplot as plt  # noqa: E402
-import numpy as np  # noqa: E402
-import xarray as xr  # noqa: E402
-
-from sweep import check, stats, store  # noqa: E402
-from sweep.spec import NO_UNITS, Sweep  # noqa: E402
+from sweep import check, stats, store
+from sweep.spec import NO_UNITS, Sweep
 
 #: Line plots show at most this many points (evenly spread over the sweep).
 MAX_CURVES = 8
@@ -190,7 +189,8 @@ def _survival_figure(
 ) -> tuple[str, str]:
     surv = stats.survival(ds)
     t = ds["time"].values
-    fig, ax = plt.subplots(figsize=(7, 4.5))
+    fig = Figure(figsize=(7, 4.5))
+    ax = fig.subplots()
     widest = 0.0
     for i, p in enumerate(shown):
         colour = f"C{i % 10}"
@@ -235,7 +235,8 @@ def _exact_survival(sweep: Sweep, p: int, t: np.ndarray) -> np.ndarray | None:
 def _fpt_figure(
     ds: xr.Dataset, sweep: Sweep, shown: list[int], labels: list[str], out: Path
 ) -> tuple[str, str]:
-    fig, ax = plt.subplots(figsize=(7, 4.5))
+    fig = Figure(figsize=(7, 4.5))
+    ax = fig.subplots()
     drawn = 0
     for i, p in enumerate(shown):
         centres, density, err = _fpt_histogram(ds, p)
@@ -264,7 +265,7 @@ def _fpt_figure(
     return _save(fig, out / "fpt_density.png"), caption
 
 
-def _empty(ax: plt.Axes, text: str) -> None:
+def _empty(ax: Axes, text: str) -> None:
     ax.text(0.5, 0.5, text, transform=ax.transAxes, ha="center", va="center")
 
 
@@ -303,7 +304,8 @@ def _splitting_figure(ds: xr.Dataset, sweep: Sweep, out: Path) -> tuple[str, str
     split = stats.splitting_probability(ds)
     walls = [str(w) for w in split["wall"].values]
     used = [w for w in walls if float(split["count"].sel(wall=w).sum()) > 0]
-    fig, ax = plt.subplots(figsize=(7.5, 4.8))
+    fig = Figure(figsize=(7.5, 4.8))
+    ax = fig.subplots()
     columns = {
         k: np.asarray(v)
         for k, v in check.parameters(sweep).items()
@@ -413,13 +415,8 @@ def _occupancy_figure(
     if d > 2:
         caption += "; projected on the x, y plane"
     if d == 1:
-        fig, axes = plt.subplots(
-            1,
-            len(points),
-            figsize=(3.6 * len(points) + 0.6, 3.6),
-            squeeze=False,
-            sharey=True,
-        )
+        fig = Figure(figsize=(3.6 * len(points) + 0.6, 3.6))
+        axes = fig.subplots(1, len(points), squeeze=False, sharey=True)
         for ax, p in zip(axes[0], points):
             lo = float(ds["occupancy_lower"].isel(point=p, axis=0))
             hi = float(ds["occupancy_upper"].isel(point=p, axis=0))
@@ -443,12 +440,8 @@ def _occupancy_figure(
         maps = {(p, s): density(p, s) for p in points for s in range(n_snap)}
         finite = [m[np.isfinite(m)] for m in maps.values()]
         top = max((float(m.max()) for m in finite if m.size), default=1.0) or 1.0
-        fig, axes = plt.subplots(
-            len(points),
-            n_snap,
-            figsize=(3.3 * n_snap + 1.2, 3.0 * len(points) + 0.4),
-            squeeze=False,
-        )
+        fig = Figure(figsize=(3.3 * n_snap + 1.2, 3.0 * len(points) + 0.4))
+        axes = fig.subplots(len(points), n_snap, squeeze=False)
         image = None
         for row, p in enumerate(points):
             for s in range(n_snap):
@@ -483,7 +476,6 @@ def _occupancy_figure(
         bar = fig.colorbar(image, ax=axes.ravel().tolist(), shrink=0.9)
         bar.set_label(f"density of free walkers per walker started [{dens_unit}]")
         fig.savefig(out / "occupancy.png", dpi=DPI)
-        plt.close(fig)
         return "occupancy.png", caption
     fig.suptitle(
         "Occupancy of free walkers per walker started (shared y axis)"
@@ -492,10 +484,11 @@ def _occupancy_figure(
     return _save(fig, out / "occupancy.png"), caption
 
 
-def _save(fig: plt.Figure, path: Path) -> str:
+def _save(fig: Figure, path: Path) -> str:
+    """Lay out and write ``fig`` as PNG (the Agg renderer, chosen by the suffix);
+    the figure belongs to no pyplot manager, so nothing is left to close."""
     fig.tight_layout()
     fig.savefig(path, dpi=DPI)
-    plt.close(fig)
     return path.name
 
 

@@ -90,18 +90,33 @@ def sweep_command() -> list[str]:
     return [sys.executable, "-m", "sweep.cli"]
 
 
+#: Runs the command line under an address-space limit (argv[1] bytes), so a command
+#: that tries to allocate the machine's memory fails fast instead of swapping it away.
+_LIMITED = (
+    "import resource, runpy, sys\n"
+    "limit = int(sys.argv.pop(1))\n"
+    "resource.setrlimit(resource.RLIMIT_AS, (limit, limit))\n"
+    "runpy.run_module('sweep.cli', run_name='__main__', alter_sys=True)\n"
+)
+
+
 def run_cli(
     *args: str | Path,
     cwd: Path | None = None,
     timeout: float = PATIENCE,
+    memory_limit: int | None = None,
     **env: str,
 ) -> subprocess.CompletedProcess[str]:
     """Run ``sweep ARGS`` in a subprocess, as a user would (the one CLI runner).
 
     Output is captured as text; extra keyword arguments are environment variables.
+    ``memory_limit`` (bytes) caps the command's address space.
     """
+    command = sweep_command()
+    if memory_limit is not None:
+        command = [sys.executable, "-c", _LIMITED, str(memory_limit)]
     return subprocess.run(
-        [*sweep_command(), *map(str, args)],
+        [*command, *map(str, args)],
         capture_output=True,
         text=True,
         timeout=timeout,

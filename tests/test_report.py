@@ -2,18 +2,19 @@
 
 from __future__ import annotations
 
+import json
 import os
 import re
 import subprocess
+import sys
 from pathlib import Path
 
 import pytest
 
 import sweep
 from sweep import stats, store
-from sweep.execute import RunOptions, run
 from sweep.report import _plus_minus, headline_table, write_report
-from tests.conftest import PATIENCE, SMALL_SPEC, sweep_command
+from tests.conftest import PATIENCE, SMALL_SPEC, build_store, run_cli, sweep_command
 
 PLANE = """
 [sweep]
@@ -38,32 +39,25 @@ occupancy = { times = [0.05, 0.3], bins = 12 }
 """
 
 
-def _store(tmp_path: Path, text: str) -> Path:
-    """Run the definition ``text`` into ``tmp_path / "s.zarr"`` on two threads."""
-    spec = tmp_path / "s.toml"
-    spec.write_text(text)
-    out = tmp_path / "s.zarr"
-    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
-    return out
-
-
-def _report(tmp_path: Path, text: str) -> str:
-    page = write_report(_store(tmp_path, text), tmp_path / "report")
+def _report(tmp_path: Path, path: Path) -> str:
+    page = write_report(path, tmp_path / "report")
     for name in ("survival.png", "fpt_density.png", "splitting.png", "occupancy.png"):
         png = tmp_path / "report" / name
         assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n", name
     return page.read_text()
 
 
-def test_report_1d_has_figures_and_check_table(tmp_path: Path) -> None:
-    text = _report(tmp_path, SMALL_SPEC)
+def test_report_1d_has_figures_and_check_table(
+    tmp_path: Path, small_store: Path
+) -> None:
+    text = _report(tmp_path, small_store)
     assert re.search(r"all \d+ checks passed", text)
     assert "Headline numbers" in text and "mean first-passage time" in text
     assert "survival S(t=" in text and "need convergence checks" in text
 
 
 def test_report_2d_has_heat_maps_and_checks(tmp_path: Path) -> None:
-    text = _report(tmp_path, PLANE)
+    text = _report(tmp_path, build_store(PLANE, tmp_path / "s.zarr", threads=2))
     assert re.search(r"all \d+ checks passed", text)
     assert "occupancy.png" in text
 
@@ -76,27 +70,15 @@ UNCHECKED = (
 )
 
 
-def test_headline_numbers_without_closed_form(
-    tmp_path: Path, cli_env: dict[str, str]
-) -> None:
+def test_headline_numbers_without_closed_form(tmp_path: Path) -> None:
     spec = tmp_path / "u.toml"
     spec.write_text(UNCHECKED)
     out = tmp_path / "u.zarr"
-
-    def sweep_cli(*args: str) -> subprocess.CompletedProcess[str]:
-        return subprocess.run(
-            [*sweep_command(), *args],
-            env=cli_env,
-            capture_output=True,
-            text=True,
-            timeout=PATIENCE,
-        )
-
-    ran = sweep_cli("run", str(spec), "--store", str(out), "--threads", "2", "--quiet")
+    ran = run_cli("run", spec, "--store", out, "--threads", "2", "--quiet")
     assert ran.returncode == 0, ran.stderr
     # Nothing to compare is said as such, not as a pass, by run, check and report.
     assert "nothing compared" in ran.stdout and "passed" not in ran.stdout
-    checked = sweep_cli("check", str(out))
+    checked = run_cli("check", out)
     assert checked.returncode == 0, checked.stderr
     assert (
         "nothing compared" in checked.stdout
@@ -105,7 +87,7 @@ def test_headline_numbers_without_closed_form(
     page = write_report(out, tmp_path / "report").read_text()
     assert "nothing compared" in page
 
-    shown = sweep_cli("summary", str(out))
+    shown = run_cli("summary", out)
     assert shown.returncode == 0, shown.stderr
     assert shown.stdout in ran.stdout  # run prints the same table
     lines = shown.stdout.splitlines()
@@ -139,10 +121,11 @@ def test_plus_minus_rounds_to_the_interval() -> None:
 
 
 def test_closed_output_pipe_ends_quietly(
-    tmp_path: Path, cli_env: dict[str, str]
+    small_store: Path, cli_env: dict[str, str]
 ) -> None:
-    """`sweep summary STORE | head -1`: the reader leaves early; no traceback."""
-    out = _store(tmp_path, SMALL_SPEC)
+    """`sweep summary STORE | head -1`: the reader leaves early; no traceback. (Not
+    run_cli: stdout must be a pipe whose reader is gone.)"""
+    out = small_store
     read, write = os.pipe()
     os.close(read)  # the reader is gone before the first line
     try:
@@ -183,7 +166,7 @@ def test_headline_table_names_parameters_as_the_store_and_shows_units(
 ) -> None:
     """One name per parameter (the store's coordinate name) and units in headers."""
     text = PLANE.replace("seed = 3", 'seed = 3\nunits = { length = "um", time = "ms" }')
-    out = _store(tmp_path, text)
+    out = build_store(text, tmp_path / "s.zarr", threads=2)
     ds = sweep.open(out)
     table = headline_table(ds, store.load_sweep(out))
     header = table.splitlines()[0]
@@ -191,7 +174,38 @@ def test_headline_table_names_parameters_as_the_store_and_shows_units(
     assert "mean first-passage time [ms]" in header and "domain.upper" not in header
     assert ds["upper_x"].attrs["units"] == "um" and ds["dt"].attrs["units"] == "ms"
     assert "units: length um, time ms." in table
-    (tmp_path / "b").mkdir()
-    bare = _store(tmp_path / "b", PLANE)
+    bare = build_store(PLANE, tmp_path / "bare.zarr", threads=2)
     plain = headline_table(sweep.open(bare), store.load_sweep(bare))
     assert "[definition units]" in plain.splitlines()[0]
+
+
+#: Run in a fresh interpreter: the user's backend and pyplot figure before and after
+#: importing sweep and writing a report (argv: store, output folder).
+KEEPS_BACKEND = """
+import json, sys
+import matplotlib
+matplotlib.use("svg")
+import matplotlib.pyplot as plt
+mine = plt.figure()
+before = [matplotlib.get_backend(), plt.get_fignums()]
+import sweep, sweep.report
+sweep.report.write_report(sys.argv[1], sys.argv[2])
+print(json.dumps([before, [matplotlib.get_backend(), plt.get_fignums()]]))
+"""
+
+
+def test_report_leaves_the_plotting_backend_alone(
+    small_store: Path, tmp_path: Path
+) -> None:
+    """Importing sweep.report in a notebook once switched matplotlib to Agg; figures
+    are now Figure objects saved directly, outside pyplot's figure list."""
+    done = subprocess.run(
+        [sys.executable, "-c", KEEPS_BACKEND, str(small_store), str(tmp_path / "r")],
+        capture_output=True,
+        text=True,
+        timeout=PATIENCE,
+    )
+    assert done.returncode == 0, done.stderr
+    before, after = json.loads(done.stdout)
+    assert after == before and before[0] == "svg", (before, after)
+    assert (tmp_path / "r" / "survival.png").read_bytes()[:4] == b"\x89PNG"

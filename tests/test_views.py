@@ -9,20 +9,8 @@ from pathlib import Path
 import pytest
 
 import sweep
-from sweep.execute import RunOptions, run
-from tests.conftest import SMALL_SPEC
 
 ROOT = Path(__file__).resolve().parent.parent
-
-
-@pytest.fixture(scope="module")
-def small_store(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    tmp = tmp_path_factory.mktemp("views")
-    spec = tmp / "small.toml"
-    spec.write_text(SMALL_SPEC)
-    out = tmp / "small.zarr"
-    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
-    return out
 
 
 def test_select_tolerates_float_noise(small_store: Path) -> None:
