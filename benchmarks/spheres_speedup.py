@@ -2,7 +2,7 @@
 of both schemes compared (full steps runs to absorption).
 
 The reflecting cube of side 2 with an absorbing target of radius a at its centre,
-D = 1, uniform start, dt = a^2 / 200, a in {0.1, 0.05, 0.02} (sweep/bench_spheres.py).
+D = 1, uniform start, dt = a^2 / 200, a in {0.1, 0.05, 0.02} (sweep/bench/spheres.py).
 ``sweep bench --spheres`` prints the same rows without the full steps runs.
 
 Usage: PYTHONPATH=. python benchmarks/spheres_speedup.py [--full-steps-walkers N]
@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import argparse
 
-from sweep.bench_spheres import HEADER, NOTE, run_spheres_bench
+from sweep.bench.spheres import HEADER, NOTE, run_spheres_bench
 
 
 def main() -> None:

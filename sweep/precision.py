@@ -200,6 +200,15 @@ def check_wall(precision: Precision, walls: Sequence[str], source: str) -> None:
         )
 
 
+def wall_index(sweep: Any) -> int:
+    """Index of ``sweep``'s (a ``Sweep``) target wall among the store's walls, as
+    markers' ``absorbed_by`` counts them (0 without a splitting target)."""
+    target = sweep.precision
+    if target is None or target.wall is None:
+        return 0
+    return list(sweep.points[0].domain.wall_names()).index(target.wall)
+
+
 def checkpoints(first_chunks: int, n_chunks: int) -> list[int]:
     """Chunk counts at which a point is judged: first_chunks, doubling, capped.
 

@@ -46,7 +46,7 @@ class Need:
 
 def walkers_needed(plan: Plan) -> list[Need]:
     """The estimate for up to :data:`PILOT_POINTS` points of a targeted sweep."""
-    from sweep.execute import simulate_task, target_wall_index
+    from sweep.simulate import simulate_task
 
     sweep = plan.sweep
     target = sweep.precision
@@ -54,7 +54,7 @@ def walkers_needed(plan: Plan) -> list[Need]:
     stride = max(1, -(-sweep.n_points // PILOT_POINTS))
     first = -(-target.first_walkers // sweep.chunk)
     stops = precision.checkpoints(first, sweep.n_chunks)
-    wall = target_wall_index(sweep)
+    wall = precision.wall_index(sweep)
     out = []
     for p in range(0, sweep.n_points, stride):
         point = sweep.points[p]

@@ -1,8 +1,10 @@
-"""Sizing a sweep before it runs: work, disk, memory, run time, and warnings.
+"""Sizing a sweep before it runs: work, disk, run time, and warnings on its choices.
 
-Used by ``sweep plan`` (printed) and ``sweep run`` (a task that cannot fit in memory is
-refused before anything is written). Run-time estimates use this machine's measured
-kernel speed, cached by ``sweep bench`` or measured here in about a second.
+A stage after ``check`` (expected work comes from its closed forms) that simulates
+pilots and calibrations through ``sweep.simulate``. Used by ``sweep plan`` (printed)
+and ``sweep run`` (its warnings, before starting). Run-time estimates use this
+machine's measured kernel speed, cached by ``sweep bench`` or measured here in about
+a second. The memory check a run needs lives in ``sweep.memory`` (re-exported here).
 """
 
 from __future__ import annotations
@@ -18,9 +20,17 @@ from pathlib import Path
 
 import numpy as np
 
-from sweep.errors import PlanError
-from sweep.plan import Plan, Task, make_plan
-from sweep.spec import PointSpec, Sweep, parse_spec
+from sweep.memory import (  # noqa: F401  (re-exported: importable from here as before)
+    MEMORY_SHARE,
+    check_memory,
+    memory_limit,
+    task_memory,
+    task_memory_parts,
+)
+from sweep.plan import Plan, Task, kernel_args, make_plan
+from sweep.spec import PointSpec, Sweep, axis_names, parse_spec
+from sweep.text import format_bytes as human_bytes  # noqa: F401  (re-exported)
+from sweep.text import format_duration as human_seconds  # noqa: F401  (re-exported)
 
 #: Where measured kernel speeds are kept between runs.
 CACHE = Path(
@@ -34,9 +44,6 @@ MAX_TASK_SECONDS = 3600.0
 #: sqrt(2 D dt) above this fraction of the smallest length (target radius, domain
 #: width) resolves that length poorly.
 STEP_FRACTION = 0.1
-#: Fraction of the memory this process may use (the machine's, or its cgroup limit where
-#: lower) that the tasks running at once may take.
-MEMORY_SHARE = 0.8
 
 
 @dataclass(frozen=True)
@@ -57,37 +64,6 @@ class Sizing:
 
     def run_seconds(self, cores: int) -> float:
         return self.walker_steps_expected / (self.rate_per_core * max(cores, 1))
-
-
-def task_memory_parts(sweep: Sweep) -> dict[str, tuple[float, str]]:
-    """Bytes a task allocates, by the definition key that sets them (with a label)."""
-    d = sweep.dimension
-    rec = sweep.points[0].record
-    n_walls = len(sweep.points[0].domain.wall_names())
-    per_walker = 8 + 2 + 8 * d + 8 * d  # time, wall, exit position, final position
-    return {
-        "sweep.chunk": (
-            float(sweep.chunk * per_walker),
-            f"{sweep.chunk} walkers per task",
-        ),
-        "record.occupancy": (
-            float(8 * len(rec.occupancy_times) * rec.occupancy_bins**d),
-            f"{len(rec.occupancy_times)} snapshots x {rec.occupancy_bins}^{d} bins",
-        ),
-        "record.fpt_bins": (
-            float(8 * n_walls * rec.fpt_bins),
-            f"{n_walls} walls x {rec.fpt_bins} bins",
-        ),
-        "record.survival": (
-            float(8 * rec.survival_points),
-            f"{rec.survival_points} times",
-        ),
-    }
-
-
-def task_memory(sweep: Sweep) -> float:
-    """Peak bytes a task allocates for its outputs (per-walker arrays, histograms)."""
-    return sum(size for size, _ in task_memory_parts(sweep).values())
 
 
 def disk_bytes(sweep: Sweep) -> float:
@@ -119,10 +95,8 @@ PILOT_POINTS = 100
 def sphere_moves(point: PointSpec) -> tuple[float, float]:
     """Mean (jumps, steps) per walker of a spheres point, from a pilot run of
     :data:`PILOT_WALKERS` walkers with a fixed seed (no closed form predicts them)."""
-    import numpy as np
-
-    from sweep.execute import simulate_spheres_moves
-    from sweep.plan import kernel_args
+    # numba only when a pilot runs: `sweep plan` of a steps sweep stays numpy-only.
+    from sweep.simulate import simulate_spheres_moves
 
     n = PILOT_WALKERS
     args = kernel_args(point)
@@ -197,7 +171,7 @@ def pilot_steps(plan: Plan, point: int) -> tuple[float, float]:
     :data:`STEP_PILOT_BUDGET` walker-steps in all. Equal bounds when the pilot
     reached the point's horizon; otherwise walkers still free at the pilot's
     earlier stop may take anything up to the remaining steps."""
-    from sweep.execute import simulate_task
+    from sweep.simulate import simulate_task
 
     task = next(t for t in plan.tasks if t.point == point)
     horizon = task.args.motion.n_steps
@@ -335,7 +309,7 @@ def record_rates(rates: dict[int, float]) -> None:
 
 
 def _calibrate(dimension: int) -> float:
-    from sweep.execute import simulate_task
+    from sweep.simulate import simulate_task
 
     axes = range(dimension)
     text = f"""
@@ -362,8 +336,6 @@ walls = {{ {", ".join(f'{a}_lower = "absorbing", {a}_upper = "absorbing"' for a 
 
 
 def _axes(dimension: int) -> list[str]:
-    from sweep.spec import axis_names
-
     return list(axis_names(dimension))
 
 
@@ -433,123 +405,3 @@ def size(plan: Plan) -> Sizing:
         warnings=tuple(warnings),
         estimate_note=note,
     )
-
-
-def check_memory(
-    sweep: Sweep, concurrent_tasks: int, limit: tuple[float, str] | None = None
-) -> None:
-    """Refuse a sweep whose running tasks would not fit in the memory this process may
-    use.
-
-    ``limit`` is (bytes, what sets it), by default :func:`memory_limit`'s.
-
-    Raises
-    ------
-    PlanError
-        With the per-task estimate and how to shrink it.
-    """
-    total, where = memory_limit() if limit is None else limit
-    per_task = task_memory(sweep)
-    need = per_task * concurrent_tasks
-    if total and need > MEMORY_SHARE * total:
-        parts = task_memory_parts(sweep)
-        key = max(parts, key=lambda k: parts[k][0])
-        size, label = parts[key]
-        tasks = "task" if concurrent_tasks == 1 else "tasks"
-        raise PlanError(
-            f"{sweep.source}: [{key}] = {label} needs about {human_bytes(size)} per "
-            f"task ({human_bytes(per_task)} in all, {human_bytes(need)} for "
-            f"{concurrent_tasks} {tasks} at once), more than {MEMORY_SHARE:.0%} of "
-            f"{where}'s {human_bytes(total)}. Lower {key}, or run fewer tasks at once "
-            f"(--threads / --processes)."
-        )
-
-
-#: cgroup memory limits at or above this are "no limit" (cgroup v1 writes 2^63 rounded
-#: down to a page; v2 writes "max").
-_NO_LIMIT = 2**60
-
-
-def memory_limit(root: Path = Path("/")) -> tuple[float, str]:
-    """Memory this process may use: the machine's, or its control group's limit where
-    lower.
-
-    Batch schedulers (Slurm with cgroup enforcement, containers) confine a job to a
-    memory limit far below the node's physical memory and kill it beyond; checking
-    against the node alone would let a sweep start that is certain to be killed.
-
-    Parameters
-    ----------
-    root : Path
-        Filesystem root holding ``proc`` and ``sys`` (tests point it at a directory
-        tree of their own).
-
-    Returns
-    -------
-    (bytes, where) : (float, str)
-        The limit in bytes (0.0 when unknown) and what sets it, for messages: "this
-        machine" or "the cgroup limit (path)".
-    """
-    try:
-        total = float(os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES"))
-    except (ValueError, OSError, AttributeError):
-        total = 0.0
-    where = "this machine"
-    for path, limit in _cgroup_limits(root):
-        if limit < _NO_LIMIT and (total == 0.0 or limit < total):
-            total, where = float(limit), f"the cgroup limit ({path})"
-    return total, where
-
-
-def _cgroup_limits(root: Path) -> list[tuple[str, int]]:
-    """Memory limits of this process's control group and of every group above it
-    (a limit set on a parent binds too), cgroup v2 and v1; unreadable ones are
-    skipped."""
-    try:
-        lines = (root / "proc/self/cgroup").read_text().splitlines()
-    except OSError:
-        return []
-    files = []
-    for line in lines:
-        # "0::/path" (v2) or "4:memory:/path" (v1); the path is relative to the
-        # hierarchy's mount, which a container may show as its root.
-        fields = line.split(":", 2)
-        if len(fields) != 3:
-            continue
-        _, controllers, group = fields
-        if controllers == "":
-            mount, name = root / "sys/fs/cgroup", "memory.max"
-        elif "memory" in controllers.split(","):
-            mount, name = root / "sys/fs/cgroup/memory", "memory.limit_in_bytes"
-        else:
-            continue
-        parts = [p for p in group.split("/") if p]
-        for depth in range(len(parts), -1, -1):
-            files.append(mount.joinpath(*parts[:depth], name))
-    limits = []
-    for path in files:
-        try:
-            text = path.read_text().strip()
-        except OSError:
-            continue
-        if text.isdigit():
-            limits.append((f"/{path.relative_to(root)}", int(text)))
-    return limits
-
-
-def human_bytes(n: float) -> str:
-    for unit in ("B", "KiB", "MiB", "GiB", "TiB"):
-        if n < 1024 or unit == "TiB":
-            return f"{n:.3g} {unit}"
-        n /= 1024
-    return f"{n:.3g} PiB"
-
-
-def human_seconds(s: float) -> str:
-    if s < 120:
-        return f"{s:.0f} s"
-    if s < 7200:
-        return f"{s / 60:.0f} min"
-    if s < 172800:
-        return f"{s / 3600:.1f} h"
-    return f"{s / 86400:.1f} days"

@@ -44,6 +44,9 @@ FAIL_FAST = 25.0
 ERROR = "sweep: error:"
 #: The message argparse prints for bad options of `sweep run`.
 ARGPARSE_RUN_ERROR = "sweep run: error:"
+#: ... and for `sweep bench`, whose range checks are argparse types.
+ARGPARSE_BENCH_ERROR = "sweep bench: error:"
+ARGPARSE_EXPORT_ERROR = "sweep export: error:"
 #: Address-space limit for cases that could otherwise take the machine's memory: enough
 #: for `sweep run` (numba, dask).
 RUN_LIMIT = 4 << 30
@@ -479,11 +482,13 @@ CASES: list[Case] = [
         id="bench-no-repeats",
         argv=("bench", "--repeats", "0"),
         expect=("--repeats", "at least 1", "got 0"),
+        prefix=ARGPARSE_BENCH_ERROR,
     ),
     Case(
         id="bench-negative-remeasure",
         argv=("bench", "--remeasure", "-1"),
         expect=("--remeasure", "at least 0", "got -1"),
+        prefix=ARGPARSE_BENCH_ERROR,
     ),
     # ----- status, check, export on paths that are not stores
     store_command("status-missing-store", "status", (), "no such store"),
@@ -510,6 +515,7 @@ CASES: list[Case] = [
         setup=(copy_store(),),
         store="s.zarr",
         absent="out.h5",
+        prefix=ARGPARSE_EXPORT_ERROR,
     ),
     Case(
         id="export-points-out-of-range",
@@ -526,6 +532,7 @@ CASES: list[Case] = [
         setup=(copy_store(),),
         store="s.zarr",
         absent="out.h5",
+        prefix=ARGPARSE_EXPORT_ERROR,
     ),
     Case(
         id="export-unknown-variable",

@@ -22,8 +22,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from sweep.execute import simulate_spheres_moves, simulate_task
 from sweep.plan import Task, make_plan
+from sweep.simulate import simulate_spheres_moves, simulate_task
 from sweep.spec import parse_spec
 
 #: Target radii of the benchmark, with the issue's targets for the speed-up

@@ -21,7 +21,7 @@ import pytest
 
 from sweep import store
 from sweep.execute import RunOptions, run
-from tests.conftest import PATIENCE, SMALL_SPEC, assert_stores_identical
+from tests.conftest import PATIENCE, SMALL_SPEC, assert_stores_identical, run_cli
 
 pytestmark = pytest.mark.distributed
 
@@ -101,10 +101,9 @@ def cluster(tmp_path: Path) -> Iterator[Path]:
 
 
 @pytest.fixture
-def reference(small_spec: Path, tmp_path: Path) -> Path:
-    out = tmp_path / "threads.zarr"
-    assert run(small_spec, out, RunOptions(threads=2, progress=False)).complete
-    return out
+def reference(small_store: Path) -> Path:
+    """The small sweep run on threads (the session's store: read only)."""
+    return small_store
 
 
 def test_processes_match_threads(
@@ -129,13 +128,15 @@ def test_scheduler_file_and_address_match_threads(
     assert_stores_identical(reference, by_file)
     address = json.loads(cluster.read_text())["address"]
     by_address = tmp_path / "by-address.zarr"
-    result = subprocess.run(
-        [sys.executable, "-m", "sweep.cli", "run", str(small_spec), "--store", str(by_address),
-         "--scheduler", address, "--quiet"],
-        capture_output=True,
-        text=True,
-        timeout=PATIENCE,
-    )  # fmt: skip
+    result = run_cli(
+        "run",
+        str(small_spec),
+        "--store",
+        str(by_address),
+        "--scheduler",
+        address,
+        "--quiet",
+    )
     assert result.returncode == 0, result.stderr
     assert_stores_identical(reference, by_address)
     assert "not encrypted" not in result.stderr  # on the loopback: no warning
@@ -199,7 +200,7 @@ def test_slurm_job_script_runs_the_sweep(
 ) -> None:
     """The HPC recipe end to end on this machine: `srun` is a stand-in that runs its
     command once (one node); scheduler and workers are real processes on 127.0.0.1."""
-    script = Path(__file__).resolve().parent.parent / "sweeps" / "hpc" / "slurm-job.sh"
+    script = Path(__file__).resolve().parents[2] / "sweeps" / "hpc" / "slurm-job.sh"
     fake_bin = tmp_path / "bin"
     fake_bin.mkdir()
     srun = fake_bin / "srun"

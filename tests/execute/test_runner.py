@@ -1,6 +1,5 @@
-"""End-to-end runs on the real stack: definition -> Dask threads -> numba -> zarr -> xarray.
-
-Determinism and resume are checked bit for bit (exact equality of every stored array).
+"""sweep.execute's run on the real stack (definition -> threads -> numba -> zarr):
+determinism and resume bit for bit, the store's lock and leftovers, failing tasks.
 """
 
 from __future__ import annotations
@@ -8,7 +7,6 @@ from __future__ import annotations
 import json
 import os
 import random
-import re
 import signal
 import subprocess
 import time
@@ -24,24 +22,26 @@ from sweep.errors import StoreError, StoreLockedError, StoreMismatchError
 from sweep.execute import RunOptions, run, run_task
 from sweep.plan import make_plan
 from sweep.spec import load_spec
-from tests.conftest import PATIENCE, SMALL_SPEC, assert_stores_identical, sweep_command
-
-
-def _run(spec: Path, out: Path, threads: int = 2) -> None:
-    summary = run(spec, out, RunOptions(threads=threads, progress=False))
-    assert summary.complete
+from tests.conftest import (
+    PATIENCE,
+    SMALL_SPEC,
+    assert_stores_identical,
+    build_store,
+    run_cli,
+    sweep_command,
+)
 
 
 def test_run_is_identical_for_any_thread_count(
     small_spec: Path, tmp_path: Path
 ) -> None:
-    _run(small_spec, tmp_path / "one.zarr", threads=1)
-    _run(small_spec, tmp_path / "two.zarr", threads=2)
+    build_store(small_spec, tmp_path / "one.zarr", threads=1)
+    build_store(small_spec, tmp_path / "two.zarr", threads=2)
     assert_stores_identical(tmp_path / "one.zarr", tmp_path / "two.zarr")
 
 
 def test_run_is_identical_for_any_task_order(small_spec: Path, tmp_path: Path) -> None:
-    _run(small_spec, tmp_path / "ordered.zarr")
+    build_store(small_spec, tmp_path / "ordered.zarr", threads=2)
     plan = make_plan(load_spec(small_spec))
     path = store.prepare(tmp_path / "shuffled.zarr", plan)
     tasks = list(plan.tasks)
@@ -57,10 +57,10 @@ def test_task_stream_does_not_depend_on_other_points(
     small_spec: Path, tmp_path: Path
 ) -> None:
     """Dropping a grid value leaves the other point's data unchanged."""
-    _run(small_spec, tmp_path / "both.zarr")
+    build_store(small_spec, tmp_path / "both.zarr", threads=2)
     single = tmp_path / "single.toml"
     single.write_text(SMALL_SPEC.replace("[0.5, 1.0]", "[1.0]"))
-    _run(single, tmp_path / "single.zarr")
+    build_store(single, tmp_path / "single.zarr", threads=2)
     both = sweep.open(tmp_path / "both.zarr")
     one = sweep.open(tmp_path / "single.zarr")
     np.testing.assert_array_equal(
@@ -71,7 +71,7 @@ def test_task_stream_does_not_depend_on_other_points(
 
 def test_rerun_of_complete_store_does_nothing(small_spec: Path, tmp_path: Path) -> None:
     out = tmp_path / "s.zarr"
-    _run(small_spec, out)
+    build_store(small_spec, out, threads=2)
     before = {
         p: p.stat().st_mtime_ns
         for p in out.rglob("*")
@@ -88,9 +88,9 @@ def test_rerun_of_complete_store_does_nothing(small_spec: Path, tmp_path: Path) 
 
 
 def test_resume_recomputes_only_missing_tasks(small_spec: Path, tmp_path: Path) -> None:
-    _run(small_spec, tmp_path / "full.zarr")
+    build_store(small_spec, tmp_path / "full.zarr", threads=2)
     out = tmp_path / "partial.zarr"
-    _run(small_spec, out)
+    build_store(small_spec, out, threads=2)
     # Forget three tasks: remove their markers (their chunks may stay: they are redone).
     markers = sorted((out / "_tasks").iterdir())
     for marker in markers[::4]:
@@ -106,9 +106,9 @@ def test_resume_across_library_versions_of_one_stream(
     # Compatibility follows the random streams: a store recorded with other numpy and
     # numba versions but this stream version resumes (the golden test,
     # tests/kernels/test_golden.py, notices an update that changes the numbers).
-    _run(small_spec, tmp_path / "full.zarr")
+    build_store(small_spec, tmp_path / "full.zarr", threads=2)
     out = tmp_path / "partial.zarr"
-    _run(small_spec, out)
+    build_store(small_spec, out, threads=2)
     meta = out / "zarr.json"
     doc = json.loads(meta.read_text())
     attrs = doc["attributes"][store.ATTRS_KEY]
@@ -128,99 +128,11 @@ def test_resume_across_library_versions_of_one_stream(
     assert_stores_identical(tmp_path / "full.zarr", out)
 
 
-def test_sigkilled_run_resumes_bit_identical(
-    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
-) -> None:
-    reference = tmp_path / "reference.zarr"
-    _run(small_spec, reference)
-    out = tmp_path / "killed.zarr"
-    for attempt in range(3):
-        proc = subprocess.Popen(
-            [
-                *sweep_command(),
-                "run",
-                str(small_spec),
-                "--store",
-                str(out),
-                "--threads",
-                "2",
-                "--quiet",
-            ],
-            env=cli_env,
-            stdout=subprocess.DEVNULL,
-            stderr=subprocess.DEVNULL,
-        )
-        deadline = time.monotonic() + PATIENCE
-        target = 2 + 3 * attempt
-        while time.monotonic() < deadline and proc.poll() is None:
-            if len(store.done_tasks(out)) >= target:
-                break
-            time.sleep(0.01)
-        proc.send_signal(signal.SIGKILL)
-        proc.wait()
-    killed_done = len(store.done_tasks(out))
-    assert killed_done < 12, (
-        "the run finished before it could be killed; make tasks longer"
-    )
-    # The killed runner's lock is stale: the rerun takes it over and completes.
-    result = subprocess.run(
-        [*sweep_command(), "run", str(small_spec), "--store", str(out), "--quiet"],
-        env=cli_env,
-        capture_output=True,
-        text=True,
-        timeout=PATIENCE,
-    )
-    assert result.returncode == 0, result.stderr
-    assert_stores_identical(reference, out)
-
-
-def test_open_selects_points_by_parameter(small_spec: Path, tmp_path: Path) -> None:
-    out = tmp_path / "s.zarr"
-    _run(small_spec, out)
-    ds = sweep.open(out)
-    assert ds.first_passage_time.dims == ("point", "walker")
-    assert ds.exit_position.dims == ("point", "walker", "axis")
-    assert ds.survival.dims == ("point", "time")
-    assert ds.occupancy.dims == ("point", "snapshot", "x_bin")
-    assert ds.done.dims == ("point", "chunk") and bool(ds.done.all())
-    # Lazy: per-walker variables are dask arrays until computed.
-    assert ds.first_passage_time.chunks is not None
-    picked = ds.set_xindex("diffusivity").sel(diffusivity=1.0)
-    assert picked.first_passage_time.dims == ("walker",)
-    where = ds.where(ds.diffusivity == 0.5, drop=True)
-    assert where.sizes["point"] == 1
-    # Snapshot times keep the user's order (0.2, then 0.05) and are snapped to dt.
-    np.testing.assert_array_equal(ds.snapshot_time.isel(point=0).values, [0.2, 0.05])
-    # Free walkers at t = 0.05 outnumber those at t = 0.2 (absorption only removes).
-    occ = ds.occupancy.sum("x_bin").compute()
-    assert (occ.isel(snapshot=1) >= occ.isel(snapshot=0)).all()
-    # Survival at t = 0 is one; counts match per-walker data exactly.
-    np.testing.assert_array_equal(ds.survival.isel(time=0).values, [1.0, 1.0])
-    t = ds.time.values[5]
-    free = (ds.first_passage_time > t) | ds.first_passage_time.isnull()
-    np.testing.assert_array_equal(
-        free.sum("walker").values, ds.survival_count.isel(time=5).values
-    )
-
-
-def test_open_masks_unfinished_tasks(small_spec: Path, tmp_path: Path) -> None:
-    out = tmp_path / "s.zarr"
-    _run(small_spec, out)
-    (out / "_tasks" / "p1-c2.json").unlink()
-    ds = sweep.open(out)
-    assert not bool(ds.done.sel(point=1, chunk=2))
-    assert int(ds.walkers_done.sel(point=1)) == 2500
-    fpt = ds.first_passage_time.sel(point=1).values
-    assert np.isnan(fpt[1000:1500]).all() and not np.isnan(fpt[:1000]).all()
-    assert (ds.absorbing_wall.sel(point=1).values[1000:1500] == -1).all()
-    np.testing.assert_array_equal(ds.survival.isel(time=0).values, [1.0, 1.0])
-
-
 def test_store_of_another_definition_is_refused(
     small_spec: Path, tmp_path: Path
 ) -> None:
     out = tmp_path / "s.zarr"
-    _run(small_spec, out)
+    build_store(small_spec, out, threads=2)
     before = {
         p: p.read_bytes()
         for p in out.rglob("*")
@@ -260,7 +172,7 @@ def test_live_lock_refuses_second_runner(small_spec: Path, tmp_path: Path) -> No
         ):
             run(small_spec, out, RunOptions(threads=1, progress=False))
     # Released on exit: a run now goes through.
-    _run(small_spec, out)
+    build_store(small_spec, out, threads=2)
 
 
 def test_stale_lock_is_taken_over(
@@ -283,7 +195,7 @@ def test_stale_lock_is_taken_over(
         )
     )
     with caplog.at_level("WARNING"):
-        _run(small_spec, out)
+        build_store(small_spec, out, threads=2)
     assert "stale lock" in caplog.text
     assert not (path / store.LOCK_FILE).exists()
 
@@ -292,7 +204,7 @@ def test_partial_files_are_cleaned_and_never_read(
     small_spec: Path, tmp_path: Path
 ) -> None:
     out = tmp_path / "s.zarr"
-    _run(small_spec, tmp_path / "ref.zarr")
+    build_store(small_spec, tmp_path / "ref.zarr", threads=2)
     path = store.prepare(out, make_plan(load_spec(small_spec)))
     chunk_dir = path / "first_passage_time" / "c" / "0"
     chunk_dir.mkdir(parents=True)
@@ -304,7 +216,7 @@ def test_partial_files_are_cleaned_and_never_read(
     outside = tmp_path / "victim.partial"
     outside.write_text("not the store's")
     (path / "link.partial").symlink_to(outside)
-    _run(small_spec, out)
+    build_store(small_spec, out, threads=2)
     assert not leftover.exists() and not marker_tmp.exists()
     assert outside.read_text() == "not the store's"
     (path / "link.partial").unlink()
@@ -327,7 +239,7 @@ def test_user_files_in_the_store_folder_are_never_deleted(
     for f in user_files:
         f.parent.mkdir(exist_ok=True)
         f.write_text("the user's")
-    _run(small_spec, out)
+    build_store(small_spec, out, threads=2)
     assert all(f.read_text() == "the user's" for f in user_files)
     sweep.open(out, verify=True)
 
@@ -345,141 +257,9 @@ def test_killed_creation_leftovers_of_this_store_are_cleaned(
     live.mkdir()
     other = tmp_path / f".t.zarr{store.CREATING}{dead.pid}-0badf00d"
     other.mkdir()
-    _run(small_spec, tmp_path / "s.zarr")
+    build_store(small_spec, tmp_path / "s.zarr", threads=2)
     assert not left.exists()
     assert live.exists() and other.exists()
-
-
-def test_cli_run_and_status(
-    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
-) -> None:
-    out = tmp_path / "s.zarr"
-    result = subprocess.run(
-        [
-            *sweep_command(),
-            "run",
-            str(small_spec),
-            "--store",
-            str(out),
-            "--threads",
-            "2",
-        ],
-        env=cli_env,
-        capture_output=True,
-        text=True,
-        timeout=PATIENCE,
-    )
-    assert result.returncode == 0, result.stderr
-    assert "12/12 tasks done" in result.stdout
-    assert re.search(r"all \d+ checks passed", result.stdout), result.stdout
-    status = subprocess.run(
-        [*sweep_command(), "status", str(out)],
-        env=cli_env,
-        capture_output=True,
-        text=True,
-        timeout=PATIENCE,
-    )
-    assert status.returncode == 0, status.stderr
-    assert "6/6" in status.stdout and "12/12 tasks done" in status.stdout
-
-
-def test_cli_bad_definition_exits_2(tmp_path: Path, cli_env: dict[str, str]) -> None:
-    bad = tmp_path / "bad.toml"
-    bad.write_text(SMALL_SPEC.replace("diffusivity = 0.5", "difusivity = 0.5"))
-    result = subprocess.run(
-        [*sweep_command(), "run", str(bad), "--store", str(tmp_path / "x.zarr")],
-        env=cli_env,
-        capture_output=True,
-        text=True,
-        timeout=PATIENCE,
-    )
-    assert result.returncode == 2
-    assert (
-        "bad.toml" in result.stderr and "Did you mean 'diffusivity'?" in result.stderr
-    )
-    assert "Traceback" not in result.stderr
-    assert not (tmp_path / "x.zarr").exists()
-
-
-def test_ctrl_c_stops_cleanly_and_resumes(
-    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
-) -> None:
-    reference = tmp_path / "reference.zarr"
-    _run(small_spec, reference)
-    out = tmp_path / "interrupted.zarr"
-    proc = subprocess.Popen(
-        [
-            *sweep_command(),
-            "run",
-            str(small_spec),
-            "--store",
-            str(out),
-            "--threads",
-            "1",
-            "--quiet",
-        ],
-        env=cli_env,
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-    )
-    deadline = time.monotonic() + PATIENCE
-    while (
-        time.monotonic() < deadline
-        and len(store.done_tasks(out)) < 2
-        and proc.poll() is None
-    ):
-        time.sleep(0.01)
-    proc.send_signal(signal.SIGINT)
-    stdout, stderr = proc.communicate(timeout=PATIENCE)
-    assert proc.returncode == 130, stderr
-    assert "Traceback" not in stderr
-    assert "rerun" in (stdout + stderr).lower()
-    assert len(store.done_tasks(out)) < 12
-    assert not (out / store.LOCK_FILE).exists()
-    _run(small_spec, out)
-    assert_stores_identical(reference, out)
-
-
-def slow_spec(tmp_path: Path, dt: float, walkers: int) -> Path:
-    """The small sweep with a finer step and more walkers, in tasks of 5000 walkers."""
-    path = tmp_path / "slow.toml"
-    path.write_text(
-        SMALL_SPEC.replace("dt = 1e-3", f"dt = {dt!r}")
-        .replace("walkers = 3000", f"walkers = {walkers}")
-        .replace("chunk = 500", "chunk = 5000")
-    )
-    return path
-
-
-def test_second_ctrl_c_stops_at_once(tmp_path: Path, cli_env: dict[str, str]) -> None:
-    """The first Ctrl-C waits for running tasks; a second leaves them (their threads
-    cannot be stopped) and exits at once, with the lock released."""
-    # One task of some 1e9 walker-steps: seconds to minutes, far beyond the signals.
-    spec = slow_spec(tmp_path, dt=1e-6, walkers=5000)
-    out = tmp_path / "s.zarr"
-    proc = subprocess.Popen(
-        [*sweep_command(), "run", str(spec), "--store", str(out), "--threads", "1"],
-        env=cli_env,
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-    )
-    deadline = time.monotonic() + PATIENCE
-    # The lock is taken just before the kernel's warm-up and the first task.
-    while time.monotonic() < deadline and not (out / store.LOCK_FILE).exists():
-        time.sleep(0.01)
-    time.sleep(1.0)
-    proc.send_signal(signal.SIGINT)
-    time.sleep(0.5)
-    proc.send_signal(signal.SIGINT)
-    stdout, stderr = proc.communicate(timeout=PATIENCE)
-    assert proc.returncode == 130, stderr
-    assert "Traceback" not in stderr and "Exception ignored" not in stderr, stderr
-    assert "Ctrl-C again stops at once" in stderr, stderr
-    assert "rerun" in stdout.lower(), stdout
-    assert len(store.done_tasks(out)) == 0
-    assert not (out / store.LOCK_FILE).exists()
 
 
 def test_aggregate_only_store_keeps_no_walkers(tmp_path: Path) -> None:
@@ -488,9 +268,9 @@ def test_aggregate_only_store_keeps_no_walkers(tmp_path: Path) -> None:
         SMALL_SPEC.replace("[record]", "[record]\nper_walker = false\nfpt_bins = 3000")
     )
     out = tmp_path / "agg.zarr"
-    _run(spec, out)
+    build_store(spec, out, threads=2)
     full = tmp_path / "full.zarr"
-    _run(spec_with_walkers(tmp_path), full)
+    build_store(spec_with_walkers(tmp_path), full, threads=2)
     ds = sweep.open(out)
     assert "first_passage_time" not in ds and "exit_position" not in ds
     assert ds.fpt_histogram.dims == ("point", "wall", "fpt_bin")
@@ -527,69 +307,24 @@ def spec_with_walkers(tmp_path: Path) -> Path:
     return path
 
 
-def test_status_while_another_process_runs(
-    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
-) -> None:
-    slow = slow_spec(tmp_path, dt=2e-5, walkers=60000)
-    out = tmp_path / "s.zarr"
-    proc = subprocess.Popen(
-        [
-            *sweep_command(),
-            "run",
-            str(slow),
-            "--store",
-            str(out),
-            "--threads",
-            "1",
-            "--quiet",
-        ],
-        env=cli_env,
-        stdout=subprocess.DEVNULL,
-        stderr=subprocess.DEVNULL,
-    )
-    try:
-        deadline = time.monotonic() + PATIENCE
-        while time.monotonic() < deadline and len(store.done_tasks(out)) < 1:
-            time.sleep(0.02)
-        status = subprocess.run(
-            [*sweep_command(), "status", str(out)],
-            env=cli_env,
-            capture_output=True,
-            text=True,
-            timeout=PATIENCE,
-        )
-        assert status.returncode == 0, status.stderr
-        assert f"running now: pid {proc.pid}" in status.stdout
-        assert "/24 tasks done" in status.stdout and "24/24" not in status.stdout
-    finally:
-        proc.send_signal(signal.SIGKILL)
-        proc.wait()
-
-
 def test_failing_task_is_named_and_others_are_kept(
     small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
 ) -> None:
     """A task that raises (here: a file squats where its chunk directory must go)."""
     reference = tmp_path / "reference.zarr"
-    _run(small_spec, reference)
+    build_store(small_spec, reference, threads=2)
     out = tmp_path / "s.zarr"
     path = store.prepare(out, make_plan(load_spec(small_spec)))
     blocker = path / "first_passage_time" / "c" / "1"
     blocker.parent.mkdir(parents=True)
     blocker.write_text("not a directory")
-    result = subprocess.run(
-        [*sweep_command(), "run", str(small_spec), "--store", str(out), "--quiet"],
-        env=cli_env,
-        capture_output=True,
-        text=True,
-        timeout=PATIENCE,
-    )
+    result = run_cli("run", str(small_spec), "--store", str(out), "--quiet")
     assert result.returncode == 1
     assert "6 of 12 tasks failed" in result.stderr
     assert "point 1, chunk 0:" in result.stderr and "Traceback" not in result.stderr
     assert store.done_tasks(out) == {(0, c) for c in range(6)}
     blocker.unlink()
-    _run(small_spec, out)
+    build_store(small_spec, out, threads=2)
     assert_stores_identical(reference, out)
 
 
@@ -605,7 +340,7 @@ def test_empty_lock_is_explained_and_taken_over(
     old = time.time() - 60
     os.utime(lock, (old, old))
     with caplog.at_level("WARNING"):
-        _run(small_spec, out)
+        build_store(small_spec, out, threads=2)
     assert "empty or unreadable" in caplog.text and "taken over" in caplog.text
     assert not lock.exists()
 

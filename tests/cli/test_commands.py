@@ -1,48 +1,19 @@
-"""The `sweep` command's own surface: version, help, where the store is, what a run
-warns about and shows, an unreachable scheduler, the test session's speed cache."""
+"""The `sweep` commands end to end: run and status, where the store is, what a run
+warns about and shows, an unreachable scheduler, the test session's speed cache.
+"""
 
 from __future__ import annotations
 
-import os
-import subprocess
+import re
 from pathlib import Path
 
-from sweep.cli import build_parser
-from tests.conftest import PATIENCE, SMALL_SPEC, sweep_command
-
-
-def _cli(
-    *args: str, cwd: Path | None = None, **env: str
-) -> subprocess.CompletedProcess[str]:
-    return subprocess.run(
-        [*sweep_command(), *args],
-        capture_output=True,
-        text=True,
-        timeout=PATIENCE,
-        cwd=cwd,
-        env={**os.environ, "PYTHONUNBUFFERED": "1", **env},
-    )
-
-
-def test_version() -> None:
-    result = _cli("--version")
-    assert result.returncode == 0 and result.stdout.startswith("sweep "), result
-
-
-def test_every_positional_has_help_and_definitions_are_called_so() -> None:
-    parser = build_parser()
-    commands = next(a for a in parser._actions if a.dest == "command")
-    for name, sub in commands.choices.items():  # type: ignore[union-attr]
-        for action in sub._actions:
-            if not action.option_strings:
-                assert action.help, (name, action.dest)
-                assert action.dest != "spec", name  # the README says "definition"
+from tests.conftest import SMALL_SPEC, run_cli
 
 
 def test_status_of_a_definition_file_says_what_to_pass(tmp_path: Path) -> None:
     spec = tmp_path / "base.toml"
     spec.write_text(SMALL_SPEC)
-    result = _cli("status", str(spec))
+    result = run_cli("status", str(spec))
     assert result.returncode == 2
     assert "--store" not in result.stderr, result.stderr
     assert "sweep definition" in result.stderr and "base.zarr" in result.stderr
@@ -63,7 +34,7 @@ def test_run_says_where_the_store_is_warns_and_shows_censoring(tmp_path: Path) -
     )
     elsewhere = tmp_path / "elsewhere"
     elsewhere.mkdir()
-    result = _cli("run", str(spec), "--threads", "2", "--quiet", cwd=elsewhere)
+    result = run_cli("run", str(spec), "--threads", "2", "--quiet", cwd=elsewhere)
     assert result.returncode == 0, result.stderr
     lines = result.stdout.splitlines()
     store = elsewhere / "coarse.zarr"
@@ -85,7 +56,7 @@ def test_unreachable_scheduler_creates_nothing(tmp_path: Path) -> None:
     spec = tmp_path / "s.toml"
     spec.write_text(SMALL_SPEC)
     store = tmp_path / "s.zarr"
-    result = _cli(
+    result = run_cli(
         "run",
         str(spec),
         "--store",
@@ -115,7 +86,7 @@ def test_cold_kernel_cache_is_announced_and_elapsed_counts_from_start(
     the progress line's elapsed time includes the compilation."""
     spec = tmp_path / "s.toml"
     spec.write_text(SMALL_SPEC.replace("walkers = 3000", "walkers = 1000"))
-    result = _cli(
+    result = run_cli(
         "run",
         str(spec),
         "--store",
@@ -140,9 +111,34 @@ def test_run_log_counts_completed_tasks_from_the_markers(tmp_path: Path) -> None
     spec = tmp_path / "s.toml"
     spec.write_text(SMALL_SPEC)
     out = tmp_path / "s.zarr"
-    assert _cli("run", str(spec), "--store", str(out), "--quiet").returncode == 0
+    assert run_cli("run", str(spec), "--store", str(out), "--quiet").returncode == 0
     for marker in sorted((out / store.MARKER_DIR).iterdir())[:5]:
         marker.unlink()
-    assert _cli("run", str(spec), "--store", str(out), "--quiet").returncode == 0
+    assert run_cli("run", str(spec), "--store", str(out), "--quiet").returncode == 0
     end = (out / "_runs.log").read_text().splitlines()[-1]
     assert "end: 12 of 12 tasks done (5 in this run)" in end, end
+
+
+def test_cli_run_and_status(
+    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
+) -> None:
+    out = tmp_path / "s.zarr"
+    result = run_cli("run", str(small_spec), "--store", str(out), "--threads", "2")
+    assert result.returncode == 0, result.stderr
+    assert "12/12 tasks done" in result.stdout
+    assert re.search(r"all \d+ checks passed", result.stdout), result.stdout
+    status = run_cli("status", str(out))
+    assert status.returncode == 0, status.stderr
+    assert "6/6" in status.stdout and "12/12 tasks done" in status.stdout
+
+
+def test_cli_bad_definition_exits_2(tmp_path: Path, cli_env: dict[str, str]) -> None:
+    bad = tmp_path / "bad.toml"
+    bad.write_text(SMALL_SPEC.replace("diffusivity = 0.5", "difusivity = 0.5"))
+    result = run_cli("run", str(bad), "--store", str(tmp_path / "x.zarr"))
+    assert result.returncode == 2
+    assert (
+        "bad.toml" in result.stderr and "Did you mean 'diffusivity'?" in result.stderr
+    )
+    assert "Traceback" not in result.stderr
+    assert not (tmp_path / "x.zarr").exists()
