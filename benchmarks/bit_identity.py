@@ -12,8 +12,9 @@ every commit::
     PYTHONPATH=. python benchmarks/bit_identity.py            # against main
     PYTHONPATH=. python benchmarks/bit_identity.py --ref HEAD~1
 
-The revision's ``kernels/walkers.py`` is written to a cache directory keyed by its
-content (so numba's on-disk cache of it survives between runs) and imported from there.
+The revision's ``kernels`` package (walkers.py with its generated loops, generator and
+helpers) is written to a cache directory keyed by its content (so numba's on-disk cache
+of it survives between runs) and imported from there under a name of its own.
 Both kernels get inputs made by this checkout's ``kernels.inputs``; a revision before
 the named inputs (a 31-argument ``simulate``) gets them field by field. A change of the
 random streams is not a refactor: it fails here by design, and a revision of another
@@ -25,10 +26,11 @@ from __future__ import annotations
 
 import argparse
 import hashlib
-import importlib.util
+import importlib
 import inspect
 import itertools
 import math
+import re
 import subprocess
 import sys
 import tempfile
@@ -47,24 +49,52 @@ ROOT = Path(__file__).resolve().parent.parent
 N_WALKERS = 150
 
 
-def reference_module(ref: str) -> ModuleType:
-    """Import ``kernels/walkers.py`` as of git revision ``ref``."""
-    source = subprocess.run(
-        ["git", "show", f"{ref}:kernels/walkers.py"],
+#: Import lines that name the kernels package (rewritten to the revision's own copy).
+_KERNELS_IMPORT = re.compile(r"^(\s*)(from|import) kernels\b", re.MULTILINE)
+
+
+def _git_show(ref: str, path: str) -> str:
+    return subprocess.run(
+        ["git", "show", f"{ref}:{path}"],
         cwd=ROOT, capture_output=True, text=True, check=True,
     ).stdout  # fmt: skip
-    digest = hashlib.sha256(source.encode()).hexdigest()[:16]
-    folder = Path(tempfile.gettempdir()) / "brownian-sweep-bit-identity" / digest
+
+
+def reference_module(ref: str) -> ModuleType:
+    """Import ``kernels/walkers.py`` as of git revision ``ref``, with the rest of that
+    revision's ``kernels`` package (its generated loops, generator and helpers).
+
+    The revision's package is copied to a cache directory keyed by its content (so
+    numba's on-disk cache of it survives between runs) under a package name of its
+    own, ``kernels_<digest>``, its imports of ``kernels`` rewritten to that name: a
+    plain import of the old walkers.py alone would run this checkout's loops
+    (``from kernels import _loops``), comparing the checkout with itself.
+    """
+    names = subprocess.run(
+        ["git", "ls-tree", "--name-only", f"{ref}:kernels"],
+        cwd=ROOT, capture_output=True, text=True, check=True,
+    ).stdout.split()  # fmt: skip
+    sources = {
+        name: _git_show(ref, f"kernels/{name}")
+        for name in names
+        if name.endswith(".py")
+    }
+    h = hashlib.sha256()
+    for name in sorted(sources):
+        h.update(name.encode() + b"\0" + sources[name].encode() + b"\0")
+    digest = h.hexdigest()[:16]
+    package = f"kernels_{digest}"
+    root = Path(tempfile.gettempdir()) / "brownian-sweep-bit-identity" / digest
+    folder = root / package
     folder.mkdir(parents=True, exist_ok=True)
-    path = folder / f"walkers_{digest}.py"
-    if not path.exists():
-        path.write_text(source)
-    spec = importlib.util.spec_from_file_location(f"walkers_{digest}", path)
-    assert spec is not None and spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = module
-    spec.loader.exec_module(module)
-    return module
+    for name, text in sources.items():
+        path = folder / name
+        text = _KERNELS_IMPORT.sub(rf"\1\2 {package}", text)
+        if not path.exists() or path.read_text() != text:
+            path.write_text(text)
+    if str(root) not in sys.path:
+        sys.path.insert(0, str(root))
+    return importlib.import_module(f"{package}.walkers")
 
 
 def configurations() -> list[dict[str, Any]]:
@@ -96,6 +126,16 @@ def configurations() -> list[dict[str, Any]]:
                 survival_times=[0.01, 0.05, 0.1, 0.2], fpt_bins=4 if drift else 0,
                 fpt_bin_width=0.1,
             ))  # fmt: skip
+    # Narrow boxes whose steps (sigma about a box width) often overshoot a face's
+    # mirror image past the opposite face: the fold's rare path.
+    for bridge, faces in itertools.product((True, False), ("AR", "RR")):
+        configs.append(dict(
+            lower=[0.0, 0.0, 0.0], upper=[0.05, 0.3, 1.0],
+            absorbing_lower=[faces[0] == "A", False, True],
+            absorbing_upper=[faces[1] == "A", False, False],
+            start=[0.02, 0.1, 0.5], drift=[3.0, -2.0, 0.0], diffusivity=1.0, dt=1e-3,
+            n_steps=60, bridge=bridge, survival_times=[0.01, 0.05],
+        ))  # fmt: skip
     # Boxes with targets (one, two, seventy), absorbing or reflecting faces, uniform
     # starts, occupancy snapshots (step 0 and repeated steps).
     for d, n_targets, faces, bridge, uniform in itertools.product(

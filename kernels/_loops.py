@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator, kernels/walkers.py and rng.py: 2cece2cb0fdd4335ba39fda976563784
+Digest of template, generator, kernels/walkers.py and rng.py: 4b9081916b2a422dc5708e11ceb02ad0
 """
 
 # ruff: noqa
@@ -16,6 +16,7 @@ from kernels.walkers import (
     BRIDGE_CUTOFF,
     REACH,
     SURFACE_MARGIN,
+    _band,
     _cell_next,
     _crossing,
     _earliest,
@@ -73,6 +74,9 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -113,6 +117,7 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -139,14 +144,31 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
@@ -280,6 +302,9 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -300,6 +325,9 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -341,6 +369,7 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 x[i] = motion.start[i]
         x0 = x[0]
         x1 = x[1]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -369,16 +398,36 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
@@ -542,6 +591,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -562,6 +614,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -582,6 +637,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -624,6 +682,7 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         x0 = x[0]
         x1 = x[1]
         x2 = x[2]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -654,18 +713,41 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
@@ -859,6 +941,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -879,6 +964,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -899,6 +987,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -919,6 +1010,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -962,6 +1056,7 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         x1 = x[1]
         x2 = x[2]
         x3 = x[3]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -994,20 +1089,46 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
@@ -1231,6 +1352,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -1251,6 +1375,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -1271,6 +1398,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -1291,6 +1421,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -1311,6 +1444,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -1355,6 +1491,7 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         x2 = x[2]
         x3 = x[3]
         x4 = x[4]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1389,22 +1526,51 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
@@ -1658,6 +1824,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -1678,6 +1847,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -1698,6 +1870,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -1718,6 +1893,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -1738,6 +1916,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -1758,6 +1939,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -1803,6 +1987,7 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         x3 = x[3]
         x4 = x[4]
         x5 = x[5]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1839,24 +2024,56 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
@@ -2140,6 +2357,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -2160,6 +2380,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -2180,6 +2403,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -2200,6 +2426,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -2220,6 +2449,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -2240,6 +2472,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -2260,6 +2495,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -2306,6 +2544,7 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         x4 = x[4]
         x5 = x[5]
         x6 = x[6]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -2344,26 +2583,61 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
@@ -2677,6 +2951,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -2697,6 +2974,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -2717,6 +2997,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -2737,6 +3020,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -2757,6 +3043,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -2777,6 +3066,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -2797,6 +3089,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -2817,6 +3112,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     else:
         rh7 = upper[7]
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -2864,6 +3162,7 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         x5 = x[5]
         x6 = x[6]
         x7 = x[7]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -2904,28 +3203,66 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
-                if y7 < rl7 or y7 > rh7:
-                    y7 = _fold(y7, rl7, rh7)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = True
+                faces = near
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
@@ -3269,6 +3606,9 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -3309,6 +3649,7 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3335,14 +3676,31 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    if not (((rl0 <= c0) & (c0 <= rh0))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                    y0 = c0
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = (min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ))
                     if p <= cut:
@@ -3529,6 +3887,9 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -3549,6 +3910,9 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -3590,6 +3954,7 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 x[i] = motion.start[i]
         x0 = x[0]
         x1 = x[1]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3618,16 +3983,36 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                    y0 = c0
+                    y1 = c1
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ))
                     if p <= cut:
@@ -3844,6 +4229,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -3864,6 +4252,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -3884,6 +4275,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -3926,6 +4320,7 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         x0 = x[0]
         x1 = x[1]
         x2 = x[2]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3956,18 +4351,41 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ))
                     if p <= cut:
@@ -4214,6 +4632,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -4234,6 +4655,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -4254,6 +4678,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -4274,6 +4701,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -4317,6 +4747,7 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         x1 = x[1]
         x2 = x[2]
         x3 = x[3]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4349,20 +4780,46 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ))
                     if p <= cut:
@@ -4639,6 +5096,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -4659,6 +5119,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -4679,6 +5142,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -4699,6 +5165,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -4719,6 +5188,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -4763,6 +5235,7 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         x2 = x[2]
         x3 = x[3]
         x4 = x[4]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4797,22 +5270,51 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ))
                     if p <= cut:
@@ -5119,6 +5621,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -5139,6 +5644,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -5159,6 +5667,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -5179,6 +5690,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -5199,6 +5713,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -5219,6 +5736,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -5264,6 +5784,7 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         x3 = x[3]
         x4 = x[4]
         x5 = x[5]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -5300,24 +5821,56 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ))
                     if p <= cut:
@@ -5654,6 +6207,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -5674,6 +6230,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -5694,6 +6253,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -5714,6 +6276,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -5734,6 +6299,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -5754,6 +6322,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -5774,6 +6345,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -5820,6 +6394,7 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         x4 = x[4]
         x5 = x[5]
         x6 = x[6]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -5858,26 +6433,61 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ))
                     if p <= cut:
@@ -6244,6 +6854,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh0 = upper[0]
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -6264,6 +6877,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh1 = upper[1]
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -6284,6 +6900,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh2 = upper[2]
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -6304,6 +6923,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh3 = upper[3]
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -6324,6 +6946,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh4 = upper[4]
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -6344,6 +6969,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh5 = upper[5]
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -6364,6 +6992,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh6 = upper[6]
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -6384,6 +7015,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     else:
         rh7 = upper[7]
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -6431,6 +7065,7 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         x5 = x[5]
         x6 = x[6]
         x7 = x[7]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6471,28 +7106,66 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                if y0 < rl0 or y0 > rh0:
-                    y0 = _fold(y0, rl0, rh0)
-                if y1 < rl1 or y1 > rh1:
-                    y1 = _fold(y1, rl1, rh1)
-                if y2 < rl2 or y2 > rh2:
-                    y2 = _fold(y2, rl2, rh2)
-                if y3 < rl3 or y3 > rh3:
-                    y3 = _fold(y3, rl3, rh3)
-                if y4 < rl4 or y4 > rh4:
-                    y4 = _fold(y4, rl4, rh4)
-                if y5 < rl5 or y5 > rh5:
-                    y5 = _fold(y5, rl5, rh5)
-                if y6 < rl6 or y6 > rh6:
-                    y6 = _fold(y6, rl6, rh6)
-                if y7 < rl7 or y7 > rh7:
-                    y7 = _fold(y7, rl7, rh7)
+                # Box faces matter only to a step that starts or ends outside
+                # the band; the common step skips the folds and face products,
+                # whose outcome (nothing) is known there. x_inside: the next
+                # step's start (this step's end, after any fold).
+                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                near = not (x_inside & y_inside)
+                x_inside = y_inside
+                if near:
+                    # The mirror image in the face crossed, as _fold makes it,
+                    # chosen without a branch per axis (a walker near a face
+                    # folds at random steps: branches mispredict); _fold itself
+                    # only for a step whose image overshoots the opposite face.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    c0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    c1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    c2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    c3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    c4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    c5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    c6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    c7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    if not (((rl0 <= c0) & (c0 <= rh0)) & ((rl1 <= c1) & (c1 <= rh1)) & ((rl2 <= c2) & (c2 <= rh2)) & ((rl3 <= c3) & (c3 <= rh3)) & ((rl4 <= c4) & (c4 <= rh4)) & ((rl5 <= c5) & (c5 <= rh5)) & ((rl6 <= c6) & (c6 <= rh6)) & ((rl7 <= c7) & (c7 <= rh7))):
+                        if y0 < rl0 or y0 > rh0:
+                            c0 = _fold(y0, rl0, rh0)
+                        if y1 < rl1 or y1 > rh1:
+                            c1 = _fold(y1, rl1, rh1)
+                        if y2 < rl2 or y2 > rh2:
+                            c2 = _fold(y2, rl2, rh2)
+                        if y3 < rl3 or y3 > rh3:
+                            c3 = _fold(y3, rl3, rh3)
+                        if y4 < rl4 or y4 > rh4:
+                            c4 = _fold(y4, rl4, rh4)
+                        if y5 < rl5 or y5 > rh5:
+                            c5 = _fold(y5, rl5, rh5)
+                        if y6 < rl6 or y6 > rh6:
+                            c6 = _fold(y6, rl6, rh6)
+                        if y7 < rl7 or y7 > rh7:
+                            c7 = _fold(y7, rl7, rh7)
+                    y0 = c0
+                    y1 = c1
+                    y2 = c2
+                    y3 = c3
+                    y4 = c4
+                    y5 = c5
+                    y6 = c6
+                    y7 = c7
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # Absorbing box faces: one branch per step on the smallest
                 # product, then each face, axis by axis, lower first.
-                faces = absorbing_faces
+                faces = near and absorbing_faces
                 if faces:
                     p = min(min( (x0 - al0) * (y0 - al0), (x0 - ah0) * (y0 - ah0) ), min( (x1 - al1) * (y1 - al1), (x1 - ah1) * (y1 - ah1) ), min( (x2 - al2) * (y2 - al2), (x2 - ah2) * (y2 - ah2) ), min( (x3 - al3) * (y3 - al3), (x3 - ah3) * (y3 - ah3) ), min( (x4 - al4) * (y4 - al4), (x4 - ah4) * (y4 - ah4) ), min( (x5 - al5) * (y5 - al5), (x5 - ah5) * (y5 - ah5) ), min( (x6 - al6) * (y6 - al6), (x6 - ah6) * (y6 - ah6) ), min( (x7 - al7) * (y7 - al7), (x7 - ah7) * (y7 - ah7) ))
                     if p <= cut:
@@ -6881,6 +7554,9 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -6893,6 +7569,9 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -6934,6 +7613,7 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                 x[i] = motion.start[i]
         x0 = x[0]
         x1 = x[1]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7184,6 +7864,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -7196,6 +7879,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -7208,6 +7894,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -7250,6 +7939,7 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         x0 = x[0]
         x1 = x[1]
         x2 = x[2]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7522,6 +8212,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -7534,6 +8227,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -7546,6 +8242,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -7558,6 +8257,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -7601,6 +8303,7 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         x1 = x[1]
         x2 = x[2]
         x3 = x[3]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7895,6 +8598,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -7907,6 +8613,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -7919,6 +8628,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -7931,6 +8643,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -7943,6 +8658,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -7987,6 +8705,7 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         x2 = x[2]
         x3 = x[3]
         x4 = x[4]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8303,6 +9022,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -8315,6 +9037,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -8327,6 +9052,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -8339,6 +9067,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -8351,6 +9082,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -8363,6 +9097,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     al5 = -math.inf
     ah5 = math.inf
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -8408,6 +9145,7 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         x3 = x[3]
         x4 = x[4]
         x5 = x[5]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8746,6 +9484,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -8758,6 +9499,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -8770,6 +9514,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -8782,6 +9529,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -8794,6 +9544,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -8806,6 +9559,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al5 = -math.inf
     ah5 = math.inf
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -8818,6 +9574,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     al6 = -math.inf
     ah6 = math.inf
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -8864,6 +9623,7 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         x4 = x[4]
         x5 = x[5]
         x6 = x[6]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -9224,6 +9984,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al0 = -math.inf
     ah0 = math.inf
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo0, bhi0 = _band(rl0, rh0, al0, ah0, cut)
     ol0 = recording.occupancy_lower[0]
     oh0 = recording.occupancy_upper[0]
     bc0 = ball_center[0]
@@ -9236,6 +9999,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al1 = -math.inf
     ah1 = math.inf
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo1, bhi1 = _band(rl1, rh1, al1, ah1, cut)
     ol1 = recording.occupancy_lower[1]
     oh1 = recording.occupancy_upper[1]
     bc1 = ball_center[1]
@@ -9248,6 +10014,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al2 = -math.inf
     ah2 = math.inf
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo2, bhi2 = _band(rl2, rh2, al2, ah2, cut)
     ol2 = recording.occupancy_lower[2]
     oh2 = recording.occupancy_upper[2]
     bc2 = ball_center[2]
@@ -9260,6 +10029,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al3 = -math.inf
     ah3 = math.inf
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo3, bhi3 = _band(rl3, rh3, al3, ah3, cut)
     ol3 = recording.occupancy_lower[3]
     oh3 = recording.occupancy_upper[3]
     bc3 = ball_center[3]
@@ -9272,6 +10044,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al4 = -math.inf
     ah4 = math.inf
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo4, bhi4 = _band(rl4, rh4, al4, ah4, cut)
     ol4 = recording.occupancy_lower[4]
     oh4 = recording.occupancy_upper[4]
     bc4 = ball_center[4]
@@ -9284,6 +10059,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al5 = -math.inf
     ah5 = math.inf
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo5, bhi5 = _band(rl5, rh5, al5, ah5, cut)
     ol5 = recording.occupancy_lower[5]
     oh5 = recording.occupancy_upper[5]
     bc5 = ball_center[5]
@@ -9296,6 +10074,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al6 = -math.inf
     ah6 = math.inf
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo6, bhi6 = _band(rl6, rh6, al6, ah6, cut)
     ol6 = recording.occupancy_lower[6]
     oh6 = recording.occupancy_upper[6]
     bc6 = ball_center[6]
@@ -9308,6 +10089,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     al7 = -math.inf
     ah7 = math.inf
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
+    # The band of the axis: a step that starts and ends inside it crosses no
+    # reflecting face and comes near no absorbing one (see _band).
+    blo7, bhi7 = _band(rl7, rh7, al7, ah7, cut)
     ol7 = recording.occupancy_lower[7]
     oh7 = recording.occupancy_upper[7]
     bc7 = ball_center[7]
@@ -9355,6 +10139,7 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         x5 = x[5]
         x6 = x[6]
         x7 = x[7]
+        x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
         step = 0

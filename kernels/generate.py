@@ -6,10 +6,10 @@ Run after editing ``kernels/step.py`` or ``kernels/walkers.py``::
 
 ``tests/kernels/test_generated.py`` regenerates the text and fails if the checked-in
 module differs. The rules the template follows are in its docstring: ``for i in AXES``
-unrolled per axis (``name_i`` -> ``name0``, ``name1``, ...), ``sum``/``min``/``tuple``
-of ``E for i in AXES`` written out, ``if static(...)`` decided per kind of domain and
-dimension, every template function emitted once per (kind, dimension) under a suffixed
-name. The generated module's header carries a digest of the template, of this file,
+unrolled per axis (``name_i`` -> ``name0``, ``name1``, ...),
+``sum``/``min``/``all``/``tuple`` of ``E for i in AXES`` written out, ``if static(...)``
+decided per kind of domain and dimension, every template function emitted once per
+(kind, dimension) under a suffixed name. The generated module's header carries a digest of the template, of this file,
 of ``kernels/walkers.py`` and of ``kernels/rng.py``: numba's on-disk cache keys a
 function by its own file only, so an edit of a helper in walkers.py or of the
 generator must change ``_loops.py`` too (the test insists) for the cached loops to be
@@ -33,7 +33,7 @@ KINDS = {"box": 0, "box_targets": 1, "ball": 2}
 DIMENSIONS = range(1, 9)
 #: Names the template imports from kernels/walkers.py.
 HELPERS = (
-    "BRIDGE_CUTOFF", "REACH", "SURFACE_MARGIN", "_cell_next", "_crossing",
+    "BRIDGE_CUTOFF", "REACH", "SURFACE_MARGIN", "_band", "_cell_next", "_crossing",
     "_earliest", "_fold", "_free", "_random_state", "_store_state", "draw_normal",
     "draw_uniform",
 )  # fmt: skip
@@ -41,7 +41,7 @@ HELPERS = (
 _STATIC_IF = re.compile(r"^(\s*)(if|elif) static\((.*)\):\s*$")
 _ELSE = re.compile(r"^(\s*)else:\s*$")
 _FOR_AXES = re.compile(r"^(\s*)for i in AXES:\s*$")
-_FOLD = re.compile(r"\b(sum|min|tuple)\(")
+_FOLD = re.compile(r"\b(sum|min|all|tuple)\(")
 _TAIL = re.compile(r"\s+for i in AXES\s*$")
 
 
@@ -135,7 +135,7 @@ def _unroll(lines: list[str], dim: int) -> list[str]:
 
 
 def _folds(text: str, dim: int) -> str:
-    """Write out ``sum``/``min``/``tuple`` of ``E for i in AXES``."""
+    """Write out ``sum``/``min``/``all``/``tuple`` of ``E for i in AXES``."""
     pos = 0
     while True:
         match = _FOLD.search(text, pos)
@@ -157,6 +157,9 @@ def _folds(text: str, dim: int) -> str:
             new = "(" + " + ".join(parts) + ")"
         elif kind == "min":
             new = f"min({', '.join(parts)})" if dim > 1 else f"({parts[0]})"
+        elif kind == "all":
+            # Booleans joined by &: one branch on the whole, not one per axis.
+            new = "(" + " & ".join(f"({part})" for part in parts) + ")"
         else:
             new = "(" + ", ".join(parts) + ",)"
         text = text[: match.start()] + new + text[end:]

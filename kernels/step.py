@@ -9,9 +9,10 @@ Python with three mechanical rules, so it reads top to bottom as the algorithm:
 
 * ``for i in AXES:`` is unrolled, one copy of its body per axis; in it ``name_i`` is
   the scalar ``name0``, ``name1``, ... and a bare ``i`` the axis number. Outside such
-  a loop, ``sum(E for i in AXES)``, ``min(E for i in AXES)`` and
-  ``tuple(E for i in AXES)`` are written out axis by axis (sums from the first axis
-  on, in order).
+  a loop, ``sum(E for i in AXES)``, ``min(E for i in AXES)``,
+  ``all(E for i in AXES)`` and ``tuple(E for i in AXES)`` are written out axis by axis
+  (sums from the first axis on, in order; ``all`` joins booleans with ``&``, one
+  branch on the whole).
 * ``if static(COND):`` (with an optional ``else:``) is decided when generating, from
   ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``) and ``DIM``: each loop holds only the
   code of its own kind of domain.
@@ -90,6 +91,9 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
             else:
                 rh_i = upper[i]
         absorbing_faces = absorbing_faces or al_i > -math.inf or ah_i < math.inf
+        # The band of the axis: a step that starts and ends inside it crosses no
+        # reflecting face and comes near no absorbing one (see _band).
+        blo_i, bhi_i = _band(rl_i, rh_i, al_i, ah_i, cut)
         ol_i = recording.occupancy_lower[i]
         oh_i = recording.occupancy_upper[i]
         bc_i = ball_center[i]
@@ -134,6 +138,7 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                 x[i] = motion.start[i]
         for i in AXES:
             x_i = x[i]
+        x_inside = all((blo_i <= x_i) & (x_i <= bhi_i) for i in AXES)
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -162,9 +167,28 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     z, rs = draw_normal(rs)
                     y_i = x_i + s_i + sigma * z
                 if static(KIND != BALL):
-                    for i in AXES:
-                        if y_i < rl_i or y_i > rh_i:
-                            y_i = _fold(y_i, rl_i, rh_i)
+                    # Box faces matter only to a step that starts or ends outside
+                    # the band; the common step skips the folds and face products,
+                    # whose outcome (nothing) is known there. x_inside: the next
+                    # step's start (this step's end, after any fold).
+                    y_inside = all((blo_i <= y_i) & (y_i <= bhi_i) for i in AXES)
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
+                    if near:
+                        # The mirror image in the face crossed, as _fold makes it,
+                        # chosen without a branch per axis (a walker near a face
+                        # folds at random steps: branches mispredict); _fold itself
+                        # only for a step whose image overshoots the opposite face.
+                        for i in AXES:
+                            c_i = 2.0 * rl_i - y_i if y_i < rl_i else y_i
+                            c_i = 2.0 * rh_i - y_i if y_i > rh_i else c_i
+                        if not all((rl_i <= c_i) & (c_i <= rh_i) for i in AXES):
+                            for i in AXES:
+                                if y_i < rl_i or y_i > rh_i:
+                                    c_i = _fold(y_i, rl_i, rh_i)
+                        for i in AXES:
+                            y_i = c_i
+                        x_inside = all((blo_i <= y_i) & (y_i <= bhi_i) for i in AXES)
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -172,9 +196,9 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     # Absorbing box faces: one branch per step on the smallest
                     # product, then each face, axis by axis, lower first.
                     if static(KIND == BOX):
-                        faces = True
+                        faces = near
                     else:
-                        faces = absorbing_faces
+                        faces = near and absorbing_faces
                     if faces:
                         p = min(
                             min(

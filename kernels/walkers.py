@@ -331,6 +331,36 @@ def _fold(y, lo, hi):  # type: ignore[no-untyped-def]
 
 
 @njit(nogil=True, cache=True)
+def _band(rl, rh, al, ah, cut):  # type: ignore[no-untyped-def]
+    """(lo, hi): the band of one axis where a step changes nothing at its box faces.
+
+    ``rl``, ``rh`` are the axis' reflecting faces and ``al``, ``ah`` its absorbing ones
+    (absent ones at -+inf), ``cut`` the step loop's product cut. For a step whose start
+    x and end y both lie in [lo, hi], the loop's face tests are known to fail, so it
+    may skip them: y is not folded (rl <= lo, hi <= rh), and each absorbing face's
+    product, computed as the loop computes it, exceeds the cut. For the lower face:
+    rounding is monotonic, so x, y >= lo give fl(x - al) and fl(y - al) >= q =
+    fl(lo - al) > 0 and fl(fl(x - al) fl(y - al)) >= fl(q q) > cut, which ``lo`` is
+    chosen to satisfy; the upper face likewise, with both factors <= fl(hi - ah) < 0.
+    Exact, whatever the rounding: skipping the tests gives the same bits. An empty
+    band (lo > hi) makes every step take the tests.
+    """
+    lo = rl
+    if al > -math.inf:
+        b = al + max(math.sqrt(cut) * (1.0 + 1e-9), 1e-150)
+        while not (b - al > 0.0 and (b - al) * (b - al) > cut):
+            b = np.nextafter(b, math.inf)
+        lo = max(lo, b)
+    hi = rh
+    if ah < math.inf:
+        b = ah - max(math.sqrt(cut) * (1.0 + 1e-9), 1e-150)
+        while not (b - ah < 0.0 and (b - ah) * (b - ah) > cut):
+            b = np.nextafter(b, -math.inf)
+        hi = min(hi, b)
+    return lo, hi
+
+
+@njit(nogil=True, cache=True)
 def _crossing(rs, d1, d2, kill_scale, diffusivity, dt, bridge):  # type: ignore[no-untyped-def]
     """(Step fraction at which a face was first touched, or 2.0 when it was not;
     state).

@@ -26,20 +26,9 @@ from sweep.errors import StoreError
 #: default chunk cache holds.
 HDF5_CHUNK_ELEMENTS = 1 << 17
 
-#: Variables exported by default (all data variables of the opened Dataset).
-DEFAULT_VARIABLES = (
-    "first_passage_time",
-    "absorbing_wall",
-    "exit_position",
-    "survival",
-    "survival_count",
-    "occupancy",
-    "snapshot_time",
-    "occupancy_lower",
-    "occupancy_upper",
-    "done",
-    "walkers_done",
-)
+#: Variables exported by default: those the store's layout table marks as exported,
+#: then the markers' ``done`` and ``walkers_done`` (see docs/store-format.md).
+DEFAULT_VARIABLES = store.exported_variables()
 
 
 def export_hdf5(
@@ -163,9 +152,9 @@ def _write_variable(
     chunks = None
     if hasattr(data, "chunks") and data.chunks is not None and var.ndim:
         chunks = tuple(max(1, min(c[0], HDF5_CHUNK_ELEMENTS)) for c in data.chunks)
-    fill = (
-        np.nan if var.dtype.kind == "f" else (-1 if name == "absorbing_wall" else None)
-    )
+    # Floats read NaN where nothing was written; a masked integer array (the wall
+    # index) its store fill value.
+    fill = np.nan if var.dtype.kind == "f" else store.read_fill(name)
     dset = h5.create_dataset(
         name,
         shape=var.shape,

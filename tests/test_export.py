@@ -1,4 +1,5 @@
-"""HDF5 export: exact round trip, dimension scales, provenance, subsets."""
+"""HDF5 export: exact round trip, dimension scales, provenance, subsets; bad options
+and destinations get one clear message and leave the store as it was."""
 
 from __future__ import annotations
 
@@ -11,15 +12,90 @@ import pytest
 
 import sweep
 from sweep.errors import StoreError
-from sweep.execute import RunOptions, run
 from sweep.export import export_hdf5
+from tests.cli_cases import (
+    Case,
+    case_test,
+    copy_store,
+    outcomes,  # noqa: F401  (a fixture)
+    read_only_dir,
+    reference_store,  # noqa: F401  (a fixture)
+    workspace,  # noqa: F401  (a fixture)
+)
+
+#: The message argparse prints for bad options of `sweep export`.
+ARGPARSE_EXPORT_ERROR = "sweep export: error:"
+
+CASES: list[Case] = [
+    Case(
+        id="export-points-not-indices",
+        argv=("export", "{ws}/s.zarr", "{ws}/out.h5", "--points", "0,x"),
+        expect=("--points", "0,3,5-9", "'0,x'"),
+        setup=(copy_store(),),
+        store="s.zarr",
+        absent="out.h5",
+        prefix=ARGPARSE_EXPORT_ERROR,
+    ),
+    Case(
+        id="export-points-out-of-range",
+        argv=("export", "{ws}/s.zarr", "{ws}/out.h5", "--points", "0,9"),
+        expect=("{ws}/s.zarr", "--points [9] out of range", "points 0 to 1"),
+        setup=(copy_store(),),
+        store="s.zarr",
+        absent="out.h5",
+    ),
+    Case(
+        id="export-points-range-backwards",
+        argv=("export", "{ws}/s.zarr", "{ws}/out.h5", "--points", "1-0"),
+        expect=("--points", "'1-0'"),
+        setup=(copy_store(),),
+        store="s.zarr",
+        absent="out.h5",
+        prefix=ARGPARSE_EXPORT_ERROR,
+    ),
+    Case(
+        id="export-unknown-variable",
+        argv=("export", "{ws}/s.zarr", "{ws}/out.h5", "--variables", "survival,fpt"),
+        expect=("{ws}/s.zarr", "no variable 'fpt'", "the store has first_passage_time"),
+        setup=(copy_store(),),
+        store="s.zarr",
+        absent="out.h5",
+    ),
+    Case(
+        id="export-into-missing-directory",
+        argv=("export", "{ws}/s.zarr", "{ws}/no/out.h5"),
+        expect=("{ws}/no/out.h5", "cannot write the HDF5 export", "does not exist"),
+        setup=(copy_store(),),
+        store="s.zarr",
+        absent="no",
+    ),
+    Case(
+        id="export-onto-the-store-itself",
+        argv=("export", "{ws}/s.zarr", "{ws}/s.zarr"),
+        expect=("{ws}/s.zarr", "already exists", "--replace"),
+        setup=(copy_store(),),
+        store="s.zarr",
+    ),
+    Case(
+        id="export-replacing-the-store-itself",
+        argv=("export", "{ws}/s.zarr", "{ws}/s.zarr", "--replace"),
+        expect=("{ws}/s.zarr", "cannot write the HDF5 export"),
+        setup=(copy_store(),),
+        store="s.zarr",
+    ),
+    Case(
+        id="export-into-read-only-directory",
+        argv=("export", "{ws}/s.zarr", "{ws}/ro/out.h5"),
+        expect=("{ws}/ro/out.h5", "read-only file system"),
+        setup=(copy_store(), read_only_dir("ro")),
+        store="s.zarr",
+    ),
+]
 
 
-@pytest.fixture
-def small_store(small_spec: Path, tmp_path: Path) -> Path:
-    out = tmp_path / "s.zarr"
-    assert run(small_spec, out, RunOptions(threads=2, progress=False)).complete
-    return out
+test_bad_export_options_and_destinations = case_test(
+    CASES, "Bad export options and destinations leave the store as it was."
+)
 
 
 def test_export_round_trip_is_exact(small_store: Path, tmp_path: Path) -> None:

@@ -207,7 +207,7 @@ def test_changes_that_do_not_only_add_work_are_refused(
         run(spec, store, RunOptions(threads=1, progress=False))
     message = str(err.value)
     assert expect in message, message
-    assert "Use another --store path" in message
+    assert "store path for the new definition" in message
     after = {p: p.read_bytes() for p in store.rglob("*") if p.is_file()}
     assert before == after
 

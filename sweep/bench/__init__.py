@@ -18,8 +18,8 @@ One-core rates are timed in the measuring thread's CPU time (:data:`_cpu`), and 
 the fastest of its runs: on a shared machine other jobs only ever slow a run down, so
 the fastest run of each is the least disturbed, and the ratios are taken between those
 (the common practice of timing benchmarks by their best run). Two threads are compared with one for the
-parallel speed-up the same way, a ``sweep run --threads 1`` with the kernel's bench
-rate (:func:`end_to_end`), and the first call of each compiled variant is timed in a
+parallel speed-up the same way, a ``sweep run --threads 1`` with its own kernel calls
+in the same run and with the kernel's bench rate (:func:`end_to_end`), and the first call of each compiled variant is timed in a
 fresh process with an empty cache (:func:`compile_times`). Rows that miss their target
 in the first pass are measured again at the end, in a later stretch of the machine's
 load (:data:`REMEASURE`).

@@ -109,6 +109,10 @@ class RunSummary:
         Walker-steps (spheres: moves) simulated by this run.
     seconds : float
         Wall-clock time of the tasks, s.
+    kernel_seconds : float
+        CPU time the completed tasks spent in the kernel, s (each task's own thread,
+        summed): the rest of the run's CPU time went to zarr, Dask and bookkeeping
+        (``sweep bench`` compares the two within one run).
     interrupted : bool
         The run was stopped (Ctrl-C, SIGTERM) before every task ran.
     """
@@ -122,6 +126,7 @@ class RunSummary:
     storage_full: bool = False
     walker_steps: int = 0
     seconds: float = 0.0
+    kernel_seconds: float = 0.0
     interrupted: bool = False
     #: Tasks still running in this process's threads when a second Ctrl-C asked to
     #: stop at once: their work is lost (the store is intact). The caller should exit

@@ -44,8 +44,8 @@ def run_task(
     Returns
     -------
     dict
-        ``{"point", "chunk", "walkers", "steps", "seconds", "censored", "host", "pid"}``
-        on success, ``{"point", "chunk", "error", "errno"}`` on failure, or
+        ``{"point", "chunk", "walkers", "steps", "seconds", "cpu_seconds",
+        "censored", "absorbed_by", "host", "pid", "thread"}`` on success, ``{"point", "chunk", "error", "errno"}`` on failure, or
         ``{"point", "chunk", "skipped": True}`` when the run is stopping.
     """
     if stop is not None and stop.is_set():
@@ -54,13 +54,16 @@ def run_task(
         # Before the work too: a queued task of a dead driver stops at once.
         store.check_store_id(Path(store_path), store_id, task)
         start = time.perf_counter()
+        cpu = time.thread_time()
         output, steps = simulate_task(task)
+        cpu = time.thread_time() - cpu
         summary = {
             "point": task.point,
             "chunk": task.chunk,
             "walkers": task.n_walkers,
             "steps": steps,
             "seconds": round(time.perf_counter() - start, 6),
+            "cpu_seconds": round(cpu, 6),  # the kernel's thread alone
             "censored": int(np.count_nonzero(output.wall < 0)),
             "absorbed_by": np.bincount(output.wall[output.wall >= 0]).tolist(),
             # For precision targets (sweep.precision): count, mean and squared
@@ -101,6 +104,7 @@ def record(
     else:
         summary.completed += 1
         summary.walker_steps += int(result["steps"])
+        summary.kernel_seconds += float(result.get("cpu_seconds", 0.0))
     progress.update(result)
 
 

@@ -27,7 +27,14 @@ from numba import njit
 from numpy.typing import NDArray
 from scipy import special, stats
 
-from kernels.walkers import BOX, _hit_fraction, _normal, _random_state, draw_normals
+from kernels.walkers import (
+    BOX,
+    _band,
+    _hit_fraction,
+    _normal,
+    _random_state,
+    draw_normals,
+)
 from tests.kernels.reference import simulate_reference
 from tests.kernels.runner import (
     Domain,
@@ -818,3 +825,39 @@ def test_narrow_reflecting_box_huge_steps_keeps_walkers_inside(box: Domain) -> N
             stats.kstest(result.final[:, axis], law.cdf).pvalue,
             box,
         )
+
+
+def test_band_is_where_every_face_test_fails() -> None:
+    # The step loop skips its box-face tests for steps that start and end inside
+    # _band's [lo, hi]; that is exact only if each test, computed as the loop computes
+    # it, fails for every such step: no fold (rl <= y <= rh) and every absorbing
+    # face's product above the cut. Checked at the band's ends (the worst case) and
+    # inside, for faces near 0, far from 0 (coarse doubles) and absent.
+    rng = np.random.default_rng(3)
+    inf = math.inf
+    checked = 0
+    for _ in range(400):
+        a = rng.choice([0.0, -1.7, 1e9 * rng.uniform(), 3e-300]) + rng.uniform(-1, 1)
+        width = rng.choice([1e-3, 1.0, 50.0]) * rng.uniform(0.5, 2.0)
+        cut = rng.choice([0.0, 20.0 * rng.uniform(1e-8, 1e-2)])
+        lower_absorbing, upper_absorbing = rng.integers(0, 3, size=2)
+        al, rl = (a, -inf) if lower_absorbing == 1 else (-inf, a)
+        if lower_absorbing == 2:  # no face
+            al, rl = -inf, -inf
+        ah, rh = (a + width, inf) if upper_absorbing == 1 else (inf, a + width)
+        if upper_absorbing == 2:
+            ah, rh = inf, inf
+        lo, hi = _band(rl, rh, al, ah, cut)
+        if not lo <= hi or not (math.isfinite(lo) and math.isfinite(hi)):
+            continue
+        points = [lo, np.nextafter(lo, inf), hi, np.nextafter(hi, -inf)]
+        points += list(rng.uniform(lo, hi, size=6))
+        for x in points:
+            for y in points:
+                if not (lo <= x <= hi and lo <= y <= hi):
+                    continue
+                assert rl <= y <= rh, (rl, rh, y)
+                assert (x - al) * (y - al) > cut, (al, cut, x, y)
+                assert (x - ah) * (y - ah) > cut, (ah, cut, x, y)
+                checked += 1
+    assert checked > 10_000, checked

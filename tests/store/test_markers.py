@@ -1,31 +1,44 @@
-"""A damaged or stale-written store is never read as numbers without a message.
+"""sweep.store.markers: what a task writes and how its completion is proven.
 
-Each case damages a copy of a complete store the way a crash, a full disk, a careless
-copy or an editor would, and then: every reading command says ``store damaged: <file>:
-<what>`` (exit 2, one message), and a rerun of ``sweep run`` recomputes the tasks
-whose data no longer match their markers, saying so, and ends bit-identical to an
-undamaged run. Damage to the files made at creation (metadata, coordinates, the
-marker folder) cannot be repaired by a rerun; it is refused with the same message.
+The chunk files a task flushes to disk are those zarr wrote, found through zarr's own
+chunk-key encoding; one that should exist and does not is an error. A damaged or
+stale-written store is never read as numbers without a message: each damage case
+damages a copy of a complete store the way a crash, a full disk, a careless copy or an
+editor would, and then every reading command says ``store damaged: <file>: <what>``
+(exit 2, one message), and a rerun of ``sweep run`` recomputes the tasks whose data no
+longer match their markers, saying so, and ends bit-identical to an undamaged run.
+Damage to the files made at creation (metadata, coordinates, the marker folder) cannot
+be repaired by a rerun; it is refused with the same message. A full disk stops a run
+cleanly, keeping every finished task.
 """
 
 from __future__ import annotations
 
 import concurrent.futures
 import json
-import os
 import shutil
 import subprocess
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
 import pytest
+import zarr
 
 import sweep
 from sweep import store
-from sweep.errors import StoreDamagedError
+from sweep.errors import StoreDamagedError, StoreError
 from sweep.execute import RunOptions, run
-from tests.conftest import PATIENCE, SMALL_SPEC, assert_stores_identical, sweep_command
+from sweep.plan import make_plan
+from sweep.spec import load_spec
+from tests.cli_cases import assert_one_error
+from tests.conftest import (
+    SMALL_SPEC,
+    assert_stores_identical,
+    build_store,
+    run_cli,
+)
 
 HEAD = "sweep: error: store damaged: "
 
@@ -144,14 +157,10 @@ DAMAGES = [
 REPAIRABLE = [d for d in DAMAGES if d.level != "store"]
 
 
-@pytest.fixture(scope="module")
-def reference(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    folder = tmp_path_factory.mktemp("damage")
-    spec = folder / "small.toml"
-    spec.write_text(SMALL_SPEC)
-    out = folder / "reference.zarr"
-    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
-    return out
+@pytest.fixture
+def reference(small_store: Path) -> Path:
+    """The session's complete SMALL_SPEC store (read-only: cases damage copies)."""
+    return small_store
 
 
 def _damaged_copy(reference: Path, where: Path, damage: Damage) -> tuple[Path, Path]:
@@ -197,17 +206,6 @@ def test_rerun_recomputes_damaged_tasks_and_says_so(
     sweep.open(out, verify=True)
 
 
-def _cli(*args: str | Path) -> subprocess.CompletedProcess[str]:
-    env = dict(os.environ, PYTHONUNBUFFERED="1")
-    return subprocess.run(
-        [*sweep_command(), *map(str, args)],
-        env=env,
-        capture_output=True,
-        text=True,
-        timeout=PATIENCE,
-    )
-
-
 @pytest.mark.parametrize("kind", ["truncated-chunk", "array-metadata"])
 def test_every_command_gives_the_same_verdict(
     reference: Path, tmp_path: Path, kind: str
@@ -226,7 +224,7 @@ def test_every_command_gives_the_same_verdict(
     if damage.level == "store":
         commands["run"] = ("run", tmp_path / "small.toml", "--store", out, "--quiet")
     with concurrent.futures.ThreadPoolExecutor(max_workers=3) as pool:
-        results = {name: pool.submit(_cli, *argv) for name, argv in commands.items()}
+        results = {name: pool.submit(run_cli, *argv) for name, argv in commands.items()}
         for name, future in results.items():
             result = future.result()
             assert result.returncode == 2, f"{name}: {result.stderr}"
@@ -247,22 +245,6 @@ def test_every_command_gives_the_same_verdict(
         if p.is_file() and p.name != "_runs.log"
     }
     assert after == {p: b for p, b in before.items() if p.name != "_runs.log"}
-
-
-def test_open_expands_the_home_folder(
-    reference: Path, monkeypatch: pytest.MonkeyPatch
-) -> None:
-    monkeypatch.setenv("HOME", str(reference.parent))
-    ds = sweep.open(f"~/{reference.name}", verify=True)
-    assert int(ds.attrs["complete"]) == 1
-
-
-def test_summary_of_a_data_array_says_what_it_needs(reference: Path) -> None:
-    from sweep.errors import UsageError
-
-    ds = sweep.open(reference)
-    with pytest.raises(UsageError, match="needs a store's whole Dataset"):
-        sweep.stats.summary(ds["first_passage_time"])
 
 
 STORE_LEVEL = [d for d in DAMAGES if d.level == "store"]
@@ -293,16 +275,14 @@ def test_chunks_zarr_did_not_write_are_part_of_the_proof(
         .replace("survival = { stop = 1.0, points = 11 }", "")
         .replace("occupancy = { times = [0.2, 0.05], bins = 8 }", "")
     )
-    out = tmp_path / "short.zarr"
-    assert run(spec, out, RunOptions(threads=2, progress=False)).complete
+    out = build_store(spec, tmp_path / "short.zarr", threads=2)
     attrs, done = store.verified_markers(out, digests=True)
     key = "first_passage_time/c/0/1"
     assert done[(0, 1)]["chunks"][key] == store.ABSENT
     assert not (out / key).exists()
     reference = tmp_path / "reference.zarr"
     shutil.copytree(out, reference)
-    other = tmp_path / "other.zarr"
-    assert run(_small(tmp_path), other, RunOptions(threads=2, progress=False)).complete
+    other = build_store(SMALL_SPEC, tmp_path / "other.zarr", threads=2)
     (out / key).parent.mkdir(parents=True, exist_ok=True)
     shutil.copyfile(other / key, out / key)
     with pytest.raises(
@@ -316,7 +296,106 @@ def test_chunks_zarr_did_not_write_are_part_of_the_proof(
     assert_stores_identical(reference, out)
 
 
-def _small(folder: Path) -> Path:
-    spec = folder / "small.toml"
-    spec.write_text(SMALL_SPEC)
-    return spec
+# --------------------------------------------------------------------------- writing
+
+ALL_CENSORED = (
+    SMALL_SPEC.replace("horizon = 3.0", "horizon = 0.002")
+    .replace("survival = { stop = 1.0, points = 11 }", "")
+    .replace("occupancy = { times = [0.2, 0.05], bins = 8 }", "")
+)
+
+
+@pytest.mark.parametrize(
+    "definition", [SMALL_SPEC, ALL_CENSORED], ids=["absorbed", "all-censored"]
+)
+def test_a_task_flushes_exactly_the_chunk_files_zarr_wrote(
+    definition: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The files flushed to disk are the files that appeared; the marker lists every
+    chunk key of the task, "absent" exactly where zarr wrote nothing (all fill)."""
+    from sweep.simulate import simulate_task
+
+    spec = tmp_path / "def.toml"
+    spec.write_text(definition)
+    plan = make_plan(load_spec(spec))
+    path = store.prepare(tmp_path / "s.zarr", plan)
+    task = next(t for t in plan.tasks if (t.point, t.chunk) == (1, 2))
+    output, _ = simulate_task(task)
+    before = {p for p in path.rglob("*") if p.is_file()}
+    flushed: list[Path] = []
+    real_fsync = store.files.fsync_file
+
+    def spy(file: Path) -> None:  # flushes for real, then records what it flushed
+        real_fsync(file)
+        flushed.append(Path(file))
+
+    monkeypatch.setattr(store.files, "fsync_file", spy)
+    monkeypatch.setattr(store.markers, "fsync_file", spy)
+    store_id = store.read_attrs(path)["store_id"]
+    marker = store.write_task(str(path), task, output, {"point": 1}, store_id)
+    written = {
+        p
+        for p in path.rglob("*")
+        if p.is_file() and p not in before and p.parent.name != store.MARKER_DIR
+    }
+    assert written, "the task wrote no chunk file at all"
+    assert {f for f in flushed if not f.is_dir()} == written
+    keys = store.ChunkKeys(zarr.open_group(str(path), mode="r"))(1, 2)
+    assert sorted(marker["chunks"]) == sorted(keys.values())
+    assert {
+        path / key for key, state in marker["chunks"].items() if state != store.ABSENT
+    } == written
+    if definition == ALL_CENSORED:
+        assert marker["chunks"][keys["first_passage_time"]] == store.ABSENT
+
+
+def test_a_chunk_file_that_should_exist_and_does_not_is_an_error(
+    tmp_path: Path,
+) -> None:
+    """No silent skip: a chunk zarr must have written (not all fill value) but that
+    is missing stops the task before its marker; an all-fill one is "absent"."""
+    key = "first_passage_time/c/0/3"
+    with pytest.raises(StoreError, match="zarr wrote no chunk file here"):
+        store.sync_chunks(tmp_path, {key: True})
+    assert store.sync_chunks(tmp_path, {key: False}) == {key: store.ABSENT}
+    (tmp_path / key).parent.mkdir(parents=True)
+    (tmp_path / key).write_bytes(b"data")
+    assert store.sync_chunks(tmp_path, {key: True})[key][0] == 4
+
+
+# --------------------------------------------------------------------------- full disk
+
+
+def test_full_disk_stops_cleanly_keeps_finished_tasks_and_resumes(
+    reference_store: Path, small_disk: Callable[[str, str], tuple[Path, Path]]
+) -> None:
+    """A 200 KiB disk holds the store's metadata and a few tasks, then fills up."""
+    small_spec, disk = small_disk("full-disk", "200k")
+    out = disk / "s.zarr"
+    args = ("run", small_spec, "--store", out, "--threads", "1", "--quiet")
+    result = run_cli(*args)
+    assert_one_error(
+        result.returncode, result.stderr, [str(out), "the disk is full", "rerun"]
+    )
+    done = store.done_tasks(out)
+    assert 0 < len(done) < 12, f"{len(done)} tasks fit: resize the disk of this test"
+    assert not (out / store.LOCK_FILE).exists()
+    # Every finished task reads back exactly as in an uninterrupted run.
+    ref = zarr.open_group(str(reference_store), mode="r")
+    got = zarr.open_group(str(out), mode="r")
+    for p, c in sorted(done):
+        walkers = slice(500 * c, 500 * (c + 1))
+        for name in ("first_passage_time", "absorbing_wall", "exit_position"):
+            np.testing.assert_array_equal(
+                got[name][p, walkers], ref[name][p, walkers], strict=True
+            )
+        for name in ("survival_count", "occupancy_count"):
+            np.testing.assert_array_equal(got[name][p, c], ref[name][p, c], strict=True)
+    status = run_cli("status", out)
+    assert status.returncode == 0, status.stderr
+    assert f"{len(done)}/12 tasks done" in status.stdout
+    # Free space: the same command resumes and ends bit-identical to the reference.
+    subprocess.run(["mount", "-o", "remount,size=8m", str(out.parent)], check=True)
+    resumed = run_cli(*args)
+    assert resumed.returncode == 0, resumed.stderr
+    assert_stores_identical(reference_store, out)
