@@ -38,10 +38,11 @@ import xarray as xr
 from scipy import special
 
 from sweep import stats
-from sweep.check import parameters, show_value, text_table
+from sweep.check import parameters, show_value
 from sweep.errors import CompareError
 from sweep.spec import PointSpec, Sweep
 from sweep.store import load_sweep, open_dataset
+from sweep.text import format_table as text_table
 
 #: Default family-wise false-alarm rate of the comparison.
 ALPHA = 0.05

@@ -26,7 +26,7 @@ from sweep.spec import PointSpec, Sweep, axis_names
 #: documentation): the kernel keeps its four words in local variables
 #: (kernels/rng.py), seeded from the task's SeedSequence exactly as
 #: ``np.random.SFC64`` seeds itself, so ``Generator(BIT_GENERATOR(seq))`` draws the
-#: same numbers (DEVELOPERS.md, "Kernels").
+#: same numbers (docs/kernels.md).
 BIT_GENERATOR = np.random.SFC64
 
 #: The spheres scheme jumps while a walker's protective radius exceeds HANDOVER

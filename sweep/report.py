@@ -19,7 +19,7 @@ import xarray as xr
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
-from sweep import check, stats, store
+from sweep import check, stats, store, text
 from sweep.spec import NO_UNITS, Sweep
 
 #: Line plots show at most this many points (evenly spread over the sweep).
@@ -159,7 +159,7 @@ def units_note(sweep: Sweep) -> str:
 def headline_table(ds: xr.Dataset, sweep: Sweep) -> str:
     """:func:`headline_rows` as an aligned text table with its footnotes."""
     rows = headline_rows(ds, sweep)
-    return "\n".join([check.text_table(rows), *headline_notes(ds, sweep, rows)])
+    return "\n".join([text.format_table(rows), *headline_notes(ds, sweep, rows)])
 
 
 def _plus_minus(value: float, half: float) -> str:

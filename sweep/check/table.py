@@ -4,12 +4,11 @@ checked (runs of points with one reason merged), and the verdict line.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-
 from sweep import stats
 from sweep.check.labels import point_labels
 from sweep.check.verdict import Z_PASS, CheckReport
 from sweep.spec import Sweep
+from sweep.text import format_table as format_table_text
 
 
 def format_table(report: CheckReport, sweep: Sweep | None = None) -> str:
@@ -60,12 +59,8 @@ def format_table(report: CheckReport, sweep: Sweep | None = None) -> str:
     )
 
 
-def text_table(rows: Sequence[Sequence[str]]) -> str:
-    """Rows of text cells as left-aligned columns (the first row is the header)."""
-    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
-    return "\n".join(
-        "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in rows
-    )
+#: The one table layout of the tool (kept under its former name for callers).
+text_table = format_table_text
 
 
 def _unchecked_runs(report: CheckReport) -> list[tuple[str, str]]:

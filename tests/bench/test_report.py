@@ -36,7 +36,7 @@ def test_busy_note_only_when_repetitions_disagree() -> None:
 
 def test_plain_rows_have_the_plain_target() -> None:
     # "Plain" is endpoint monitoring without occupancy; the bridge test and occupancy
-    # are options (DEVELOPERS.md, "Benchmarks").
+    # are options (docs/performance.md, "How `sweep bench` measures").
     assert target_of(_row("ball 3-D", "endpoint")) == targets.TARGET_PLAIN
     for options in ("bridge", "bridge + occupancy", "endpoint + occupancy"):
         assert target_of(_row("ball 3-D", options)) == targets.TARGET_OPTIONS
@@ -44,7 +44,7 @@ def test_plain_rows_have_the_plain_target() -> None:
 
 def test_bulk_targets_cover_the_1d_bridge_and_every_3d_case() -> None:
     # The numpy-bulk targets: the 1-D interval with the bridge, and every
-    # 3-D case (DEVELOPERS.md, "Benchmarks").
+    # 3-D case (docs/performance.md, "How `sweep bench` measures").
     assert bulk_target_of(_row("interval 1-D", "bridge")) == targets.TARGET_BULK_1D
     assert bulk_target_of(_row("interval 1-D", "endpoint")) is None
     for case in CASES:
