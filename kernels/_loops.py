@@ -2,7 +2,7 @@
 EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them.
-Digest of template, generator, kernels/walkers.py and rng.py: 4b9081916b2a422dc5708e11ceb02ad0
+Digest of template, generator, kernels/walkers.py and rng.py: 44d7f7dd3e3407f78cce1d88a93a9967
 """
 
 # ruff: noqa
@@ -22,7 +22,9 @@ from kernels.walkers import (
     _earliest,
     _fold,
     _free,
+    _outside,
     _random_state,
+    _react,
     _store_state,
     draw_normal,
     draw_uniform,
@@ -56,8 +58,11 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(1)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -65,14 +70,32 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -91,6 +114,32 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -111,12 +160,13 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
@@ -163,6 +213,40 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                             c0 = _fold(y0, rl0, rh0)
                     y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box1(
+                        (y0,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -190,6 +274,20 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                     x0 = x0 + (y0 - x0) * frac + spread * z
                     break
                 x0 = y0
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -231,6 +329,8 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -255,6 +355,37 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         out.survival[k] += above
     _store_state(state, rs)
     return steps_done
+
+
+@njit(nogil=True, cache=True)
+def mirror_box1(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box1(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale,)
+    return ys
 
 
 @njit(nogil=True, cache=True)
@@ -284,8 +415,11 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(2)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -293,14 +427,32 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -316,14 +468,32 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -342,6 +512,32 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -362,13 +558,15 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(2):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
@@ -422,6 +620,59 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                     y0 = c0
                     y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box2(
+                        (y0, y1,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -462,6 +713,27 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                     break
                 x0 = y0
                 x1 = y1
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -514,6 +786,9 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -547,6 +822,37 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box2(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box2(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -573,8 +879,11 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(3)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -582,14 +891,32 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -605,14 +932,32 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -628,14 +973,32 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -654,6 +1017,32 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -674,14 +1063,17 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(3):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
@@ -742,6 +1134,78 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                     y1 = c1
                     y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box3(
+                        (y0, y1, y2,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -795,6 +1259,34 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 x0 = y0
                 x1 = y1
                 x2 = y2
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -858,6 +1350,10 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -897,6 +1393,37 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box3(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box3(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -923,8 +1450,11 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(4)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -932,14 +1462,32 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -955,14 +1503,32 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -978,14 +1544,32 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1001,14 +1585,32 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1027,6 +1629,32 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -1047,15 +1675,19 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(4):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
@@ -1123,6 +1755,97 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                     y2 = c2
                     y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box4(
+                        (y0, y1, y2, y3,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -1189,6 +1912,41 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 x1 = y1
                 x2 = y2
                 x3 = y3
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -1263,6 +2021,11 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -1308,6 +2071,37 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box4(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box4(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -1334,8 +2128,11 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(5)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -1343,14 +2140,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1366,14 +2181,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1389,14 +2222,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1412,14 +2263,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1435,14 +2304,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1461,6 +2348,32 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -1481,16 +2394,21 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(5):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
@@ -1565,6 +2483,116 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                     y3 = c3
                     y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box5(
+                        (y0, y1, y2, y3, y4,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -1644,6 +2672,48 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 x2 = y2
                 x3 = y3
                 x4 = y4
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -1729,6 +2799,12 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -1780,6 +2856,37 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box5(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box5(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -1806,8 +2913,11 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(6)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -1815,14 +2925,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1838,14 +2966,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1861,14 +3007,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1884,14 +3048,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1907,14 +3089,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1930,14 +3130,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -1956,6 +3174,32 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -1976,17 +3220,23 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(6):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
@@ -2068,6 +3318,135 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                     y4 = c4
                     y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box6(
+                        (y0, y1, y2, y3, y4, y5,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -2160,6 +3539,55 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 x3 = y3
                 x4 = y4
                 x5 = y5
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -2256,6 +3684,13 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -2313,6 +3748,37 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box6(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box6(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -2339,8 +3805,11 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(7)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -2348,14 +3817,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -2371,14 +3858,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -2394,14 +3899,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -2417,14 +3940,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -2440,14 +3981,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -2463,14 +4022,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -2486,14 +4063,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[6]):
+        kl6 = lower[6]
+        ql6 = geometry.reactivity_lower[6] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[6]):
+        kh6 = upper[6]
+        qh6 = geometry.reactivity_upper[6] / diffusivity
+    if geometry.periodic[6]:
+        pw6 = upper[6] - lower[6]
+    special_lower = kl6 > -math.inf or pw6 > 0.0
+    special_upper = kh6 < math.inf or pw6 > 0.0
     if geometry.absorbing_lower[6]:
         al6 = lower[6]
-    else:
+    elif not special_lower:
         rl6 = lower[6]
     if geometry.absorbing_upper[6]:
         ah6 = upper[6]
-    else:
+    elif not special_upper:
         rh6 = upper[6]
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -2512,6 +4107,32 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -2532,18 +4153,25 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(7):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
@@ -2632,6 +4260,154 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                     y5 = c5
                     y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    if (x6 - kl6) * (y6 - kl6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x6 - kl6, y6 - kl6, ql6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6
+                    if (x6 - kh6) * (y6 - kh6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh6 - x6, kh6 - y6, qh6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box7(
+                        (y0, y1, y2, y3, y4, y5, y6,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -2737,6 +4513,62 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 x4 = y4
                 x5 = y5
                 x6 = y6
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -2844,6 +4676,14 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -2907,6 +4747,37 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box7(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box7(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -2933,8 +4804,11 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(8)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -2942,14 +4816,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -2965,14 +4857,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -2988,14 +4898,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -3011,14 +4939,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -3034,14 +4980,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -3057,14 +5021,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -3080,14 +5062,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[6]):
+        kl6 = lower[6]
+        ql6 = geometry.reactivity_lower[6] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[6]):
+        kh6 = upper[6]
+        qh6 = geometry.reactivity_upper[6] / diffusivity
+    if geometry.periodic[6]:
+        pw6 = upper[6] - lower[6]
+    special_lower = kl6 > -math.inf or pw6 > 0.0
+    special_upper = kh6 < math.inf or pw6 > 0.0
     if geometry.absorbing_lower[6]:
         al6 = lower[6]
-    else:
+    elif not special_lower:
         rl6 = lower[6]
     if geometry.absorbing_upper[6]:
         ah6 = upper[6]
-    else:
+    elif not special_upper:
         rh6 = upper[6]
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -3103,14 +5103,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     rh7 = math.inf
     al7 = -math.inf
     ah7 = math.inf
+    kl7 = -math.inf
+    kh7 = math.inf
+    ql7 = 0.0
+    qh7 = 0.0
+    pw7 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[7]):
+        kl7 = lower[7]
+        ql7 = geometry.reactivity_lower[7] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[7]):
+        kh7 = upper[7]
+        qh7 = geometry.reactivity_upper[7] / diffusivity
+    if geometry.periodic[7]:
+        pw7 = upper[7] - lower[7]
+    special_lower = kl7 > -math.inf or pw7 > 0.0
+    special_upper = kh7 < math.inf or pw7 > 0.0
     if geometry.absorbing_lower[7]:
         al7 = lower[7]
-    else:
+    elif not special_lower:
         rl7 = lower[7]
     if geometry.absorbing_upper[7]:
         ah7 = upper[7]
-    else:
+    elif not special_upper:
         rh7 = upper[7]
+    reactive = reactive or kl7 > -math.inf or kh7 < math.inf
+    periodic = periodic or pw7 > 0.0
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -3129,6 +5147,32 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -3149,19 +5193,27 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(8):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x7 = x[7]
+        wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
@@ -3257,6 +5309,173 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                     y6 = c6
                     y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    if (x6 - kl6) * (y6 - kl6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x6 - kl6, y6 - kl6, ql6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6
+                    if (x6 - kh6) * (y6 - kh6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh6 - x6, kh6 - y6, qh6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6 + 1
+                    if (x7 - kl7) * (y7 - kl7) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x7 - kl7, y7 - kl7, ql7, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y7 = y7 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 7
+                    if (x7 - kh7) * (y7 - kh7) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh7 - x7, kh7 - y7, qh7, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y7 = y7 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 7 + 1
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box8(
+                        (y0, y1, y2, y3, y4, y5, y6, y7,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                    y7 = ys[7]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -3375,6 +5594,69 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 x5 = y5
                 x6 = y6
                 x7 = y7
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if pw7 > 0.0 and (x7 < lo7 or x7 >= hi7):
+                        n_wrap = math.floor((x7 - lo7) / pw7)
+                        x7 = x7 - n_wrap * pw7
+                        if x7 < lo7 or x7 >= hi7:  # rounding at a face
+                            x7 = lo7
+                        wrap7 = wrap7 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2 + (x7 - tc7) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -3493,6 +5775,15 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
+            out.displacement[w, 7] = x7 + wrap7 * pw7 - x[7]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -3562,6 +5853,37 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
 
 
 @njit(nogil=True, cache=True)
+def mirror_box8(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box8(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2 + (ys[7] - obstacle_center[k, 7]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0), obstacle_center[k, 7] + (2.0 * a if 7 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale, obstacle_center[k, 7] + (ys[7] - obstacle_center[k, 7]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -3588,8 +5910,11 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(1)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -3597,14 +5922,32 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -3623,6 +5966,32 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -3643,12 +6012,13 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(1):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
         hit_wall = -1
         frac = 2.0
@@ -3695,6 +6065,61 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                             c0 = _fold(y0, rl0, rh0)
                     y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets1(
+                            rs, (x0,),
+                            (y0,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets1(
+                        (y0,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -3743,6 +6168,20 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                     x0 = x0 + (y0 - x0) * frac + spread * z
                     break
                 x0 = y0
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -3784,6 +6223,8 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -3843,6 +6284,87 @@ def other_targets_box_targets1(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets1(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets1(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets1(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets1(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets1(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -3869,8 +6391,11 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(2)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -3878,14 +6403,32 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -3901,14 +6444,32 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -3927,6 +6488,32 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -3947,13 +6534,15 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(2):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
@@ -4007,6 +6596,81 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                     y0 = c0
                     y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets2(
+                            rs, (x0, x1,),
+                            (y0, y1,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets2(
+                        (y0, y1,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -4068,6 +6732,27 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                     break
                 x0 = y0
                 x1 = y1
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -4120,6 +6805,9 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -4185,6 +6873,87 @@ def other_targets_box_targets2(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets2(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets2(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets2(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets2(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets2(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -4211,8 +6980,11 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(3)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -4220,14 +6992,32 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -4243,14 +7033,32 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -4266,14 +7074,32 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -4292,6 +7118,32 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -4312,14 +7164,17 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(3):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
@@ -4380,6 +7235,101 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                     y1 = c1
                     y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets3(
+                            rs, (x0, x1, x2,),
+                            (y0, y1, y2,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets3(
+                        (y0, y1, y2,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -4454,6 +7404,34 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 x0 = y0
                 x1 = y1
                 x2 = y2
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -4517,6 +7495,10 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -4588,6 +7570,87 @@ def other_targets_box_targets3(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets3(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets3(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets3(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets3(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets3(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -4614,8 +7677,11 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(4)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -4623,14 +7689,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -4646,14 +7730,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -4669,14 +7771,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -4692,14 +7812,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -4718,6 +7856,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -4738,15 +7902,19 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(4):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
@@ -4814,6 +7982,121 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                     y2 = c2
                     y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets4(
+                            rs, (x0, x1, x2, x3,),
+                            (y0, y1, y2, y3,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets4(
+                        (y0, y1, y2, y3,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -4901,6 +8184,41 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 x1 = y1
                 x2 = y2
                 x3 = y3
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -4975,6 +8293,11 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -5052,6 +8375,87 @@ def other_targets_box_targets4(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets4(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets4(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets4(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets4(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets4(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -5078,8 +8482,11 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(5)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -5087,14 +8494,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5110,14 +8535,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5133,14 +8576,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5156,14 +8617,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5179,14 +8658,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5205,6 +8702,32 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -5225,16 +8748,21 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(5):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
@@ -5309,6 +8837,141 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                     y3 = c3
                     y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets5(
+                            rs, (x0, x1, x2, x3, x4,),
+                            (y0, y1, y2, y3, y4,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets5(
+                        (y0, y1, y2, y3, y4,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -5409,6 +9072,48 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 x2 = y2
                 x3 = y3
                 x4 = y4
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -5494,6 +9199,12 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -5577,6 +9288,87 @@ def other_targets_box_targets5(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets5(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets5(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets5(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets5(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets5(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -5603,8 +9395,11 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(6)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -5612,14 +9407,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5635,14 +9448,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5658,14 +9489,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5681,14 +9530,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5704,14 +9571,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5727,14 +9612,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -5753,6 +9656,32 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -5773,17 +9702,23 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(6):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
@@ -5865,6 +9800,161 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                     y4 = c4
                     y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets6(
+                            rs, (x0, x1, x2, x3, x4, x5,),
+                            (y0, y1, y2, y3, y4, y5,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets6(
+                        (y0, y1, y2, y3, y4, y5,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -5978,6 +10068,55 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 x3 = y3
                 x4 = y4
                 x5 = y5
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -6074,6 +10213,13 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -6163,6 +10309,87 @@ def other_targets_box_targets6(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets6(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets6(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets6(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets6(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets6(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -6189,8 +10416,11 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(7)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -6198,14 +10428,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6221,14 +10469,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6244,14 +10510,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6267,14 +10551,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6290,14 +10592,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6313,14 +10633,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6336,14 +10674,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[6]):
+        kl6 = lower[6]
+        ql6 = geometry.reactivity_lower[6] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[6]):
+        kh6 = upper[6]
+        qh6 = geometry.reactivity_upper[6] / diffusivity
+    if geometry.periodic[6]:
+        pw6 = upper[6] - lower[6]
+    special_lower = kl6 > -math.inf or pw6 > 0.0
+    special_upper = kh6 < math.inf or pw6 > 0.0
     if geometry.absorbing_lower[6]:
         al6 = lower[6]
-    else:
+    elif not special_lower:
         rl6 = lower[6]
     if geometry.absorbing_upper[6]:
         ah6 = upper[6]
-    else:
+    elif not special_upper:
         rh6 = upper[6]
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6362,6 +10718,32 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -6382,18 +10764,25 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(7):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
@@ -6482,6 +10871,181 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                     y5 = c5
                     y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    if (x6 - kl6) * (y6 - kl6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x6 - kl6, y6 - kl6, ql6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6
+                    if (x6 - kh6) * (y6 - kh6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh6 - x6, kh6 - y6, qh6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6 + 1
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets7(
+                            rs, (x0, x1, x2, x3, x4, x5, x6,),
+                            (y0, y1, y2, y3, y4, y5, y6,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets7(
+                        (y0, y1, y2, y3, y4, y5, y6,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -6608,6 +11172,62 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 x4 = y4
                 x5 = y5
                 x6 = y6
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -6715,6 +11335,14 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -6810,6 +11438,87 @@ def other_targets_box_targets7(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets7(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets7(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets7(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets7(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0), center[6] + (r if 6 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets7(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -6836,8 +11545,11 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(8)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -6845,14 +11557,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[0]):
+        kl0 = lower[0]
+        ql0 = geometry.reactivity_lower[0] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[0]):
+        kh0 = upper[0]
+        qh0 = geometry.reactivity_upper[0] / diffusivity
+    if geometry.periodic[0]:
+        pw0 = upper[0] - lower[0]
+    special_lower = kl0 > -math.inf or pw0 > 0.0
+    special_upper = kh0 < math.inf or pw0 > 0.0
     if geometry.absorbing_lower[0]:
         al0 = lower[0]
-    else:
+    elif not special_lower:
         rl0 = lower[0]
     if geometry.absorbing_upper[0]:
         ah0 = upper[0]
-    else:
+    elif not special_upper:
         rh0 = upper[0]
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6868,14 +11598,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[1]):
+        kl1 = lower[1]
+        ql1 = geometry.reactivity_lower[1] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[1]):
+        kh1 = upper[1]
+        qh1 = geometry.reactivity_upper[1] / diffusivity
+    if geometry.periodic[1]:
+        pw1 = upper[1] - lower[1]
+    special_lower = kl1 > -math.inf or pw1 > 0.0
+    special_upper = kh1 < math.inf or pw1 > 0.0
     if geometry.absorbing_lower[1]:
         al1 = lower[1]
-    else:
+    elif not special_lower:
         rl1 = lower[1]
     if geometry.absorbing_upper[1]:
         ah1 = upper[1]
-    else:
+    elif not special_upper:
         rh1 = upper[1]
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6891,14 +11639,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[2]):
+        kl2 = lower[2]
+        ql2 = geometry.reactivity_lower[2] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[2]):
+        kh2 = upper[2]
+        qh2 = geometry.reactivity_upper[2] / diffusivity
+    if geometry.periodic[2]:
+        pw2 = upper[2] - lower[2]
+    special_lower = kl2 > -math.inf or pw2 > 0.0
+    special_upper = kh2 < math.inf or pw2 > 0.0
     if geometry.absorbing_lower[2]:
         al2 = lower[2]
-    else:
+    elif not special_lower:
         rl2 = lower[2]
     if geometry.absorbing_upper[2]:
         ah2 = upper[2]
-    else:
+    elif not special_upper:
         rh2 = upper[2]
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6914,14 +11680,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[3]):
+        kl3 = lower[3]
+        ql3 = geometry.reactivity_lower[3] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[3]):
+        kh3 = upper[3]
+        qh3 = geometry.reactivity_upper[3] / diffusivity
+    if geometry.periodic[3]:
+        pw3 = upper[3] - lower[3]
+    special_lower = kl3 > -math.inf or pw3 > 0.0
+    special_upper = kh3 < math.inf or pw3 > 0.0
     if geometry.absorbing_lower[3]:
         al3 = lower[3]
-    else:
+    elif not special_lower:
         rl3 = lower[3]
     if geometry.absorbing_upper[3]:
         ah3 = upper[3]
-    else:
+    elif not special_upper:
         rh3 = upper[3]
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6937,14 +11721,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[4]):
+        kl4 = lower[4]
+        ql4 = geometry.reactivity_lower[4] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[4]):
+        kh4 = upper[4]
+        qh4 = geometry.reactivity_upper[4] / diffusivity
+    if geometry.periodic[4]:
+        pw4 = upper[4] - lower[4]
+    special_lower = kl4 > -math.inf or pw4 > 0.0
+    special_upper = kh4 < math.inf or pw4 > 0.0
     if geometry.absorbing_lower[4]:
         al4 = lower[4]
-    else:
+    elif not special_lower:
         rl4 = lower[4]
     if geometry.absorbing_upper[4]:
         ah4 = upper[4]
-    else:
+    elif not special_upper:
         rh4 = upper[4]
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6960,14 +11762,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[5]):
+        kl5 = lower[5]
+        ql5 = geometry.reactivity_lower[5] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[5]):
+        kh5 = upper[5]
+        qh5 = geometry.reactivity_upper[5] / diffusivity
+    if geometry.periodic[5]:
+        pw5 = upper[5] - lower[5]
+    special_lower = kl5 > -math.inf or pw5 > 0.0
+    special_upper = kh5 < math.inf or pw5 > 0.0
     if geometry.absorbing_lower[5]:
         al5 = lower[5]
-    else:
+    elif not special_lower:
         rl5 = lower[5]
     if geometry.absorbing_upper[5]:
         ah5 = upper[5]
-    else:
+    elif not special_upper:
         rh5 = upper[5]
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -6983,14 +11803,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[6]):
+        kl6 = lower[6]
+        ql6 = geometry.reactivity_lower[6] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[6]):
+        kh6 = upper[6]
+        qh6 = geometry.reactivity_upper[6] / diffusivity
+    if geometry.periodic[6]:
+        pw6 = upper[6] - lower[6]
+    special_lower = kl6 > -math.inf or pw6 > 0.0
+    special_upper = kh6 < math.inf or pw6 > 0.0
     if geometry.absorbing_lower[6]:
         al6 = lower[6]
-    else:
+    elif not special_lower:
         rl6 = lower[6]
     if geometry.absorbing_upper[6]:
         ah6 = upper[6]
-    else:
+    elif not special_upper:
         rh6 = upper[6]
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -7006,14 +11844,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     rh7 = math.inf
     al7 = -math.inf
     ah7 = math.inf
+    kl7 = -math.inf
+    kh7 = math.inf
+    ql7 = 0.0
+    qh7 = 0.0
+    pw7 = 0.0
+    # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+    if not math.isnan(geometry.reactivity_lower[7]):
+        kl7 = lower[7]
+        ql7 = geometry.reactivity_lower[7] / diffusivity
+    if not math.isnan(geometry.reactivity_upper[7]):
+        kh7 = upper[7]
+        qh7 = geometry.reactivity_upper[7] / diffusivity
+    if geometry.periodic[7]:
+        pw7 = upper[7] - lower[7]
+    special_lower = kl7 > -math.inf or pw7 > 0.0
+    special_upper = kh7 < math.inf or pw7 > 0.0
     if geometry.absorbing_lower[7]:
         al7 = lower[7]
-    else:
+    elif not special_lower:
         rl7 = lower[7]
     if geometry.absorbing_upper[7]:
         ah7 = upper[7]
-    else:
+    elif not special_upper:
         rh7 = upper[7]
+    reactive = reactive or kl7 > -math.inf or kh7 < math.inf
+    periodic = periodic or pw7 > 0.0
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -7032,6 +11888,32 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -7052,19 +11934,27 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 if _free(
                     x, False, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(8):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x7 = x[7]
+        wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
@@ -7160,6 +12050,201 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                     y6 = c6
                     y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if (x0 - kl0) * (y0 - kl0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x0 - kl0, y0 - kl0, ql0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0
+                    if (x0 - kh0) * (y0 - kh0) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh0 - x0, kh0 - y0, qh0, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = y0 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 0 + 1
+                    if (x1 - kl1) * (y1 - kl1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x1 - kl1, y1 - kl1, ql1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1
+                    if (x1 - kh1) * (y1 - kh1) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh1 - x1, kh1 - y1, qh1, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y1 = y1 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 1 + 1
+                    if (x2 - kl2) * (y2 - kl2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x2 - kl2, y2 - kl2, ql2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2
+                    if (x2 - kh2) * (y2 - kh2) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh2 - x2, kh2 - y2, qh2, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y2 = y2 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 2 + 1
+                    if (x3 - kl3) * (y3 - kl3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x3 - kl3, y3 - kl3, ql3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3
+                    if (x3 - kh3) * (y3 - kh3) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh3 - x3, kh3 - y3, qh3, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y3 = y3 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 3 + 1
+                    if (x4 - kl4) * (y4 - kl4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x4 - kl4, y4 - kl4, ql4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4
+                    if (x4 - kh4) * (y4 - kh4) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh4 - x4, kh4 - y4, qh4, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y4 = y4 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 4 + 1
+                    if (x5 - kl5) * (y5 - kl5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x5 - kl5, y5 - kl5, ql5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5
+                    if (x5 - kh5) * (y5 - kh5) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh5 - x5, kh5 - y5, qh5, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y5 = y5 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 5 + 1
+                    if (x6 - kl6) * (y6 - kl6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x6 - kl6, y6 - kl6, ql6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6
+                    if (x6 - kh6) * (y6 - kh6) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh6 - x6, kh6 - y6, qh6, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y6 = y6 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 6 + 1
+                    if (x7 - kl7) * (y7 - kl7) <= react_cut:
+                        f, push, rs = _react(
+                            rs, x7 - kl7, y7 - kl7, ql7, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y7 = y7 + push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 7
+                    if (x7 - kh7) * (y7 - kh7) <= react_cut:
+                        f, push, rs = _react(
+                            rs, kh7 - x7, kh7 - y7, qh7, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y7 = y7 - push
+                        if f < frac:
+                            frac = f
+                            hit_wall = 2 * 7 + 1
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2 + (y7 - target_center[k, 7]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2 + (x7 - target_center[k, 7]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_box_targets8(
+                            rs, (x0, x1, x2, x3, x4, x5, x6, x7,),
+                            (y0, y1, y2, y3, y4, y5, y6, y7,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
+                        y7 = ys[7]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_box_targets8(
+                        (y0, y1, y2, y3, y4, y5, y6, y7,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                    y7 = ys[7]
+                if reactive or n_obstacles > 0:
+                    # A push or mirror may move the end out of the band: then
+                    # the faces are examined after all (conservative).
+                    x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -7299,6 +12384,69 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 x5 = y5
                 x6 = y6
                 x7 = y7
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if pw7 > 0.0 and (x7 < lo7 or x7 >= hi7):
+                        n_wrap = math.floor((x7 - lo7) / pw7)
+                        x7 = x7 - n_wrap * pw7
+                        if x7 < lo7 or x7 >= hi7:  # rounding at a face
+                            x7 = lo7
+                        wrap7 = wrap7 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2 + (x7 - tc7) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -7417,6 +12565,15 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
+            out.displacement[w, 7] = x7 + wrap7 * pw7 - x[7]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -7518,6 +12675,87 @@ def other_targets_box_targets8(
 
 
 @njit(nogil=True, cache=True)
+def mirror_box_targets8(ys, center, radius):
+    """The point ``ys`` (a tuple of the axes), outside the ball of ``radius`` around
+    ``center``, mirrored radially into it (repeatedly, for a step that overshoots a
+    small ball). Kept out of the step loop, as it is rarely needed."""
+    while True:
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 <= radius * radius:
+            return ys
+        r = math.sqrt(d2)
+        scale = (2.0 * radius - r) / r
+        ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_box_targets8(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2 + (xs[7] - target_center[k, 7]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2 + (ys[7] - target_center[k, 7]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_box_targets8(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_box_targets8(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0), center[6] + (r if 6 == 0 else 0.0), center[7] + (r if 7 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_box_targets8(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2 + (ys[7] - obstacle_center[k, 7]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0), obstacle_center[k, 7] + (2.0 * a if 7 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale, obstacle_center[k, 7] + (ys[7] - obstacle_center[k, 7]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -7544,8 +12782,11 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(2)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -7553,6 +12794,13 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -7568,6 +12816,13 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -7586,6 +12841,38 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -7593,6 +12880,8 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -7606,13 +12895,15 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(2):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
         hit_wall = -1
         frac = 2.0
@@ -7642,13 +12933,52 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2) >= react_inner2
+                    ):
+                        near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball2(
+                            rs, (x0, x1,),
+                            (y0, y1,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball2(
+                        (y0, y1,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball2(
                             (y0, y1,), ball_center, ball_radius
@@ -7699,6 +13029,27 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
                     break
                 x0 = y0
                 x1 = y1
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -7749,6 +13100,9 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -7828,6 +13182,94 @@ def mirror_ball2(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball2(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball2(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball2(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball2(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball2(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -7854,8 +13296,11 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(3)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -7863,6 +13308,13 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -7878,6 +13330,13 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -7893,6 +13352,13 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -7911,6 +13377,38 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -7918,6 +13416,8 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -7931,14 +13431,17 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(3):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
         hit_wall = -1
         frac = 2.0
@@ -7970,13 +13473,54 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2) >= react_inner2
+                    ):
+                        near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball3(
+                            rs, (x0, x1, x2,),
+                            (y0, y1, y2,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball3(
+                        (y0, y1, y2,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball3(
                             (y0, y1, y2,), ball_center, ball_radius
@@ -8031,6 +13575,34 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
                 x0 = y0
                 x1 = y1
                 x2 = y2
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -8091,6 +13663,10 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -8176,6 +13752,94 @@ def mirror_ball3(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball3(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball3(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball3(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball3(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball3(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -8202,8 +13866,11 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(4)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -8211,6 +13878,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -8226,6 +13900,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -8241,6 +13922,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -8256,6 +13944,13 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -8274,6 +13969,38 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -8281,6 +14008,8 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -8294,15 +14023,19 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(4):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
         hit_wall = -1
         frac = 2.0
@@ -8336,13 +14069,56 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2) >= react_inner2
+                    ):
+                        near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball4(
+                            rs, (x0, x1, x2, x3,),
+                            (y0, y1, y2, y3,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball4(
+                        (y0, y1, y2, y3,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball4(
                             (y0, y1, y2, y3,), ball_center, ball_radius
@@ -8401,6 +14177,41 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
                 x1 = y1
                 x2 = y2
                 x3 = y3
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -8471,6 +14282,11 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -8562,6 +14378,94 @@ def mirror_ball4(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball4(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball4(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball4(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball4(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball4(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -8588,8 +14492,11 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(5)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -8597,6 +14504,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -8612,6 +14526,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -8627,6 +14548,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -8642,6 +14570,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -8657,6 +14592,13 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -8675,6 +14617,38 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -8682,6 +14656,8 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -8695,16 +14671,21 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(5):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
         hit_wall = -1
         frac = 2.0
@@ -8740,13 +14721,58 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2) >= react_inner2
+                    ):
+                        near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball5(
+                            rs, (x0, x1, x2, x3, x4,),
+                            (y0, y1, y2, y3, y4,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball5(
+                        (y0, y1, y2, y3, y4,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball5(
                             (y0, y1, y2, y3, y4,), ball_center, ball_radius
@@ -8809,6 +14835,48 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
                 x2 = y2
                 x3 = y3
                 x4 = y4
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -8889,6 +14957,12 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -8986,6 +15060,94 @@ def mirror_ball5(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball5(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball5(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball5(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball5(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball5(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -9012,8 +15174,11 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(6)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -9021,6 +15186,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9036,6 +15208,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9051,6 +15230,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9066,6 +15252,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9081,6 +15274,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9096,6 +15296,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9114,6 +15321,38 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -9121,6 +15360,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -9134,17 +15375,23 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(6):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
         hit_wall = -1
         frac = 2.0
@@ -9182,13 +15429,60 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2) >= react_inner2
+                    ):
+                        near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball6(
+                            rs, (x0, x1, x2, x3, x4, x5,),
+                            (y0, y1, y2, y3, y4, y5,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball6(
+                        (y0, y1, y2, y3, y4, y5,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball6(
                             (y0, y1, y2, y3, y4, y5,), ball_center, ball_radius
@@ -9255,6 +15549,55 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
                 x3 = y3
                 x4 = y4
                 x5 = y5
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -9345,6 +15688,13 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -9448,6 +15798,94 @@ def mirror_ball6(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball6(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball6(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball6(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball6(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball6(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -9474,8 +15912,11 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(7)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -9483,6 +15924,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9498,6 +15946,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9513,6 +15968,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9528,6 +15990,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9543,6 +16012,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9558,6 +16034,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9573,6 +16056,13 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9591,6 +16081,38 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -9598,6 +16120,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -9611,18 +16135,25 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(7):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
         hit_wall = -1
         frac = 2.0
@@ -9662,13 +16193,62 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2) >= react_inner2
+                    ):
+                        near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball7(
+                            rs, (x0, x1, x2, x3, x4, x5, x6,),
+                            (y0, y1, y2, y3, y4, y5, y6,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball7(
+                        (y0, y1, y2, y3, y4, y5, y6,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball7(
                             (y0, y1, y2, y3, y4, y5, y6,), ball_center, ball_radius
@@ -9739,6 +16319,62 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
                 x4 = y4
                 x5 = y5
                 x6 = y6
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -9839,6 +16475,14 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -9948,6 +16592,94 @@ def mirror_ball7(ys, center, radius):
 
 
 @njit(nogil=True, cache=True)
+def reactive_spheres_ball7(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball7(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2 + (xs[6] - center[6]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball7(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball7(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0), center[6] + (r if 6 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball7(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale,)
+    return ys
+
+
+@njit(nogil=True, cache=True)
 def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     """Simulate ``n_walkers`` walkers to absorption or the horizon; see
     ``kernels.walkers.simulate``. Returns the walker-steps simulated."""
@@ -9974,8 +16706,11 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(8)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     s0 = motion.drift[0] * dt
     lo0 = lower[0]
     hi0 = upper[0]
@@ -9983,6 +16718,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh0 = math.inf
     al0 = -math.inf
     ah0 = math.inf
+    kl0 = -math.inf
+    kh0 = math.inf
+    ql0 = 0.0
+    qh0 = 0.0
+    pw0 = 0.0
+    reactive = reactive or kl0 > -math.inf or kh0 < math.inf
+    periodic = periodic or pw0 > 0.0
     absorbing_faces = absorbing_faces or al0 > -math.inf or ah0 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -9998,6 +16740,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh1 = math.inf
     al1 = -math.inf
     ah1 = math.inf
+    kl1 = -math.inf
+    kh1 = math.inf
+    ql1 = 0.0
+    qh1 = 0.0
+    pw1 = 0.0
+    reactive = reactive or kl1 > -math.inf or kh1 < math.inf
+    periodic = periodic or pw1 > 0.0
     absorbing_faces = absorbing_faces or al1 > -math.inf or ah1 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -10013,6 +16762,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh2 = math.inf
     al2 = -math.inf
     ah2 = math.inf
+    kl2 = -math.inf
+    kh2 = math.inf
+    ql2 = 0.0
+    qh2 = 0.0
+    pw2 = 0.0
+    reactive = reactive or kl2 > -math.inf or kh2 < math.inf
+    periodic = periodic or pw2 > 0.0
     absorbing_faces = absorbing_faces or al2 > -math.inf or ah2 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -10028,6 +16784,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh3 = math.inf
     al3 = -math.inf
     ah3 = math.inf
+    kl3 = -math.inf
+    kh3 = math.inf
+    ql3 = 0.0
+    qh3 = 0.0
+    pw3 = 0.0
+    reactive = reactive or kl3 > -math.inf or kh3 < math.inf
+    periodic = periodic or pw3 > 0.0
     absorbing_faces = absorbing_faces or al3 > -math.inf or ah3 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -10043,6 +16806,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh4 = math.inf
     al4 = -math.inf
     ah4 = math.inf
+    kl4 = -math.inf
+    kh4 = math.inf
+    ql4 = 0.0
+    qh4 = 0.0
+    pw4 = 0.0
+    reactive = reactive or kl4 > -math.inf or kh4 < math.inf
+    periodic = periodic or pw4 > 0.0
     absorbing_faces = absorbing_faces or al4 > -math.inf or ah4 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -10058,6 +16828,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh5 = math.inf
     al5 = -math.inf
     ah5 = math.inf
+    kl5 = -math.inf
+    kh5 = math.inf
+    ql5 = 0.0
+    qh5 = 0.0
+    pw5 = 0.0
+    reactive = reactive or kl5 > -math.inf or kh5 < math.inf
+    periodic = periodic or pw5 > 0.0
     absorbing_faces = absorbing_faces or al5 > -math.inf or ah5 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -10073,6 +16850,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh6 = math.inf
     al6 = -math.inf
     ah6 = math.inf
+    kl6 = -math.inf
+    kh6 = math.inf
+    ql6 = 0.0
+    qh6 = 0.0
+    pw6 = 0.0
+    reactive = reactive or kl6 > -math.inf or kh6 < math.inf
+    periodic = periodic or pw6 > 0.0
     absorbing_faces = absorbing_faces or al6 > -math.inf or ah6 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -10088,6 +16872,13 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     rh7 = math.inf
     al7 = -math.inf
     ah7 = math.inf
+    kl7 = -math.inf
+    kh7 = math.inf
+    ql7 = 0.0
+    qh7 = 0.0
+    pw7 = 0.0
+    reactive = reactive or kl7 > -math.inf or kh7 < math.inf
+    periodic = periodic or pw7 > 0.0
     absorbing_faces = absorbing_faces or al7 > -math.inf or ah7 < math.inf
     # The band of the axis: a step that starts and ends inside it crosses no
     # reflecting face and comes near no absorbing one (see _band).
@@ -10106,6 +16897,38 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    reactive = reactive or not math.isnan(geometry.ball_reactivity)
+    reflecting_ball = not geometry.ball_absorbing and math.isnan(
+        geometry.ball_reactivity
+    )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if not math.isnan(ball_reactivity):
+        react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -10113,6 +16936,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if not math.isnan(geometry.ball_reactivity):
+        inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
     steps_done = 0
 
@@ -10126,19 +16951,27 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, True, ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(8):
                 x[i] = motion.start[i]
         x0 = x[0]
+        wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x1 = x[1]
+        wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x2 = x[2]
+        wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x3 = x[3]
+        wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x4 = x[4]
+        wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x5 = x[5]
+        wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x6 = x[6]
+        wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x7 = x[7]
+        wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
         hit_wall = -1
         frac = 2.0
@@ -10180,13 +17013,64 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    # Only steps near a reactive sphere call the helper (a
+                    # call passes arrays, whose reference counts cost ~50 ns).
+                    near_sphere = False
+                    for k in range(n_targets):
+                        if (
+                            ((y0 - target_center[k, 0]) ** 2 + (y1 - target_center[k, 1]) ** 2 + (y2 - target_center[k, 2]) ** 2 + (y3 - target_center[k, 3]) ** 2 + (y4 - target_center[k, 4]) ** 2 + (y5 - target_center[k, 5]) ** 2 + (y6 - target_center[k, 6]) ** 2 + (y7 - target_center[k, 7]) ** 2)
+                            <= react_reach2[k]
+                            or ((x0 - target_center[k, 0]) ** 2 + (x1 - target_center[k, 1]) ** 2 + (x2 - target_center[k, 2]) ** 2 + (x3 - target_center[k, 3]) ** 2 + (x4 - target_center[k, 4]) ** 2 + (x5 - target_center[k, 5]) ** 2 + (x6 - target_center[k, 6]) ** 2 + (x7 - target_center[k, 7]) ** 2)
+                            <= react_reach2[k]
+                        ):
+                            near_sphere = True
+                    if (
+                        rb1 >= react_inner2
+                        or ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2 + (y7 - bc7) ** 2) >= react_inner2
+                    ):
+                        near_sphere = True
+                    if near_sphere:
+                        frac, hit_wall, ys, rs = reactive_spheres_ball8(
+                            rs, (x0, x1, x2, x3, x4, x5, x6, x7,),
+                            (y0, y1, y2, y3, y4, y5, y6, y7,), target_center,
+                            target_radius, target_reactivity, ball_center,
+                            ball_radius, ball_reactivity, frac, hit_wall,
+                            n_box_walls, react_cut, REACH * sigma, kill_scale,
+                            diffusivity, dt,
+                        )  # fmt: skip
+                        y0 = ys[0]
+                        y1 = ys[1]
+                        y2 = ys[2]
+                        y3 = ys[3]
+                        y4 = ys[4]
+                        y5 = ys[5]
+                        y6 = ys[6]
+                        y7 = ys[7]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror_ball8(
+                        (y0, y1, y2, y3, y4, y5, y6, y7,), obstacle_center, obstacle_radius
+                    )
+                    y0 = ys[0]
+                    y1 = ys[1]
+                    y2 = ys[2]
+                    y3 = ys[3]
+                    y4 = ys[4]
+                    y5 = ys[5]
+                    y6 = ys[6]
+                    y7 = ys[7]
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
                 # The ball's surface: radial mirror image, or distances along
                 # the radius (to the tangent plane) within REACH sigma of it.
                 rb2 = ((y0 - bc0) ** 2 + (y1 - bc1) ** 2 + (y2 - bc2) ** 2 + (y3 - bc3) ** 2 + (y4 - bc4) ** 2 + (y5 - bc5) ** 2 + (y6 - bc6) ** 2 + (y7 - bc7) ** 2)
-                if not geometry.ball_absorbing:
+                if reflecting_ball:
                     if rb2 > ball_r2:
                         ys = mirror_ball8(
                             (y0, y1, y2, y3, y4, y5, y6, y7,), ball_center, ball_radius
@@ -10261,6 +17145,69 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
                 x5 = y5
                 x6 = y6
                 x7 = y7
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    if pw0 > 0.0 and (x0 < lo0 or x0 >= hi0):
+                        n_wrap = math.floor((x0 - lo0) / pw0)
+                        x0 = x0 - n_wrap * pw0
+                        if x0 < lo0 or x0 >= hi0:  # rounding at a face
+                            x0 = lo0
+                        wrap0 = wrap0 + n_wrap
+                        wrapped = True
+                    if pw1 > 0.0 and (x1 < lo1 or x1 >= hi1):
+                        n_wrap = math.floor((x1 - lo1) / pw1)
+                        x1 = x1 - n_wrap * pw1
+                        if x1 < lo1 or x1 >= hi1:  # rounding at a face
+                            x1 = lo1
+                        wrap1 = wrap1 + n_wrap
+                        wrapped = True
+                    if pw2 > 0.0 and (x2 < lo2 or x2 >= hi2):
+                        n_wrap = math.floor((x2 - lo2) / pw2)
+                        x2 = x2 - n_wrap * pw2
+                        if x2 < lo2 or x2 >= hi2:  # rounding at a face
+                            x2 = lo2
+                        wrap2 = wrap2 + n_wrap
+                        wrapped = True
+                    if pw3 > 0.0 and (x3 < lo3 or x3 >= hi3):
+                        n_wrap = math.floor((x3 - lo3) / pw3)
+                        x3 = x3 - n_wrap * pw3
+                        if x3 < lo3 or x3 >= hi3:  # rounding at a face
+                            x3 = lo3
+                        wrap3 = wrap3 + n_wrap
+                        wrapped = True
+                    if pw4 > 0.0 and (x4 < lo4 or x4 >= hi4):
+                        n_wrap = math.floor((x4 - lo4) / pw4)
+                        x4 = x4 - n_wrap * pw4
+                        if x4 < lo4 or x4 >= hi4:  # rounding at a face
+                            x4 = lo4
+                        wrap4 = wrap4 + n_wrap
+                        wrapped = True
+                    if pw5 > 0.0 and (x5 < lo5 or x5 >= hi5):
+                        n_wrap = math.floor((x5 - lo5) / pw5)
+                        x5 = x5 - n_wrap * pw5
+                        if x5 < lo5 or x5 >= hi5:  # rounding at a face
+                            x5 = lo5
+                        wrap5 = wrap5 + n_wrap
+                        wrapped = True
+                    if pw6 > 0.0 and (x6 < lo6 or x6 >= hi6):
+                        n_wrap = math.floor((x6 - lo6) / pw6)
+                        x6 = x6 - n_wrap * pw6
+                        if x6 < lo6 or x6 >= hi6:  # rounding at a face
+                            x6 = lo6
+                        wrap6 = wrap6 + n_wrap
+                        wrapped = True
+                    if pw7 > 0.0 and (x7 < lo7 or x7 >= hi7):
+                        n_wrap = math.floor((x7 - lo7) / pw7)
+                        x7 = x7 - n_wrap * pw7
+                        if x7 < lo7 or x7 >= hi7:  # rounding at a face
+                            x7 = lo7
+                        wrap7 = wrap7 + n_wrap
+                        wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = ((x0 - tc0) ** 2 + (x1 - tc1) ** 2 + (x2 - tc2) ** 2 + (x3 - tc3) ** 2 + (x4 - tc4) ** 2 + (x5 - tc5) ** 2 + (x6 - tc6) ** 2 + (x7 - tc7) ** 2)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -10371,6 +17318,15 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            out.displacement[w, 0] = x0 + wrap0 * pw0 - x[0]
+            out.displacement[w, 1] = x1 + wrap1 * pw1 - x[1]
+            out.displacement[w, 2] = x2 + wrap2 * pw2 - x[2]
+            out.displacement[w, 3] = x3 + wrap3 * pw3 - x[3]
+            out.displacement[w, 4] = x4 + wrap4 * pw4 - x[4]
+            out.displacement[w, 5] = x5 + wrap5 * pw5 - x[5]
+            out.displacement[w, 6] = x6 + wrap6 * pw6 - x[6]
+            out.displacement[w, 7] = x7 + wrap7 * pw7 - x[7]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -10483,6 +17439,94 @@ def mirror_ball8(ys, center, radius):
         r = math.sqrt(d2)
         scale = (2.0 * radius - r) / r
         ys = (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def reactive_spheres_ball8(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = ((xs[0] - target_center[k, 0]) ** 2 + (xs[1] - target_center[k, 1]) ** 2 + (xs[2] - target_center[k, 2]) ** 2 + (xs[3] - target_center[k, 3]) ** 2 + (xs[4] - target_center[k, 4]) ** 2 + (xs[5] - target_center[k, 5]) ** 2 + (xs[6] - target_center[k, 6]) ** 2 + (xs[7] - target_center[k, 7]) ** 2)
+        r2 = ((ys[0] - target_center[k, 0]) ** 2 + (ys[1] - target_center[k, 1]) ** 2 + (ys[2] - target_center[k, 2]) ** 2 + (ys[3] - target_center[k, 3]) ** 2 + (ys[4] - target_center[k, 4]) ** 2 + (ys[5] - target_center[k, 5]) ** 2 + (ys[6] - target_center[k, 6]) ** 2 + (ys[7] - target_center[k, 7]) ** 2)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball8(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    kappa = ball_reactivity
+    if not math.isnan(kappa):
+        center, radius = ball_center, ball_radius
+        near2 = max(radius - reach, 0.0) ** 2
+        r1 = ((xs[0] - center[0]) ** 2 + (xs[1] - center[1]) ** 2 + (xs[2] - center[2]) ** 2 + (xs[3] - center[3]) ** 2 + (xs[4] - center[4]) ** 2 + (xs[5] - center[5]) ** 2 + (xs[6] - center[6]) ** 2 + (xs[7] - center[7]) ** 2)
+        r2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if r1 < near2 and r2 < near2:
+            return frac, hit_wall, ys, rs
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = radius - r1
+        d2 = radius - r2
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial_ball8(ys, xs, center, max(radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+@njit(nogil=True, cache=True)
+def radial_ball8(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+    if d2 == 0.0:
+        ys = xs
+        d2 = ((ys[0] - center[0]) ** 2 + (ys[1] - center[1]) ** 2 + (ys[2] - center[2]) ** 2 + (ys[3] - center[3]) ** 2 + (ys[4] - center[4]) ** 2 + (ys[5] - center[5]) ** 2 + (ys[6] - center[6]) ** 2 + (ys[7] - center[7]) ** 2)
+        if d2 == 0.0:
+            return (center[0] + (r if 0 == 0 else 0.0), center[1] + (r if 1 == 0 else 0.0), center[2] + (r if 2 == 0 else 0.0), center[3] + (r if 3 == 0 else 0.0), center[4] + (r if 4 == 0 else 0.0), center[5] + (r if 5 == 0 else 0.0), center[6] + (r if 6 == 0 else 0.0), center[7] + (r if 7 == 0 else 0.0),)
+    scale = r / math.sqrt(d2)
+    return (center[0] + (ys[0] - center[0]) * scale, center[1] + (ys[1] - center[1]) * scale, center[2] + (ys[2] - center[2]) * scale, center[3] + (ys[3] - center[3]) * scale, center[4] + (ys[4] - center[4]) * scale, center[5] + (ys[5] - center[5]) * scale, center[6] + (ys[6] - center[6]) * scale, center[7] + (ys[7] - center[7]) * scale,)
+
+
+@njit(nogil=True, cache=True)
+def obstacle_mirror_ball8(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = ((ys[0] - obstacle_center[k, 0]) ** 2 + (ys[1] - obstacle_center[k, 1]) ** 2 + (ys[2] - obstacle_center[k, 2]) ** 2 + (ys[3] - obstacle_center[k, 3]) ** 2 + (ys[4] - obstacle_center[k, 4]) ** 2 + (ys[5] - obstacle_center[k, 5]) ** 2 + (ys[6] - obstacle_center[k, 6]) ** 2 + (ys[7] - obstacle_center[k, 7]) ** 2)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = (obstacle_center[k, 0] + (2.0 * a if 0 == 0 else 0.0), obstacle_center[k, 1] + (2.0 * a if 1 == 0 else 0.0), obstacle_center[k, 2] + (2.0 * a if 2 == 0 else 0.0), obstacle_center[k, 3] + (2.0 * a if 3 == 0 else 0.0), obstacle_center[k, 4] + (2.0 * a if 4 == 0 else 0.0), obstacle_center[k, 5] + (2.0 * a if 5 == 0 else 0.0), obstacle_center[k, 6] + (2.0 * a if 6 == 0 else 0.0), obstacle_center[k, 7] + (2.0 * a if 7 == 0 else 0.0),)
+            else:
+                scale = (2.0 * a - r) / r
+                ys = (obstacle_center[k, 0] + (ys[0] - obstacle_center[k, 0]) * scale, obstacle_center[k, 1] + (ys[1] - obstacle_center[k, 1]) * scale, obstacle_center[k, 2] + (ys[2] - obstacle_center[k, 2]) * scale, obstacle_center[k, 3] + (ys[3] - obstacle_center[k, 3]) * scale, obstacle_center[k, 4] + (ys[4] - obstacle_center[k, 4]) * scale, obstacle_center[k, 5] + (ys[5] - obstacle_center[k, 5]) * scale, obstacle_center[k, 6] + (ys[6] - obstacle_center[k, 6]) * scale, obstacle_center[k, 7] + (ys[7] - obstacle_center[k, 7]) * scale,)
+    return ys
 
 
 #: (kind, dimension) -> its compiled loop.

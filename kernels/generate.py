@@ -34,8 +34,8 @@ DIMENSIONS = range(1, 9)
 #: Names the template imports from kernels/walkers.py.
 HELPERS = (
     "BRIDGE_CUTOFF", "REACH", "SURFACE_MARGIN", "_band", "_cell_next", "_crossing",
-    "_earliest", "_fold", "_free", "_random_state", "_store_state", "draw_normal",
-    "draw_uniform",
+    "_earliest", "_fold", "_free", "_outside", "_random_state", "_react",
+    "_store_state", "draw_normal", "draw_uniform",
 )  # fmt: skip
 
 _STATIC_IF = re.compile(r"^(\s*)(if|elif) static\((.*)\):\s*$")
@@ -196,13 +196,19 @@ def specialise(source: str, kind: str, dim: int) -> str:
         for other, _ in functions:
             body = re.sub(rf"\b{other}\(", f"{other}{suffix}(", body)
         out.append("@njit(nogil=True, cache=True)\n" + body)
-    # The loop first; a helper only if this variant calls it (a box has no mirror).
+    # The loop first; a helper only if this variant calls it, directly or through
+    # another helper (a box has no mirror).
     calls = out[0]
-    used = [
-        text
-        for (name, _), text in zip(functions[1:], out[1:])
-        if f"{name}{suffix}(" in calls
-    ]
+    used: list[str] = []
+    grew = True
+    while grew:
+        grew = False
+        for (name, _), text in zip(functions[1:], out[1:]):
+            if text not in used and f"{name}{suffix}(" in calls:
+                used.append(text)
+                calls += text
+                grew = True
+    used.sort(key=out.index)
     return "\n\n\n".join([out[0], *used])
 
 

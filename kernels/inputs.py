@@ -37,7 +37,19 @@ class Geometry(NamedTuple):
     ball_absorbing : bool
     target_center : float64 (k, d)
     target_radius : float64 (k,)
-        Absorbing balls inside the domain.
+        Balls inside the domain that absorb (or react with) walkers.
+    reactivity_lower, reactivity_upper : float64 (d,)
+        Reactivity kappa (length / time) of each reactive box face; NaN for faces that
+        are not reactive (those follow ``absorbing_lower`` / ``absorbing_upper``).
+    periodic : bool (d,)
+        Axes whose two faces are periodic (box only).
+    ball_reactivity : float
+        Reactivity of the ball's surface; NaN when it is not reactive.
+    target_reactivity : float64 (k,)
+        Reactivity of each target; NaN for absorbing targets.
+    obstacle_center : float64 (m, d)
+    obstacle_radius : float64 (m,)
+        Reflecting balls inside the domain.
     """
 
     lower: NDArray[np.float64]
@@ -49,6 +61,13 @@ class Geometry(NamedTuple):
     ball_absorbing: bool
     target_center: NDArray[np.float64]
     target_radius: NDArray[np.float64]
+    reactivity_lower: NDArray[np.float64]
+    reactivity_upper: NDArray[np.float64]
+    periodic: NDArray[np.bool_]
+    ball_reactivity: float
+    target_reactivity: NDArray[np.float64]
+    obstacle_center: NDArray[np.float64]
+    obstacle_radius: NDArray[np.float64]
 
     @property
     def dimension(self) -> int:
@@ -115,6 +134,9 @@ class Recording(NamedTuple):
         Their width, time units.
     final : bool
         Whether the position at the horizon of censored walkers is recorded.
+    displacement : bool
+        Whether each walker's unwrapped displacement (through periodic faces) from its
+        start to its end (absorption or the horizon) is recorded.
     """
 
     survival_times: NDArray[np.float64]
@@ -125,6 +147,7 @@ class Recording(NamedTuple):
     fpt_bins: int
     fpt_bin_width: float
     final: bool
+    displacement: bool
 
 
 class Outputs(NamedTuple):
@@ -146,6 +169,9 @@ class Outputs(NamedTuple):
         Position at the horizon of walkers still free then; NaN for absorbed ones.
     fpt_hist : int64 (n_walls, fpt_bins), or (0, 0) when not recorded
         Incremented at [wall, floor(time / fpt_bin_width)] per absorbed walker.
+    displacement : float64 (n_walkers, d), or (0, d) when not recorded
+        End position minus start position, unwrapped: each crossing of a periodic face
+        adds the box width along that axis (length units).
     """
 
     time: NDArray[np.float64]
@@ -155,6 +181,7 @@ class Outputs(NamedTuple):
     occupancy: NDArray[np.int64]
     final: NDArray[np.float64]
     fpt_hist: NDArray[np.int64]
+    displacement: NDArray[np.float64]
 
 
 # ------------------------------------------------------------------------- builders
@@ -171,10 +198,20 @@ def geometry(
     ball_absorbing: bool = True,
     target_center: Sequence[Sequence[float]] = (),
     target_radius: Sequence[float] = (),
+    reactivity_lower: Sequence[float] | None = None,
+    reactivity_upper: Sequence[float] | None = None,
+    periodic: Sequence[bool] | None = None,
+    ball_reactivity: float = math.nan,
+    target_reactivity: Sequence[float] | None = None,
+    obstacle_center: Sequence[Sequence[float]] = (),
+    obstacle_radius: Sequence[float] = (),
 ) -> Geometry:
-    """A box (``ball_radius`` infinite) or a ball, with targets; see :class:`Geometry`."""
+    """A box (``ball_radius`` infinite) or a ball, with targets and obstacles; see
+    :class:`Geometry`. Reactivities default to NaN (not reactive)."""
     d = len(lower)
+    k = len(target_radius)
     f64 = np.float64
+    nan = math.nan
     return Geometry(
         lower=np.array(lower, f64),
         upper=np.array(upper, f64),
@@ -187,6 +224,19 @@ def geometry(
         ball_absorbing=bool(ball_absorbing),
         target_center=np.array(target_center, f64).reshape(len(target_radius), d),
         target_radius=np.array(target_radius, f64).reshape(-1),
+        reactivity_lower=np.array(
+            reactivity_lower if reactivity_lower is not None else [nan] * d, f64
+        ),
+        reactivity_upper=np.array(
+            reactivity_upper if reactivity_upper is not None else [nan] * d, f64
+        ),
+        periodic=np.array(periodic if periodic is not None else [False] * d, np.bool_),
+        ball_reactivity=float(ball_reactivity),
+        target_reactivity=np.array(
+            target_reactivity if target_reactivity is not None else [nan] * k, f64
+        ).reshape(k),
+        obstacle_center=np.array(obstacle_center, f64).reshape(len(obstacle_radius), d),
+        obstacle_radius=np.array(obstacle_radius, f64).reshape(-1),
     )
 
 
@@ -224,6 +274,7 @@ def recording(
     fpt_bins: int = 0,
     fpt_bin_width: float = 1.0,
     final: bool = False,
+    displacement: bool = False,
 ) -> Recording:
     """What to record; see :class:`Recording`. Snapshot steps must be ascending."""
     f64 = np.float64
@@ -241,6 +292,7 @@ def recording(
         fpt_bins=int(fpt_bins),
         fpt_bin_width=float(fpt_bin_width),
         final=bool(final),
+        displacement=bool(displacement),
     )
 
 
@@ -260,4 +312,5 @@ def allocate(n_walkers: int, geometry: Geometry, recording: Recording) -> Output
         fpt_hist=np.zeros(
             (geometry.n_walls, r.fpt_bins) if r.fpt_bins else (0, 0), np.int64
         ),
+        displacement=np.empty((n_walkers if r.displacement else 0, d), np.float64),
     )

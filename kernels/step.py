@@ -38,7 +38,14 @@ those of the kernel before this template (``benchmarks/bit_identity.py`` checks 
 Adding a kind of surface: its parameters go into ``Geometry`` (``kernels/inputs.py``);
 here, one block in section 3 ("surfaces near the step") that computes the signed
 distances d1, d2 of the step's start and end and calls ``_earliest``, one placement
-in section 5 ("exit point"), and a wall index after the existing ones.
+in section 5 ("exit point"), and a wall index after the existing ones. Surfaces that
+move the step's end come before section 3, each in one block: 2b reactive surfaces
+(faces inline, spheres in ``reactive_spheres``; ``_react`` gives the push and the
+reaction), 2c obstacles (``obstacle_mirror``); periodic faces wrap the new position
+after the step, and the bookkeeping adds the widths crossed to the displacement.
+Each new kind also has one setup line per axis (its face positions) and a flag that
+skips its block, so definitions without it run the same instructions and draws as
+before (``benchmarks/bit_identity.py``).
 """
 
 
@@ -71,8 +78,11 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
     hist = np.zeros(n_survival + 1, np.int64)
     x = np.empty(DIM)  # start and end point of a walker
     # Per axis: drift per step, reflecting faces (rl, rh) and absorbing faces (al,
-    # ah), absent ones at -+inf (where every product test is +inf); box; histogram.
+    # ah), absent ones at -+inf (where every product test is +inf); box; histogram;
+    # reactive faces (kl, kh, with q = kappa / D) and periodic width pw (0: none).
     absorbing_faces = False
+    reactive = False
+    periodic = False
     for i in AXES:
         s_i = motion.drift[i] * dt
         lo_i = lower[i]
@@ -81,15 +91,33 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         rh_i = math.inf
         al_i = -math.inf
         ah_i = math.inf
+        kl_i = -math.inf
+        kh_i = math.inf
+        ql_i = 0.0
+        qh_i = 0.0
+        pw_i = 0.0
         if static(KIND != BALL):
+            # Reactive and periodic faces: see the blocks "2b" and "periodic" below.
+            if not math.isnan(geometry.reactivity_lower[i]):
+                kl_i = lower[i]
+                ql_i = geometry.reactivity_lower[i] / diffusivity
+            if not math.isnan(geometry.reactivity_upper[i]):
+                kh_i = upper[i]
+                qh_i = geometry.reactivity_upper[i] / diffusivity
+            if geometry.periodic[i]:
+                pw_i = upper[i] - lower[i]
+            special_lower = kl_i > -math.inf or pw_i > 0.0
+            special_upper = kh_i < math.inf or pw_i > 0.0
             if geometry.absorbing_lower[i]:
                 al_i = lower[i]
-            else:
+            elif not special_lower:
                 rl_i = lower[i]
             if geometry.absorbing_upper[i]:
                 ah_i = upper[i]
-            else:
+            elif not special_upper:
                 rh_i = upper[i]
+        reactive = reactive or kl_i > -math.inf or kh_i < math.inf
+        periodic = periodic or pw_i > 0.0
         absorbing_faces = absorbing_faces or al_i > -math.inf or ah_i < math.inf
         # The band of the axis: a step that starts and ends inside it crosses no
         # reflecting face and comes near no absorbing one (see _band).
@@ -108,6 +136,40 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         else:
             reach = target_radius[k] * (1.0 + SURFACE_MARGIN)
         reach2[k] = reach * reach
+        if not math.isnan(geometry.target_reactivity[k]):
+            # A reactive target is resolved in block 2b, never as an absorbing one:
+            # a negative reach keeps the absorbing tests below from examining it.
+            reach2[k] = -1.0
+            reactive = True
+    if static(KIND == BALL):
+        reactive = reactive or not math.isnan(geometry.ball_reactivity)
+        reflecting_ball = not geometry.ball_absorbing and math.isnan(
+            geometry.ball_reactivity
+        )
+    # Reactive surfaces always use the bridge (their reflection needs its minimum).
+    # Helpers get arrays, not the whole geometry: passing the NamedTuple of arrays
+    # costs reference counting of every array at every call.
+    target_reactivity = geometry.target_reactivity
+    ball_reactivity = geometry.ball_reactivity
+    react_cut = BRIDGE_CUTOFF * diffusivity * dt
+    # Squared reach of each reactive target (-1: not reactive) and, for a reactive
+    # ball wall, the squared radius inside which steps are clear of it (inf: none).
+    react_reach2 = np.empty(n_targets)
+    for k in range(n_targets):
+        if math.isnan(target_reactivity[k]):
+            react_reach2[k] = -1.0
+        else:
+            react_reach2[k] = (target_radius[k] + REACH * sigma) ** 2
+    react_inner2 = math.inf
+    if static(KIND == BALL):
+        if not math.isnan(ball_reactivity):
+            react_inner2 = max(ball_radius - REACH * sigma, 0.0) ** 2
+    obstacle_center, obstacle_radius = (
+        geometry.obstacle_center,
+        geometry.obstacle_radius,
+    )
+    n_obstacles = obstacle_radius.shape[0]
+    record_displacement = out.displacement.shape[0] > 0
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:
@@ -115,6 +177,9 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
     else:
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
+    if static(KIND == BALL):
+        if not math.isnan(geometry.ball_reactivity):
+            inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     if static(KIND == BOX_TARGETS):
         has_targets = True
     else:
@@ -131,13 +196,14 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                 if _free(
                     x, static(KIND == BALL), ball_center, ball_radius, target_center,
                     target_radius,
-                ):  # fmt: skip
+                ) and _outside(x, obstacle_center, obstacle_radius):  # fmt: skip
                     break
         else:
             for i in range(DIM):
                 x[i] = motion.start[i]
         for i in AXES:
             x_i = x[i]
+            wrap_i = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = all((blo_i <= x_i) & (x_i <= bhi_i) for i in AXES)
         hit_wall = -1
         frac = 2.0
@@ -189,6 +255,73 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                         for i in AXES:
                             y_i = c_i
                         x_inside = all((blo_i <= y_i) & (y_i <= bhi_i) for i in AXES)
+                # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
+                #     by the Skorokhod push, reacting when the push (local time)
+                #     passes an exponential threshold (_react); a reaction is a
+                #     crossing like any other in section 3.
+                if reactive:
+                    if static(KIND != BALL):
+                        for i in AXES:
+                            if (x_i - kl_i) * (y_i - kl_i) <= react_cut:
+                                f, push, rs = _react(
+                                    rs, x_i - kl_i, y_i - kl_i, ql_i, kill_scale,
+                                    diffusivity, dt,
+                                )  # fmt: skip
+                                y_i = y_i + push
+                                if f < frac:
+                                    frac = f
+                                    hit_wall = 2 * i
+                            if (x_i - kh_i) * (y_i - kh_i) <= react_cut:
+                                f, push, rs = _react(
+                                    rs, kh_i - x_i, kh_i - y_i, qh_i, kill_scale,
+                                    diffusivity, dt,
+                                )  # fmt: skip
+                                y_i = y_i - push
+                                if f < frac:
+                                    frac = f
+                                    hit_wall = 2 * i + 1
+                    if static(KIND != BOX):
+                        # Only steps near a reactive sphere call the helper (a
+                        # call passes arrays, whose reference counts cost ~50 ns).
+                        near_sphere = False
+                        for k in range(n_targets):
+                            if (
+                                sum((y_i - target_center[k, i]) ** 2 for i in AXES)
+                                <= react_reach2[k]
+                                or sum((x_i - target_center[k, i]) ** 2 for i in AXES)
+                                <= react_reach2[k]
+                            ):
+                                near_sphere = True
+                        if static(KIND == BALL):
+                            if (
+                                rb1 >= react_inner2
+                                or sum((y_i - bc_i) ** 2 for i in AXES) >= react_inner2
+                            ):
+                                near_sphere = True
+                        if near_sphere:
+                            frac, hit_wall, ys, rs = reactive_spheres(
+                                rs, tuple(x_i for i in AXES),
+                                tuple(y_i for i in AXES), target_center,
+                                target_radius, target_reactivity, ball_center,
+                                ball_radius, ball_reactivity, frac, hit_wall,
+                                n_box_walls, react_cut, REACH * sigma, kill_scale,
+                                diffusivity, dt,
+                            )  # fmt: skip
+                            for i in AXES:
+                                y_i = ys[i]
+                # 2c. Reflecting obstacles: radial mirror image out of the ball.
+                if n_obstacles > 0:
+                    ys = obstacle_mirror(
+                        tuple(y_i for i in AXES), obstacle_center, obstacle_radius
+                    )
+                    for i in AXES:
+                        y_i = ys[i]
+                if static(KIND != BALL):
+                    if reactive or n_obstacles > 0:
+                        # A push or mirror may move the end out of the band: then
+                        # the faces are examined after all (conservative).
+                        x_inside = all((blo_i <= y_i) & (y_i <= bhi_i) for i in AXES)
+                        near = near or not x_inside
                 # 3. Surfaces near the step: each resolved by _earliest (crossed at
                 #    the end, or with the bridge's probability in between); the
                 #    earliest crossing wins, ties to the lowest wall index.
@@ -222,7 +355,7 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     # The ball's surface: radial mirror image, or distances along
                     # the radius (to the tangent plane) within REACH sigma of it.
                     rb2 = sum((y_i - bc_i) ** 2 for i in AXES)
-                    if not geometry.ball_absorbing:
+                    if reflecting_ball:
                         if rb2 > ball_r2:
                             ys = mirror(
                                 tuple(y_i for i in AXES), ball_center, ball_radius
@@ -273,6 +406,21 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                     break
                 for i in AXES:
                     x_i = y_i
+                if periodic:
+                    # Periodic faces: back into the primary cell, counting the
+                    # widths crossed; carried target distances are recomputed.
+                    wrapped = False
+                    for i in AXES:
+                        if pw_i > 0.0 and (x_i < lo_i or x_i >= hi_i):
+                            n_wrap = math.floor((x_i - lo_i) / pw_i)
+                            x_i = x_i - n_wrap * pw_i
+                            if x_i < lo_i or x_i >= hi_i:  # rounding at a face
+                                x_i = lo_i
+                            wrap_i = wrap_i + n_wrap
+                            wrapped = True
+                    if wrapped and n_targets > 0:
+                        r1_0 = sum((x_i - tc_i) ** 2 for i in AXES)
+                        far = np.int64(0)
             if hit_wall >= 0:
                 break
             if step == next_snapshot:
@@ -322,6 +470,9 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
         # 6. Bookkeeping: time, wall, position, histograms, survival counts.
         steps_done += step
         out.wall[w] = hit_wall
+        if record_displacement:
+            for i in AXES:
+                out.displacement[w, i] = x_i + wrap_i * pw_i - x[i]
         if hit_wall >= 0:
             hit_time = (step - 1 + frac) * dt
             out.time[w] = hit_time
@@ -392,3 +543,94 @@ def mirror(ys, center, radius):
         r = math.sqrt(d2)
         scale = (2.0 * radius - r) / r
         ys = tuple(center[i] + (ys[i] - center[i]) * scale for i in AXES)
+
+
+def reactive_spheres(
+    rs, xs, ys, target_center, target_radius, target_reactivity, ball_center,
+    ball_radius, ball_reactivity, frac, hit_wall, n_box_walls, cut, reach, kill_scale,
+    diffusivity, dt,
+):  # fmt: skip
+    """Reactive targets and (ball) the reactive ball wall for the step ``xs`` ->
+    ``ys`` (tuples of the axes): distances along the radius (to the tangent plane,
+    as for absorbing spheres), the push applied radially. Returns (frac, hit_wall,
+    ys, rs). Steps farther than ``reach`` (REACH sigma) from a surface are skipped
+    before any square root, as for absorbing targets."""
+    for k in range(target_radius.shape[0]):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = sum((xs[i] - target_center[k, i]) ** 2 for i in AXES)
+        r2 = sum((ys[i] - target_center[k, i]) ** 2 for i in AXES)
+        if r1 > far2 and r2 > far2:
+            continue
+        r1 = math.sqrt(r1)
+        r2 = math.sqrt(r2)
+        d1 = r1 - target_radius[k]
+        d2 = r2 - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+            )
+            if push > 0.0:
+                ys = radial(ys, xs, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    if static(KIND == BALL):
+        kappa = ball_reactivity
+        if not math.isnan(kappa):
+            center, radius = ball_center, ball_radius
+            near2 = max(radius - reach, 0.0) ** 2
+            r1 = sum((xs[i] - center[i]) ** 2 for i in AXES)
+            r2 = sum((ys[i] - center[i]) ** 2 for i in AXES)
+            if r1 < near2 and r2 < near2:
+                return frac, hit_wall, ys, rs
+            r1 = math.sqrt(r1)
+            r2 = math.sqrt(r2)
+            d1 = radius - r1
+            d2 = radius - r2
+            if d1 * d2 <= cut:
+                f, push, rs = _react(
+                    rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, dt
+                )
+                if push > 0.0:
+                    ys = radial(ys, xs, center, max(radius - d2 - push, 0.0))
+                if f < frac:
+                    frac = f
+                    hit_wall = target_radius.shape[0]
+    return frac, hit_wall, ys, rs
+
+
+def radial(ys, xs, center, r):
+    """``ys`` moved along its radius from ``center`` to distance ``r`` (the step's
+    start ``xs`` gives the direction if ``ys`` is the center itself)."""
+    d2 = sum((ys[i] - center[i]) ** 2 for i in AXES)
+    if d2 == 0.0:
+        ys = xs
+        d2 = sum((ys[i] - center[i]) ** 2 for i in AXES)
+        if d2 == 0.0:
+            return tuple(center[i] + (r if i == 0 else 0.0) for i in AXES)
+    scale = r / math.sqrt(d2)
+    return tuple(center[i] + (ys[i] - center[i]) * scale for i in AXES)
+
+
+def obstacle_mirror(ys, obstacle_center, obstacle_radius):
+    """The point ``ys`` (a tuple of the axes) mirrored radially out of every
+    reflecting obstacle it ends inside (distance r -> 2 a - r from the center)."""
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        d2 = sum((ys[i] - obstacle_center[k, i]) ** 2 for i in AXES)
+        if d2 < a * a:
+            r = math.sqrt(d2)
+            if r == 0.0:
+                ys = tuple(
+                    obstacle_center[k, i] + (2.0 * a if i == 0 else 0.0) for i in AXES
+                )
+            else:
+                scale = (2.0 * a - r) / r
+                ys = tuple(
+                    obstacle_center[k, i] + (ys[i] - obstacle_center[k, i]) * scale
+                    for i in AXES
+                )
+    return ys

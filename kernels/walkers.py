@@ -17,7 +17,10 @@ Each axis moves as ``dX = drift dt + sqrt(2 D) dW``; a step draws one standard n
 per axis. Walls:
 
 * reflecting flat wall: the increment is mirrored (exact in law without drift);
-* reflecting ball surface: radial mirror image;
+* reflecting ball surface and obstacles: radial mirror image;
+* reactive (partially absorbing) surfaces: Skorokhod push, reacting when the
+  boundary local time passes an exponential threshold (:func:`_react`);
+* periodic faces: positions wrapped into the cell, widths crossed counted;
 * absorbing wall, target or ball surface: a walker whose step ends beyond it is absorbed.
   With ``bridge`` on, a walker whose step ends inside is also absorbed with the
   Brownian-bridge crossing probability ``exp(-(a - x1)(a - x2) / (D dt))`` (curved
@@ -381,6 +384,56 @@ def _crossing(rs, d1, d2, kill_scale, diffusivity, dt, bridge):  # type: ignore[
         if u >= math.exp(-z):
             return 2.0, rs
     return _hit_fraction(rs, d1, abs(d2), diffusivity, dt, bridge)
+
+
+#: The smallest uniform the bridge-minimum formula takes (log(0) would give an
+#: infinite push; a uniform this small has probability 2^-53 per draw).
+TINY_UNIFORM = 2.0**-60
+
+
+@njit(nogil=True, cache=True)
+def _react(rs, d1, d2, q, kill_scale, diffusivity, dt):  # type: ignore[no-untyped-def]
+    """(Step fraction of a reaction, or 2.0 when none; push >= 0; state) for a reactive
+    surface near the step (Robin condition D dp/dn = kappa p; ``q`` = kappa / D).
+
+    ``d1`` >= 0 and ``d2`` are the signed distances of the free step's start and end
+    from the surface (negative: beyond it). The walker is reflected by the Skorokhod
+    map: the end moves along the normal by ``push`` = -m, m < 0 the Brownian bridge's
+    minimum distance (analytic reference F4, G2: exact in law for a flat wall, with or
+    without drift). The push is the boundary local time the step adds, and a reaction
+    happens when the accumulated local time passes an exponential threshold of rate
+    q (the encounter-based form of the Robin condition, survival E[exp(-q l)];
+    Grebenkov 2020, Phys. Rev. Lett. 125, 078102 [abstract seen; q = kappa / D
+    derived in docs/surfaces.md]): each step draws its own threshold
+    (memoryless), reacts with probability 1 - exp(-q push), and then at the time the
+    bridge first reaches the depth of the threshold (F6). No step-size limit:
+    kappa = inf reacts at the first touch (absorbing), kappa = 0 never (reflecting).
+    The bridge's crossing test and its minimum share one uniform (an end inside is
+    touched exactly when the minimum from that uniform is negative).
+    """
+    u, rs = draw_uniform(rs)
+    if d2 > 0.0 and u >= math.exp(-d1 * d2 * kill_scale):
+        return 2.0, 0.0, rs
+    g = d2 - d1
+    spread = 4.0 * diffusivity * dt * math.log(max(u, TINY_UNIFORM))
+    push = -0.5 * (d1 + d2 - math.sqrt(g * g - spread))
+    if push <= 0.0:
+        return 2.0, 0.0, rs
+    v, rs = draw_uniform(rs)
+    if v >= -math.expm1(-q * push):
+        return 2.0, push, rs
+    level = -math.log1p(-v) / q
+    f, rs = _hit_fraction(rs, d1 + level, abs(d2 + level), diffusivity, dt, True)
+    return f, push, rs
+
+
+@njit(nogil=True, cache=True)
+def _outside(x, obstacle_center, obstacle_radius):  # type: ignore[no-untyped-def]
+    """Whether ``x`` lies outside every obstacle (no obstacles: True, no draws)."""
+    for k in range(obstacle_radius.shape[0]):
+        if _norm(x, obstacle_center[k]) <= obstacle_radius[k]:
+            return False
+    return True
 
 
 @njit(nogil=True, cache=True)

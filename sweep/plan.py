@@ -19,7 +19,7 @@ from numpy.typing import NDArray
 
 from kernels import inputs
 from sweep.exit_times import centre_exit_table
-from sweep.spec import PointSpec, Sweep, axis_names
+from sweep.spec import Domain, PointSpec, Sweep, axis_names
 
 #: The generator of every task's stream, as numpy names it. SFC64 (a small fast chaotic
 #: generator with a 64-bit counter; passes PractRand and TestU01 per numpy's
@@ -165,6 +165,7 @@ def kernel_args(point: PointSpec) -> KernelArgs:
             ball_absorbing=dom.surface_absorbing,
             target_center=[t.center for t in targets],
             target_radius=[t.radius for t in targets],
+            **surface_inputs(dom),
         ),
         motion=inputs.motion(
             m.start,
@@ -186,9 +187,34 @@ def kernel_args(point: PointSpec) -> KernelArgs:
             occupancy_bins=rec.occupancy_bins,
             fpt_bins=rec.fpt_bins,
             fpt_bin_width=tm.n_steps * tm.dt / max(rec.fpt_bins, 1),
+            displacement=any(dom.periodic),
         ),
         occupancy_order=order.astype(np.int64),
         **spheres,
+    )
+
+
+def surface_inputs(dom: Domain) -> dict[str, Any]:
+    """The kernel's inputs for reactive walls and targets, periodic faces and
+    obstacles (``kernels.inputs.geometry`` keywords; NaN reactivity: not reactive)."""
+    nan = math.nan
+    d = dom.dimension
+
+    def kappas(values: tuple[float | None, ...]) -> list[float]:
+        return [nan if k is None else k for k in (values or (None,) * d)]
+
+    return dict(
+        reactivity_lower=kappas(dom.reactivity_low),
+        reactivity_upper=kappas(dom.reactivity_high),
+        periodic=list(dom.periodic or (False,) * d),
+        ball_reactivity=nan
+        if dom.surface_reactivity is None
+        else dom.surface_reactivity,
+        target_reactivity=[
+            nan if t.reactivity is None else t.reactivity for t in dom.targets
+        ],
+        obstacle_center=[o.center for o in dom.obstacles],
+        obstacle_radius=[o.radius for o in dom.obstacles],
     )
 
 
@@ -249,12 +275,18 @@ def _leaf_name(key: str) -> str:
     parts = key.split(".")
     if parts[1] == "targets":
         return f"target_{parts[2]}_{parts[3]}"
+    if parts[1] == "obstacles":
+        return f"obstacle_{parts[2]}_{parts[3]}"
+    if parts[1] == "walls" and len(parts) == 4:
+        return f"{parts[2]}_{parts[3]}"  # x_upper_reactivity
     if parts[1] == "walls":
         return f"wall_{parts[2]}"
     return parts[-1]
 
 
 def _coordinate_value(value: Any) -> Any:
+    if isinstance(value, str) and value.strip() in ("inf", "+inf", "-inf"):
+        return float(value)  # a reactivity swept up to "inf" stays a numeric column
     if isinstance(value, bool) or isinstance(value, str):
         return value
     if isinstance(value, int | float):

@@ -48,6 +48,7 @@ def simulate_task(task: Task) -> tuple[store.TaskOutput, int]:
         out.survival,
         occupancy,
         out.fpt_hist if a.recording.fpt_bins else None,
+        out.displacement if a.recording.displacement else None,
     )
     return output, int(steps)
 

@@ -127,6 +127,15 @@ def expected_steps(point: PointSpec) -> float | None:
         return JUMP_STEPS * jumps + steps
 
     horizon_steps = point.timing.n_steps
+    if point.domain.has_surface_kinds():
+        # Reactive, periodic and obstacle surfaces have their own closed forms
+        # (sweep.check.surfaces); elsewhere the pilot measures these points.
+        from sweep.check import surfaces
+
+        mean = surfaces.exact_mean(point)
+        return (
+            None if mean is None else float(min(mean / point.timing.dt, horizon_steps))
+        )
     narrow = _narrow_escape_time(point)
     if narrow is not None:
         return float(min(narrow / point.timing.dt, horizon_steps))

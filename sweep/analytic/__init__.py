@@ -16,6 +16,8 @@ family; every public name is re-exported here, so ``from sweep.analytic import X
 * :mod:`~sweep.analytic.ball`: the absorbing ball (E);
 * :mod:`~sweep.analytic.concentric`: splitting between concentric spheres (J6);
 * :mod:`~sweep.analytic.monitoring`: discrete monitoring and bridge crossings (F);
+* :mod:`~sweep.analytic.reactive`: reactive walls and targets, reflecting obstacles,
+  periodic boxes' mean-square displacement (J1-J5, A2);
 * :mod:`sweep.exit_times`: the exit time of a ball from its centre and the spheres
   scheme's table (E2, J11), kept outside this package because ``plan`` needs it.
 
@@ -84,6 +86,17 @@ from sweep.analytic.monitoring import (
     bridge_crossing_probability,
     discrete_monitoring_shift,
 )
+from sweep.analytic.reactive import (
+    ball_reactive_mean,
+    centre_target_reactive_mean,
+    free_msd,
+    free_msd_variance,
+    half_line_reactive_cdf,
+    interval_reactive_mean,
+    obstacle_ball_mean,
+    sphere_capture_probability,
+    sphere_reactive_cdf,
+)
 from sweep.analytic.series import IMAGE_SWITCH, SERIES_RTOL, FloatArray
 from sweep.exit_times import (
     EXIT_TABLE_LOGIT,
@@ -130,4 +143,13 @@ __all__ = [
     "interval_second_moment",
     "interval_splitting",
     "interval_survival",
+    "ball_reactive_mean",
+    "centre_target_reactive_mean",
+    "free_msd",
+    "free_msd_variance",
+    "half_line_reactive_cdf",
+    "interval_reactive_mean",
+    "obstacle_ball_mean",
+    "sphere_capture_probability",
+    "sphere_reactive_cdf",
 ]

@@ -18,6 +18,7 @@ import numpy as np
 import xarray as xr
 
 from sweep import analytic, stats, store
+from sweep.check import surfaces
 from sweep.check.exact import (
     _absorbing_axis,
     _allowance,
@@ -53,11 +54,21 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
     mean = stats.mean_first_passage_time(ds) if per_walker else None
     split = stats.splitting_probability(ds) if per_walker else None
     cosines = exit_cosines(ds, sweep)
+    msd = surfaces.mean_square_displacement(ds)
     for p, point in enumerate(sweep.points):
         if int(ds["walkers_done"][p]) == 0:
             unchecked.append((p, "no finished tasks yet"))
             continue
         censored = float(mean["censored"][p]) if mean is not None else math.nan
+        if surfaces.applies(point):
+            # Reactive, periodic and obstacle surfaces: their own closed forms.
+            found, why = _surface_rows(
+                p, point, surv.isel(point=p), mean, msd, censored
+            )
+            rows += found
+            if not found:
+                unchecked.append((p, why))
+            continue
         reason = unsupported(point)
         if reason:
             if concentric(point) and split is not None and censored == 0.0:
@@ -83,6 +94,36 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
         tasks_done=int((ds["done"] & ds.get("planned", True)).sum()),
         tasks_total=int(ds["planned"].sum() if "planned" in ds else ds["done"].size),
     )
+
+
+def _surface_rows(
+    p: int,
+    point: PointSpec,
+    surv: xr.Dataset,
+    mean: xr.Dataset | None,
+    msd: tuple[np.ndarray, np.ndarray] | None,
+    censored: float,
+) -> tuple[list[CheckRow], str]:
+    """Rows of a point with reactive, periodic or obstacle surfaces
+    (:mod:`sweep.check.surfaces`)."""
+    m = None
+    if mean is not None and censored == 0.0:
+        m = (float(mean["estimate"][p]), float(mean["stderr"][p]))
+    found, why = surfaces.comparisons(
+        point,
+        surv["time"].values,
+        surv["estimate"].values,
+        float(surv["n"]),
+        m,
+        (float(msd[0][p]), float(msd[1][p])) if msd is not None else None,
+        SURVIVAL_RANGE,
+        SURVIVAL_TIMES,
+    )
+    rows = [
+        _row(p, c.statistic, c.simulated, c.stderr, c.exact, c.source, 0.0)
+        for c in found
+    ]
+    return rows, why
 
 
 def _nothing_comparable(point: PointSpec, censored: float) -> str:

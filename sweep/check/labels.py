@@ -10,7 +10,7 @@ import math
 from collections.abc import Sequence
 
 from sweep.plan import coordinate_columns
-from sweep.spec import Sweep, key_quantity
+from sweep.spec import Domain, Sweep, key_quantity
 
 
 def parameters(sweep: Sweep) -> dict[str, list[object]]:
@@ -49,6 +49,21 @@ def point_labels(sweep: Sweep) -> list[str]:
     ]
 
 
+def wall_words(dom: Domain) -> list[str]:
+    """Per wall of ``dom.wall_names()``: "reactive (κ ...)" or "periodic", "" for
+    the plain kinds (the caller names those)."""
+    periodic = dom.periodic or (False,) * dom.dimension
+    words = []
+    for index, kappa in enumerate(dom.wall_reactivity()):
+        if kappa is not None:
+            words.append(f"reactive (reactivity {kappa:g})")
+        elif dom.shape == "box" and index < 2 * dom.dimension and periodic[index // 2]:
+            words.append("periodic")
+        else:
+            words.append("")
+    return words
+
+
 def describe(sweep: Sweep) -> str:
     """What the sweep simulates, in two lines with units: the domain and its walls,
     the motion, the time stepping, and which parameters vary (values of point 0
@@ -64,15 +79,17 @@ def describe(sweep: Sweep) -> str:
         return "[" + ", ".join(show_value(float(v)) for v in values) + "]"
 
     kinds = dict(zip(dom.wall_names(), dom.wall_absorbing(), strict=True))
+    names = dict(zip(dom.wall_names(), wall_words(dom), strict=True))
     if dom.shape == "ball":
+        plain = "absorbing" if dom.surface_absorbing else "reflecting"
         where = (
             f"{m.dimension}-D ball, centre {vec(dom.center)}, radius "
             f"{show_value(dom.radius)}{unit('length')}, "
-            f"{'absorbing' if dom.surface_absorbing else 'reflecting'} wall"
+            f"{names['wall'] or plain} wall"
         )
     else:
         sides = ", ".join(
-            f"{name} {'absorbing' if kinds[name] else 'reflecting'}"
+            f"{name} {names[name] or ('absorbing' if kinds[name] else 'reflecting')}"
             for name, lo_hi in zip(
                 dom.wall_names(),
                 [v for pair in zip(dom.lower, dom.upper, strict=True) for v in pair],
@@ -85,9 +102,19 @@ def describe(sweep: Sweep) -> str:
             f"{unit('length')} ({sides})"
         )
     if dom.targets:
-        where += "; absorbing targets " + ", ".join(
+        plain = all(t.reactivity is None for t in dom.targets)
+        where += ("; absorbing targets " if plain else "; targets ") + ", ".join(
             f"target_{i} at {vec(t.center)} radius {show_value(t.radius)}"
+            + (
+                f" reactivity {show_value(t.reactivity)}{unit('velocity')}"
+                if t.reactivity is not None
+                else ""
+            )
             for i, t in enumerate(dom.targets)
+        )
+    if dom.obstacles:
+        where += "; reflecting obstacles " + ", ".join(
+            f"at {vec(o.center)} radius {show_value(o.radius)}" for o in dom.obstacles
         )
     start = "uniform" if m.start is None else vec(m.start)
     motion = (

@@ -5,7 +5,9 @@ from __future__ import annotations
 
 import logging
 import os
+import signal
 import socket
+import threading
 import time
 from pathlib import Path
 from typing import Any
@@ -75,6 +77,18 @@ def _run_prepared(
     plan: Plan, store_path: str | Path, options: RunOptions, client: Any
 ) -> RunSummary:
     path = store.prepare(store_path, plan)
+    # A Ctrl-C run installs its own SIGINT handler until the store is released
+    # (execute.threads); the caller's handler comes back after that.
+    main = threading.current_thread() is threading.main_thread()
+    previous = signal.getsignal(signal.SIGINT) if main else None
+    try:
+        return _run_locked(plan, path, options, client)
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGINT, previous)
+
+
+def _run_locked(plan: Plan, path: Path, options: RunOptions, client: Any) -> RunSummary:
     with store.runner_lock(path):
         # A growth stopped midway is finished first; then the definition is checked
         # again under the lock, and a definition that adds work grows the store.

@@ -4,6 +4,7 @@ GIL), with Ctrl-C waiting for the running tasks (a second Ctrl-C abandons them).
 from __future__ import annotations
 
 import os
+import signal
 import sys
 import threading
 import time
@@ -83,14 +84,26 @@ def _run_threads(
                 f"\ninterrupted: waiting for {running.value} running task(s) to "
                 "finish (they are kept); Ctrl-C again stops at once and loses them.\n"
             )
-            try:
-                running.wait_for_zero()
-            except KeyboardInterrupt:
+            # From here a second Ctrl-C only sets `again`: a KeyboardInterrupt raised
+            # while the run releases the store (or the interpreter exits) would leave
+            # the lock behind and end the process by the signal instead of code 130.
+            again = threading.Event()
+            # `run` restores the former handler once the store is released.
+            _catch_interrupts(again)
+            running.wait_for_zero(again)
+            if again.is_set() and running.value:
                 summary.abandoned = running.value
     finally:
         stop.set()
         pool.shutdown(wait=False, cancel_futures=True)
         progress.close()
+
+
+def _catch_interrupts(flag: threading.Event) -> None:
+    """Make SIGINT set ``flag`` instead of raising (on the main thread only: handlers
+    cannot be set elsewhere, and there nothing changes)."""
+    if threading.current_thread() is threading.main_thread():
+        signal.signal(signal.SIGINT, lambda *_: flag.set())
 
 
 class _Counter:
@@ -114,8 +127,8 @@ class _Counter:
             self._value -= 1
             self._changed.notify_all()
 
-    def wait_for_zero(self) -> None:
-        # Short timeouts keep the wait interruptible by Ctrl-C.
+    def wait_for_zero(self, again: threading.Event) -> None:
+        # Short timeouts keep the wait responsive to a second Ctrl-C (``again``).
         with self._changed:
-            while self._value:
+            while self._value and not again.is_set():
                 self._changed.wait(0.1)

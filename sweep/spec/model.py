@@ -43,6 +43,33 @@ class Target:
 
     center: tuple[float, ...]
     radius: float
+    #: Reactivity κ (length/time) of a reactive target; None: absorbing.
+    reactivity: float | None = None
+
+
+@dataclass(frozen=True)
+class Obstacle:
+    """A reflecting ball inside the domain (docs/surfaces.md).
+
+    Attributes
+    ----------
+    center : tuple of float, length d, length units
+    radius : float, length units, > 0
+    """
+
+    center: tuple[float, ...]
+    radius: float
+
+
+#: Fields of Domain added after stores existed, with their defaults: left out of the
+#: canonical form at these values, so older definitions keep their hash and streams.
+_LATER_FIELDS: dict[str, Any] = {
+    "reactivity_low": (),
+    "reactivity_high": (),
+    "periodic": (),
+    "surface_reactivity": None,
+    "obstacles": (),
+}
 
 
 @dataclass(frozen=True)
@@ -64,10 +91,52 @@ class Domain:
     radius: float = math.inf
     surface_absorbing: bool = False
     targets: tuple[Target, ...] = ()
+    #: Per axis, κ of a reactive lower / upper face or None; () when no face reacts.
+    reactivity_low: tuple[float | None, ...] = ()
+    reactivity_high: tuple[float | None, ...] = ()
+    #: Per axis, whether its two faces are periodic; () when none is.
+    periodic: tuple[bool, ...] = ()
+    #: κ of a reactive ball wall, or None.
+    surface_reactivity: float | None = None
+    #: Reflecting balls inside the domain (no wall index: they never absorb).
+    obstacles: tuple[Obstacle, ...] = ()
 
     @property
     def dimension(self) -> int:
         return len(self.lower)
+
+    def surface_kinds(self) -> list[str]:
+        """The surface kinds of docs/surfaces.md present ("reactive walls", ...)."""
+        kinds = []
+        if any(k is not None for k in self.reactivity_low + self.reactivity_high) or (
+            self.surface_reactivity is not None
+        ):
+            kinds.append("reactive walls")
+        if any(t.reactivity is not None for t in self.targets):
+            kinds.append("reactive targets")
+        if any(self.periodic):
+            kinds.append("periodic faces")
+        if self.obstacles:
+            kinds.append("obstacles")
+        return kinds
+
+    def has_surface_kinds(self) -> bool:
+        """Whether any wall is reactive or periodic, or any obstacle is present."""
+        return bool(self.surface_kinds())
+
+    def wall_reactivity(self) -> tuple[float | None, ...]:
+        """κ of each wall of :meth:`wall_names` (None: not reactive)."""
+        kappas: list[float | None] = []
+        if self.shape == "box":
+            d = self.dimension
+            low = self.reactivity_low or (None,) * d
+            high = self.reactivity_high or (None,) * d
+            for lo, hi in zip(low, high):
+                kappas += [lo, hi]
+        kappas += [t.reactivity for t in self.targets]
+        if self.shape == "ball":
+            kappas.append(self.surface_reactivity)
+        return tuple(kappas)
 
     @property
     def bounded(self) -> bool:
@@ -90,26 +159,32 @@ class Domain:
         return tuple(names)
 
     def wall_absorbing(self) -> tuple[bool, ...]:
-        """Whether each wall of :meth:`wall_names` absorbs walkers (targets always do)."""
+        """Whether each wall of :meth:`wall_names` absorbs walkers (absorbing targets
+        always do; a reactive wall with κ > 0 absorbs some: a reaction is a first
+        passage to it)."""
         kinds: list[bool] = []
         if self.shape == "box":
             for low, high in zip(self.absorbing_low, self.absorbing_high):
                 kinds += [low, high]
-        kinds += [True] * len(self.targets)
+        kinds += [t.reactivity is None for t in self.targets]
         if self.shape == "ball":
             kinds.append(self.surface_absorbing)
-        return tuple(kinds)
+        reactive = self.wall_reactivity()
+        return tuple(a or (k is not None and k > 0) for a, k in zip(kinds, reactive))
 
     def contains(self, point: Sequence[float]) -> bool:
-        """Whether ``point`` lies strictly inside the domain and outside every target."""
+        """Whether ``point`` lies strictly inside the domain and outside every target
+        and obstacle."""
         if self.shape == "box":
             inside = all(
                 lo < p < hi for p, lo, hi in zip(point, self.lower, self.upper)
             )
         else:
             inside = distance(point, self.center) < self.radius
-        return inside and not any(
-            distance(point, t.center) <= t.radius for t in self.targets
+        return (
+            inside
+            and not any(distance(point, t.center) <= t.radius for t in self.targets)
+            and not any(distance(point, o.center) <= o.radius for o in self.obstacles)
         )
 
 
@@ -185,8 +260,27 @@ class PointSpec:
                 "motion": self.motion.__dict__,
                 "time": timing,
                 "domain": {
-                    **{k: v for k, v in self.domain.__dict__.items() if k != "targets"},
-                    "targets": [t.__dict__ for t in self.domain.targets],
+                    **{
+                        k: v
+                        for k, v in self.domain.__dict__.items()
+                        if k not in ("targets", "obstacles")
+                        and not (k in _LATER_FIELDS and v == _LATER_FIELDS[k])
+                    },
+                    # A target's reactivity and the obstacles only when used, so
+                    # older definitions keep their hash and streams.
+                    "targets": [
+                        {
+                            k: v
+                            for k, v in t.__dict__.items()
+                            if not (k == "reactivity" and v is None)
+                        }
+                        for t in self.domain.targets
+                    ],
+                    **(
+                        {"obstacles": [o.__dict__ for o in self.domain.obstacles]}
+                        if self.domain.obstacles
+                        else {}
+                    ),
                 },
                 "record": self.record.__dict__,
             }

@@ -16,6 +16,7 @@ from sweep.spec.model import Motion, PointSpec, Record
 from sweep.spec.sections.domain import read_domain
 from sweep.spec.sections.motion import read_dimension, read_motion
 from sweep.spec.sections.record import read_record
+from sweep.spec.sections.surfaces import check_point
 from sweep.spec.sections.timing import read_timing
 
 
@@ -28,6 +29,7 @@ def read_point(ctx: Context, raw: dict[str, Any]) -> PointSpec:
     domain = read_domain(ctx, ctx.table(raw, "domain", ""), dimension)
     motion = read_motion(ctx, motion_raw, dimension, domain)
     check_scales(ctx, motion, timing, domain)
+    check_point(ctx, domain, motion, timing)
     record = read_record(ctx, ctx.table(raw, "record", ""), timing, domain)
     if timing.scheme == "spheres":
         check_spheres(ctx, motion, record)

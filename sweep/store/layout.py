@@ -67,6 +67,8 @@ class TaskOutput:
     survival: NDArray[np.int64]
     occupancy: NDArray[np.int64] | None
     fpt_histogram: NDArray[np.int64] | None = None
+    #: float64 (n_walkers, d): unwrapped displacement (domains with periodic faces).
+    displacement: NDArray[np.float64] | None = None
 
 
 @dataclass(frozen=True)
@@ -231,6 +233,13 @@ ARRAYS: tuple[ArraySpec, ...] = (
         when="per_walker", read="masked", exported=True,
     ),
     ArraySpec(
+        "displacement", ("point", "walker", "axis"), "f8",
+        "unwrapped displacement from the start to absorption or the horizon "
+        "(through periodic faces)",
+        fill=np.nan, chunking="task", quantity="length", output="displacement",
+        when="displacement", read="masked", exported=True,
+    ),
+    ArraySpec(
         "survival_count", ("point", "chunk", "time"), "i8",
         "walkers of the chunk still free", fill=0, chunking="task",
         output="survival", read="summed", exported=True,
@@ -308,6 +317,13 @@ def record_flags(sweep: Sweep) -> dict[str, bool]:
         "per_walker": rec.per_walker,
         "occupancy": bool(rec.occupancy_times),
         "fpt_bins": bool(rec.fpt_bins),
+        # Only stores with periodic faces (and per-walker values) name it, so the
+        # attributes of every other store stay as they were.
+        **(
+            {"displacement": True}
+            if rec.per_walker and any(sweep.points[0].domain.periodic)
+            else {}
+        ),
     }
 
 
@@ -481,6 +497,7 @@ WHEN_TEXT = {
     "per_walker": "`record.per_walker`",
     "fpt_bins": "`record.fpt_bins` > 0",
     "occupancy": "`record.occupancy`",
+    "displacement": "periodic faces and `record.per_walker` (docs/surfaces.md)",
 }
 READ_TEXT = {
     "index": "index coordinate",

@@ -49,6 +49,15 @@ class Domain:
     occupancy_bins: int = 1
     fpt_bin_width: float = 1.0
     fpt_bins: int = 0
+    # Surfaces of issue 21: NaN reactivity = not reactive.
+    reactivity_lower: tuple[float, ...] | None = None
+    reactivity_upper: tuple[float, ...] | None = None
+    periodic: tuple[bool, ...] | None = None
+    ball_reactivity: float = math.nan
+    target_reactivities: tuple[float, ...] | None = None
+    obstacle_centers: tuple[tuple[float, ...], ...] = ()
+    obstacle_radii: tuple[float, ...] = ()
+    displacement: bool = False
 
     @property
     def dimension(self) -> int:
@@ -88,6 +97,13 @@ class Domain:
             ball_absorbing=self.ball_absorbing,
             target_center=self.target_centers,
             target_radius=self.target_radii,
+            reactivity_lower=self.reactivity_lower,
+            reactivity_upper=self.reactivity_upper,
+            periodic=self.periodic,
+            ball_reactivity=self.ball_reactivity,
+            target_reactivity=self.target_reactivities,
+            obstacle_center=self.obstacle_centers,
+            obstacle_radius=self.obstacle_radii,
         )
         motion = inputs.motion(
             None if self.uniform_start else self.start,
@@ -108,6 +124,7 @@ class Domain:
             fpt_bins=self.fpt_bins,
             fpt_bin_width=self.fpt_bin_width,
             final=True,
+            displacement=self.displacement,
         )
         return geometry, motion, recording
 
@@ -122,6 +139,7 @@ class Run(NamedTuple):
     occupancy: NDArray[np.int64]
     final: NDArray[np.float64]
     fpt_hist: NDArray[np.int64]
+    displacement: NDArray[np.float64]
     steps: int
 
 

@@ -77,7 +77,7 @@ def run_reference(box: Domain, n_walkers: int, rng: np.random.Generator) -> Run:
         box.survival_times,
     )
     none = np.zeros((0, 0), np.int64)
-    return Run(time, wall, position, survival, none, final, none, -1)
+    return Run(time, wall, position, survival, none, final, none, np.zeros((0, 0)), -1)
 
 
 def check_z(

@@ -212,7 +212,8 @@ BAD_INPUTS = [
     bad(
         "grid-wall-invalid",
         spec(LINE, grid={"domain.walls.x_lower": ["absorbing", "open"]}),
-        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting'; got \"open\". "
+        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting' ('periodic', or "
+        '{ reactivity = κ }); got "open". '
         '(at point 1: domain.walls.x_lower = "open")',
     ),
 ]

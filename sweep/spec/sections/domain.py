@@ -1,8 +1,9 @@
 """The ``[domain]`` table: a box (``lower``, ``upper``, ``walls``) or a ball
-(``center``, ``radius``, ``wall``), with absorbing ``targets`` inside.
+(``center``, ``radius``, ``wall``), with absorbing or reactive ``targets`` and
+reflecting ``obstacles`` inside.
 
-A wall's kind is read by :func:`wall_absorbs` alone, for box faces and the ball's surface
-alike: a new kind of surface is added there (and in :data:`WALL_KINDS`).
+A wall's kind is read by :func:`sweep.spec.sections.surfaces.wall_kind` alone, for box
+faces and the ball's surface alike: a new kind of surface is added there.
 """
 
 from __future__ import annotations
@@ -13,26 +14,38 @@ from typing import Any, Literal
 
 from sweep.spec.context import Context, toml_text
 from sweep.spec.model import MAX_DIMENSION, Domain, Target, axis_names, distance
+from sweep.spec.sections import surfaces
 from sweep.spec.sections.section import Section
 from sweep.spec.values import choice, number, vector
 
 SECTION = Section(
     "domain",
-    ("shape", "lower", "upper", "walls", "center", "radius", "wall", "targets"),
+    (
+        "shape", "lower", "upper", "walls", "center", "radius", "wall", "targets",
+        "obstacles",
+    ),
     required=True,
     per_point=True,
     sweepable=True,
     fixed_keys=("shape",),
-    deep_keys=("walls.<wall>", "targets.<i>.center", "targets.<i>.radius"),
-    deep_hint="domain.targets.<i>.center / domain.targets.<i>.radius, domain.walls.<wall>",
-    deep_only="domain.walls.<wall> and domain.targets.<i>.center|radius",
-)
+    deep_keys=(
+        "walls.<wall>", "walls.<wall>.reactivity", "targets.<i>.center",
+        "targets.<i>.radius", "targets.<i>.reactivity", "obstacles.<i>.center",
+        "obstacles.<i>.radius",
+    ),
+    deep_hint="domain.targets.<i>.center / domain.targets.<i>.radius / "
+    "domain.targets.<i>.reactivity, domain.walls.<wall>, "
+    "domain.walls.<wall>.reactivity, domain.obstacles.<i>.center|radius",
+    deep_only="domain.walls.<wall>, domain.walls.<wall>.reactivity, "
+    "domain.targets.<i>.center|radius|reactivity and "
+    "domain.obstacles.<i>.center|radius",
+)  # fmt: skip
 SHAPES: tuple[str, ...] = ("box", "ball")
 WallKind = Literal["absorbing", "reflecting"]
 WALL_KINDS: tuple[str, ...] = ("absorbing", "reflecting")
 #: Box-wall suffixes of earlier versions, refused with a message naming the new one.
 _OLD_SIDES: dict[str, str] = {"low": "lower", "high": "upper"}
-TARGET_KEYS = ("center", "radius")
+TARGET_KEYS = ("center", "radius", "reactivity")
 
 
 def read_domain(ctx: Context, table: dict[str, Any], dimension: int) -> Domain:
@@ -46,12 +59,10 @@ def read_domain(ctx: Context, table: dict[str, Any], dimension: int) -> Domain:
     targets = _targets(ctx, table, dimension, domain)
     if targets:
         domain = Domain(**{**domain.__dict__, "targets": targets})
+    obstacles = surfaces.obstacles(ctx, table, domain)
+    if obstacles:
+        domain = Domain(**{**domain.__dict__, "obstacles": obstacles})
     return domain
-
-
-def wall_absorbs(ctx: Context, value: Any, key: str) -> bool:
-    """Whether the wall kind ``value`` (at dotted ``key``) absorbs walkers."""
-    return choice(ctx, value, key, WALL_KINDS) == "absorbing"
 
 
 def _box(ctx: Context, table: dict[str, Any], dimension: int) -> Domain:
@@ -79,13 +90,20 @@ def _box(ctx: Context, table: dict[str, Any], dimension: int) -> Domain:
                 f"must be below domain.upper on every axis; got {toml_text(lo)} >= {hi!r} "
                 f"on axis {axis}.",
             )
-    low, high = _box_walls(ctx, ctx.table(table, "walls", "domain"), lower, upper)
+    low, high, react_low, react_high, periodic = _box_walls(
+        ctx, ctx.table(table, "walls", "domain"), lower, upper
+    )
+    reactive = any(k is not None for k in react_low + react_high)
     return Domain(
         shape="box",
         lower=lower,
         upper=upper,
         absorbing_low=low,
         absorbing_high=high,
+        # Empty unless used: the canonical form (hash, seeds) leaves them out.
+        reactivity_low=react_low if reactive else (),
+        reactivity_high=react_high if reactive else (),
+        periodic=periodic if any(periodic) else (),
     )
 
 
@@ -94,8 +112,15 @@ def _box_walls(
     walls: dict[str, Any],
     lower: tuple[float, ...],
     upper: tuple[float, ...],
-) -> tuple[tuple[bool, ...], tuple[bool, ...]]:
-    """Whether each lower and each upper face absorbs (an infinite side never does)."""
+) -> tuple[
+    tuple[bool, ...],
+    tuple[bool, ...],
+    tuple[float | None, ...],
+    tuple[float | None, ...],
+    tuple[bool, ...],
+]:
+    """Per axis: whether the lower and the upper face absorb (an infinite side never
+    does), their reactivities (None: not reactive) and whether the axis is periodic."""
     dimension = len(lower)
     axes = axis_names(dimension)
     names = [f"{a}_{side}" for a in axes for side in ("lower", "upper")]
@@ -118,14 +143,21 @@ def _box_walls(
     ctx.keys(walls, names, "domain.walls")
     low: list[bool] = []
     high: list[bool] = []
+    found: dict[str, str] = {}
+    kappas: dict[str, float | None] = {}
     for axis, lo, hi in zip(axes, lower, upper):
         for side, bound, kinds in (("lower", lo, low), ("upper", hi, high)):
             name = f"{axis}_{side}"
             if math.isinf(bound):
                 if name in walls:
+                    why = (
+                        ": a reactive wall there would never be reached"
+                        if isinstance(walls[name], dict)
+                        else ""
+                    )
                     raise ctx.fail(
                         f"domain.walls.{name}",
-                        f"is at infinity (domain.{side} is {bound!r}); remove it.",
+                        f"is at infinity (domain.{side} is {bound!r}){why}; remove it.",
                     )
                 kinds.append(False)
                 continue
@@ -135,8 +167,20 @@ def _box_walls(
                     f"must give the kind of wall {name!r} "
                     f'("absorbing" or "reflecting"); got {toml_text(sorted(walls))}.',
                 )
-            kinds.append(wall_absorbs(ctx, walls[name], f"domain.walls.{name}"))
-    return tuple(low), tuple(high)
+            kind, kappa = surfaces.wall_kind(
+                ctx, walls[name], f"domain.walls.{name}", periodic_allowed=True
+            )
+            found[name] = kind
+            kappas[name] = kappa
+            kinds.append(kind == "absorbing")
+    surfaces.periodic_pairs(ctx, found, axes)
+    return (
+        tuple(low),
+        tuple(high),
+        tuple(kappas.get(f"{a}_lower") for a in axes),
+        tuple(kappas.get(f"{a}_upper") for a in axes),
+        tuple(found.get(f"{a}_lower") == "periodic" for a in axes),
+    )
 
 
 def _ball(ctx: Context, table: dict[str, Any], dimension: int) -> Domain:
@@ -158,7 +202,12 @@ def _ball(ctx: Context, table: dict[str, Any], dimension: int) -> Domain:
     radius = number(
         ctx, ctx.required(table, "radius", "domain"), "domain.radius", positive=True
     )
-    absorbs = wall_absorbs(ctx, ctx.required(table, "wall", "domain"), "domain.wall")
+    kind, kappa = surfaces.wall_kind(
+        ctx,
+        ctx.required(table, "wall", "domain"),
+        "domain.wall",
+        periodic_allowed=False,
+    )
     return Domain(
         shape="ball",
         lower=tuple(c - radius for c in center),
@@ -167,14 +216,16 @@ def _ball(ctx: Context, table: dict[str, Any], dimension: int) -> Domain:
         absorbing_high=(False,) * dimension,
         center=center,
         radius=radius,
-        surface_absorbing=absorbs,
+        surface_absorbing=kind == "absorbing",
+        surface_reactivity=kappa,
     )
 
 
 def _targets(
     ctx: Context, table: dict[str, Any], dimension: int, domain: Domain
 ) -> tuple[Target, ...]:
-    """``domain.targets``: absorbing balls, each centred inside ``domain``."""
+    """``domain.targets``: absorbing (or reactive) balls, each centred inside
+    ``domain``."""
     targets = table.get("targets", [])
     if not isinstance(targets, list):
         raise ctx.fail(
@@ -200,7 +251,16 @@ def _targets(
                 f"{key}.center",
                 f"must lie inside the domain; got {toml_text(list(center))}.",
             )
-        parsed.append(Target(center=center, radius=radius))
+        reactivity = None
+        if "reactivity" in target:
+            reactivity = number(
+                ctx,
+                target["reactivity"],
+                f"{key}.reactivity",
+                nonnegative=True,
+                allow_inf=True,
+            )
+        parsed.append(Target(center=center, radius=radius, reactivity=reactivity))
     return tuple(parsed)
 
 

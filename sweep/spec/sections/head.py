@@ -67,10 +67,12 @@ def read_head(ctx: Context, head: dict[str, Any]) -> Head:
 
 def _at_most_max(ctx: Context, walkers: int) -> None:
     if walkers > MAX_WALKERS:
+        # Beyond ~1e300 the size is not a float (an int that large cannot be divided).
+        terabytes = walkers * 26 / 1e12 if walkers < 10**300 else float("inf")
         raise ctx.fail(
             "sweep.walkers",
             f"must be at most {MAX_WALKERS:,} per point (the per-walker arrays "
-            f"alone would hold {walkers * 26 / 1e12:.3g} TB); got {walkers:,}.",
+            f"alone would hold {terabytes:.3g} TB); got {walkers:,}.",
         )
 
 

@@ -58,7 +58,7 @@ def read_motion(
                 '"uniform" needs a bounded domain (every side finite); give a start '
                 "point instead.",
             )
-        if domain.targets and free_fraction(domain) == 0.0:
+        if (domain.targets or domain.obstacles) and free_fraction(domain) == 0.0:
             raise ctx.fail(
                 "motion.start",
                 '"uniform" needs free space, but the targets cover (nearly) the whole '

@@ -109,12 +109,13 @@ BAD_INPUTS = [
     bad(
         "wall-kind-unknown",
         spec(LINE, domain__walls__x_lower="sticky"),
-        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting'; got \"sticky\".",
+        "[domain.walls.x_lower] must be 'absorbing' or 'reflecting' ('periodic', or "
+        '{ reactivity = κ }); got "sticky".',
     ),
     bad(
         "ball-wall-kind-unknown",
         spec(DISK, domain__wall=True),
-        "[domain.wall] must be 'absorbing' or 'reflecting'; got true.",
+        "[domain.wall] must be 'absorbing' or 'reflecting' ({ reactivity = κ }); got true.",
     ),
     bad(
         "lower-above-upper",

@@ -38,6 +38,7 @@ def test_sections_and_their_keys_in_message_order() -> None:
             "radius",
             "wall",
             "targets",
+            "obstacles",  # docs/surfaces.md
         ),
         "record": ("per_walker", "survival", "occupancy", "fpt_bins"),
         "grid": (),
