@@ -526,8 +526,9 @@ def _html(
         for i, label in enumerate(check.point_labels(sweep))
     )
     verdict = report.verdict()
-    done = int(ds["done"].sum())
-    total = int(ds["done"].size)
+    # With a precision target only the planned tasks count (sweep.precision).
+    done = int((ds["done"] & ds.get("planned", True)).sum())
+    total = int(ds["planned"].sum() if "planned" in ds else ds["done"].size)
     unfinished = (
         ""
         if done == total

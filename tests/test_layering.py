@@ -24,9 +24,11 @@ ORDER = (
     "errors",
     "text",
     "potentials",  # the force fields' families (issue 22): spec's model holds a Force
+    "precision",  # the precision target's model (issue 23): spec's model holds one
     "spec",
     "exit_times",
     "plan",
+    "growth",
     "store",
     "simulate",
     "memory",
@@ -35,6 +37,7 @@ ORDER = (
     "analytic",
     "check",
     "sizing",
+    "precision_plan",
     "compare",
     "export",
     "views",

@@ -115,8 +115,9 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
         store=name,
         rows=tuple(rows),
         unchecked=tuple(unchecked),
-        tasks_done=int(ds["done"].sum()),
-        tasks_total=int(ds["done"].size),
+        # With a precision target only the planned tasks count (sweep.precision).
+        tasks_done=int((ds["done"] & ds.get("planned", True)).sum()),
+        tasks_total=int(ds["planned"].sum() if "planned" in ds else ds["done"].size),
     )
 
 

@@ -9,6 +9,7 @@ import os
 import signal
 import sys
 from pathlib import Path
+from typing import Any
 
 from sweep import text
 
@@ -165,8 +166,11 @@ def status_command(args: argparse.Namespace) -> int:
     markers = store.read_markers(path)
     n_c = attrs["n_chunks"]
     per_point: dict[int, list[dict[str, object]]] = {}
+    # Markers carry store indices; rows follow the definition (grown stores differ).
+    order = store.point_order(attrs)
     for m in markers:
-        per_point.setdefault(int(m["point"]), []).append(m)  # type: ignore[arg-type]
+        p = order[int(m["point"])]  # type: ignore[call-overload]
+        per_point.setdefault(p, []).append(m)
     holder = store.lock_holder(path)
     print(
         f"store {path}: sweep {sweep.name!r}, {sweep.n_points} points x {n_c} tasks, definition hash {attrs['spec_hash'][:12]}"
@@ -185,26 +189,77 @@ def status_command(args: argparse.Namespace) -> int:
         "walkers",
         "censored",
     ]
+    target = sweep.precision
+    if target is not None:
+        header.append("precision (95 %)")
+        print(
+            f"precision target: {target.describe()}, at most "
+            f"{target.max_walkers:,} walkers per point"
+        )
     rows = [header]
     total = 0
+    planned_total = 0
+    censored_points = 0
     for p in range(sweep.n_points):
         ms = per_point.get(p, [])
         total += len(ms)
         walkers = sum(int(m["walkers"]) for m in ms)  # type: ignore[call-overload]
         censored = sum(int(m["censored"]) for m in ms)  # type: ignore[call-overload]
         frac = f"{censored / walkers:.3%}" if walkers else "-"
+        tasks = f"{len(ms)}/{n_c}"
+        extra = []
+        if target is not None:
+            chunks, final, state, censoring = _precision_state(sweep, ms)
+            planned_total += chunks
+            tasks = f"{len(ms)}/{chunks}" + ("" if final else "+")
+            censored_points += censoring
+            extra.append(state)
         rows.append(
             [
                 str(p),
                 *(show_value(values[p]) for values in columns.values()),
-                f"{len(ms)}/{n_c}",
+                tasks,
                 str(walkers),
                 frac,
+                *extra,
             ]
         )
     print(text.format_table(rows))
-    print(f"{total}/{sweep.n_points * n_c} tasks done")
+    if target is None:
+        print(f"{total}/{sweep.n_points * n_c} tasks done")
+        return 0
+    print(
+        f"{total}/{planned_total} tasks done so far (a '+': the point is not decided "
+        f"yet and gets more tasks; at most {n_c} per point)"
+    )
+    if censored_points and target.statistic == "mean_first_passage_time":
+        print(
+            f"{censored_points} point(s) have censored walkers: a mean's target is "
+            f"not met while any walker is still free at the horizon; raise "
+            f"time.horizon (in a new store) to reach it."
+        )
     return 0
+
+
+def _precision_state(
+    sweep: Any, markers: list[dict[str, Any]]
+) -> tuple[int, bool, str, bool]:
+    """A targeted point's planned chunks, whether final, its precision against the
+    target in words, and whether its judged chunks hold censored walkers."""
+    from sweep import precision
+
+    target = sweep.precision
+    chunks, final, last = precision.planned_chunks(
+        target,
+        precision.wall_index(sweep),
+        sweep.chunk,
+        sweep.n_chunks,
+        {int(m["chunk"]): m for m in markers},
+    )
+    state = precision.describe_estimate(target, last)
+    if final and last is not None and not last.met:
+        state += " (ceiling reached)"
+    return chunks, final, state, bool(last is not None and last.censored)
 
 
 def verify_command(args: argparse.Namespace) -> int:

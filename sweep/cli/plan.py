@@ -4,7 +4,9 @@ definition, before anything runs."""
 from __future__ import annotations
 
 import argparse
+import math
 import os
+from typing import Any
 
 from sweep.text import format_bytes, format_duration
 
@@ -27,6 +29,8 @@ def plan_command(args: argparse.Namespace) -> int:
         f"{sweep.n_chunks} per point)"
     )
     print(f"  tasks:           {plan.n_tasks:,}")
+    if sweep.precision is not None:
+        _plan_precision(plan)
     if sweep.swept:
         from sweep.plan import coordinate_columns
 
@@ -66,3 +70,26 @@ def plan_command(args: argparse.Namespace) -> int:
     for warning in sizing.warnings:
         print(f"  warning: {warning}")
     return 0
+
+
+def _plan_precision(plan: Any) -> None:
+    """``sweep plan``'s lines for a precision target: walkers needed per point."""
+    from sweep.precision_plan import walkers_needed
+
+    target = plan.sweep.precision
+    print(
+        f"  precision:       {target.describe()} (95 %); first round "
+        f"{target.first_walkers:,} walkers, then doubling, at most "
+        f"{target.max_walkers:,} per point (the tasks and walker-steps below are "
+        f"that ceiling's)"
+    )
+    for need in walkers_needed(plan):
+        wanted = (
+            f"about {need.walkers:,.0f}"
+            if math.isfinite(need.walkers)
+            else "never met (walkers censored: raise time.horizon)"
+        )
+        print(
+            f"    point {need.point}: needs {wanted} walkers ({need.how}); the run "
+            f"gives it {need.planned:,}"
+        )

@@ -46,6 +46,7 @@ def _run_distributed(
     options: RunOptions,
     summary: RunSummary,
     client: Any = None,
+    note: str = "",
 ) -> None:
     from distributed import Client, as_completed
 
@@ -59,7 +60,11 @@ def _run_distributed(
     try:
         n_threads = max(1, sum(client.nthreads().values()))
         progress = Progress(
-            summary.n_tasks, summary.already_done, options.progress, n_threads
+            summary.n_tasks,
+            summary.already_done + summary.completed,
+            options.progress,
+            n_threads,
+            note=note,
         )
         window = max(2, WINDOW_PER_WORKER * n_threads)
         queue = iter(pending)

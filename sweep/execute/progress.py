@@ -20,7 +20,10 @@ class Progress:
         enabled: bool,
         concurrency: int,
         started: float | None = None,
+        note: str = "",
     ) -> None:
+        #: Shown after the counts (a precision target's state of the points).
+        self.note = note
         self.total = total
         self.done = done
         self.start_done = done
@@ -61,6 +64,8 @@ class Progress:
             f"[{bar}] {self.done}/{self.total} tasks  {rate / 1e6:8.2f} M walker-steps/s  "
             f"elapsed {format_duration(now - self.started, 'clock')}  left {eta}"
         )
+        if self.note:
+            line += f"  {self.note}"
         sys.stderr.write(("\r" + line) if self.tty else (line + "\n"))
         sys.stderr.flush()
 

@@ -17,6 +17,7 @@ from sweep.errors import StoreError, TaskError
 from sweep.execute.cluster import connect
 from sweep.execute.distributed import _run_distributed
 from sweep.execute.options import RunOptions, RunSummary
+from sweep.execute.rounds import pause_before_round, targeted_round
 from sweep.execute.threads import _run_threads
 from sweep.memory import check_memory
 from sweep.plan import Plan, make_plan
@@ -89,28 +90,58 @@ def _run_prepared(
 
 def _run_locked(plan: Plan, path: Path, options: RunOptions, client: Any) -> RunSummary:
     with store.runner_lock(path):
+        # A growth stopped midway is finished first; then the definition is checked
+        # again under the lock, and a definition that adds work grows the store.
+        store.finish_growth(path)
+        growth = store.check_matches(path, plan.sweep)
+        if growth is not None:
+            store.grow(path, plan.sweep, growth)
+        # Tasks are numbered by the store's point indices (grown stores append
+        # the points they gained).
+        plan = make_plan(store.ordered_sweep(path, plan.sweep))
         removed = store.clean_partials(path)
         if removed:
             log.warning(
                 "%s: removed %d temporary files left by a killed writer.", path, removed
             )
         store_id, done = store.resume_state(path)
-        pending = [t for t in plan.tasks if (t.point, t.chunk) not in done]
+        targeted = plan.sweep.precision is not None
+        pending, note = (
+            targeted_round(plan, path)
+            if targeted
+            else ([t for t in plan.tasks if (t.point, t.chunk) not in done], "")
+        )
         summary = RunSummary(
-            store=path, n_tasks=plan.n_tasks, already_done=plan.n_tasks - len(pending)
+            store=path, n_tasks=len(done) + len(pending), already_done=len(done)
         )
         if not pending:
             return summary
         _log_run(
             path,
-            f"start {options.kind}: {len(pending)} of {plan.n_tasks} tasks pending",
+            f"start {options.kind}: {len(pending)} of {plan.n_tasks} tasks pending"
+            + (" (first round of a precision target)" if targeted else ""),
         )
         start = time.monotonic()
         try:
-            if options.kind == "threads":
-                _run_threads(path, store_id, pending, options, summary)
-            else:
-                _run_distributed(path, store_id, pending, options, summary, client)
+            # One round without a target; with one, rounds until every point has
+            # met its target or its ceiling (sweep.precision: each round's tasks
+            # follow from the finished chunks alone).
+            rounds = 0
+            while pending:
+                rounds += 1
+                pause_before_round(rounds)
+                summary.n_tasks = (
+                    summary.already_done + summary.completed + len(pending)
+                )
+                if options.kind == "threads":
+                    _run_threads(path, store_id, pending, options, summary, note)
+                else:
+                    _run_distributed(
+                        path, store_id, pending, options, summary, client, note
+                    )
+                if not targeted or summary.interrupted or summary.failed:
+                    break
+                pending, note = targeted_round(plan, path)
         finally:
             summary.seconds = time.monotonic() - start
             # Counted from the markers: tasks that finished while the run was being

@@ -18,7 +18,7 @@ from typing import Any
 
 import numpy as np
 
-from sweep import store
+from sweep import precision, store
 from sweep.execute.options import RunSummary
 from sweep.execute.progress import Progress
 from sweep.plan import Task
@@ -66,6 +66,9 @@ def run_task(
             "cpu_seconds": round(cpu, 6),  # the kernel's thread alone
             "censored": int(np.count_nonzero(output.wall < 0)),
             "absorbed_by": np.bincount(output.wall[output.wall >= 0]).tolist(),
+            # For precision targets (sweep.precision): count, mean and squared
+            # deviations of this chunk's first-passage times.
+            "fpt_moments": precision.chunk_moments(output.time),
             "host": socket.gethostname(),
             "pid": os.getpid(),
             "thread": threading.current_thread().name,

@@ -24,6 +24,7 @@ def _run_threads(
     pending: list[Task],
     options: RunOptions,
     summary: RunSummary,
+    note: str = "",
 ) -> None:
     """Run tasks on local threads, keeping a window of them submitted.
 
@@ -37,7 +38,12 @@ def _run_threads(
     started = time.monotonic()
     stop = threading.Event()
     progress = Progress(
-        summary.n_tasks, summary.already_done, options.progress, n, started
+        summary.n_tasks,
+        summary.already_done + summary.completed,
+        options.progress,
+        n,
+        started,
+        note,
     )
     # Tasks running now: on Ctrl-C the pool's threads run on (a running kernel cannot
     # be stopped), so the run waits for them (holding the store's lock) before it

@@ -12,6 +12,7 @@ import copy
 import dataclasses
 from typing import Any
 
+from sweep import precision as precision_target
 from sweep.errors import SpecError
 from sweep.spec.context import Context, listed, toml_text
 from sweep.spec.grid import assign, combinations, count_points, read_axes
@@ -64,6 +65,10 @@ def read_sweep(ctx: Context, raw: dict[str, Any]) -> Sweep:
     ctx.point = ""
     _same_shapes(ctx, points, swept, values)
     points = _common_survival_grid(points, raw)
+    if head.precision is not None:
+        precision_target.check_wall(
+            head.precision, _absorbing_everywhere(points), ctx.source
+        )
     # Point 0 fully resolved plus every point's swept values determine all points:
     # keys not swept are equal everywhere, swept ones are overridden everywhere.
     canonical = jsonable(
@@ -77,6 +82,11 @@ def read_sweep(ctx: Context, raw: dict[str, Any]) -> Sweep:
             | (
                 {"units": dataclasses.asdict(head.units)}
                 if head.units != Units()
+                else {}
+            )
+            | (
+                {"precision": head.precision.canonical()}
+                if head.precision is not None
                 else {}
             ),
             "point0": points[0].canonical(),
@@ -96,7 +106,18 @@ def read_sweep(ctx: Context, raw: dict[str, Any]) -> Sweep:
         values=tuple(values),
         canonical=canonical,
         units=head.units,
+        precision=head.precision,
     )
+
+
+def _absorbing_everywhere(points: list[PointSpec]) -> list[str]:
+    """Names of the walls and targets that absorb at every point."""
+    names = points[0].domain.wall_names()
+    return [
+        name
+        for i, name in enumerate(names)
+        if all(p.domain.wall_absorbing()[i] for p in points)
+    ]
 
 
 def _same_shapes(

@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 from typing import Any, Literal
 
 from sweep.potentials import Force
+from sweep.precision import Precision
 
 #: The most axes a domain may have (``motion.dimension``); kernels compile a loop for each.
 MAX_DIMENSION = 8
@@ -392,6 +393,9 @@ class Sweep:
     text: str = field(default="", compare=False, repr=False)
     #: Units of length and time the definition names (labels for tables and plots).
     units: Units = Units()
+    #: A precision target (``[sweep] precision``): then ``walkers`` is its ceiling
+    #: and each point runs only as many chunks as its target needs.
+    precision: Precision | None = None
 
     @property
     def n_points(self) -> int:

@@ -7,6 +7,8 @@ The only package that imports zarr. One module per job:
 * :mod:`~sweep.store.provenance`: root attributes, format and stream version, the seal,
   and the checks against them (:func:`read_attrs`, :func:`check_matches`);
 * :mod:`~sweep.store.create`: making a store (:func:`prepare`);
+* :mod:`~sweep.store.growth`: growing one in place, crash-safe (:func:`grow`,
+  :func:`finish_growth`);
 * :mod:`~sweep.store.markers`: task writes and completion markers (:func:`write_task`,
   :func:`done_tasks`, :func:`resume_state`);
 * :mod:`~sweep.store.lock`: one runner per store (:func:`runner_lock`);
@@ -16,8 +18,9 @@ The only package that imports zarr. One module per job:
 
 Rules it keeps (``docs/store-format.md`` describes the format):
 
-* every array is created once, by the driver, before any task runs; tasks never touch
-  metadata or attributes;
+* every array is created once, by the driver, before any task runs (a growth rebuilds
+  the metadata under the runner lock, before any task); tasks never touch metadata or
+  attributes;
 * a task writes only its own chunks: per-walker arrays are chunked (1, chunk walkers),
   per-chunk aggregates (1, 1, ...), so no two tasks share a chunk object;
 * a task's completion marker ``_tasks/p<point>-c<chunk>.json`` is written atomically
@@ -46,6 +49,7 @@ from sweep.store.files import (
     file_state,
     os_error,
 )
+from sweep.store.growth import GROWING, PAUSE_ENV, finish_growth, grow
 from sweep.store.layout import (
     ARRAYS,
     LOCK_FILE,
@@ -63,6 +67,7 @@ from sweep.store.markers import (
     MAX_WARNINGS,
     check_store_id,
     done_tasks,
+    markers_by_point,
     read_markers,
     resume_state,
     scan_markers,
@@ -73,11 +78,16 @@ from sweep.store.markers import (
 )
 from sweep.store.provenance import (
     ATTRS_KEY,
+    GROWN_FORMAT,
+    GROWTH_JOURNAL,
+    READ_FORMATS,
     STORE_FORMAT,
     STORE_HINT,
     UNVERSIONED_STREAM,
     check_matches,
     load_sweep,
+    ordered_sweep,
+    point_order,
     provenance,
     read_attrs,
     stream_version,
@@ -93,11 +103,16 @@ __all__ = [
     "ARRAYS",
     "ATTRS_KEY",
     "CREATING",
+    "GROWING",
+    "GROWN_FORMAT",
+    "GROWTH_JOURNAL",
     "LOCK_FILE",
     "MARKER_DIR",
     "MARKER_NAME",
     "MAX_WARNINGS",
     "OWN_TMP",
+    "PAUSE_ENV",
+    "READ_FORMATS",
     "RENAMED",
     "SEAL_FILE",
     "STORE_FORMAT",
@@ -118,10 +133,15 @@ __all__ = [
     "done_tasks",
     "exported_variables",
     "file_state",
+    "finish_growth",
+    "grow",
     "load_sweep",
     "lock_holder",
+    "markers_by_point",
     "open_dataset",
+    "ordered_sweep",
     "os_error",
+    "point_order",
     "prepare",
     "provenance",
     "read_attrs",

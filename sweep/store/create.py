@@ -12,7 +12,9 @@ from __future__ import annotations
 import os
 import uuid
 import warnings
+from collections.abc import Mapping
 from pathlib import Path
+from typing import Any
 
 import zarr
 
@@ -21,7 +23,12 @@ from sweep.plan import Plan
 from sweep.store.clean import CREATING, clean_creating
 from sweep.store.files import os_error, remove_tree
 from sweep.store.layout import MARKER_DIR, create_arrays
-from sweep.store.provenance import check_matches, root_attributes, write_seal
+from sweep.store.provenance import (
+    GROWTH_JOURNAL,
+    check_matches,
+    root_attributes,
+    write_seal,
+)
 
 
 def prepare(path: str | Path, plan: Plan) -> Path:
@@ -42,7 +49,9 @@ def prepare(path: str | Path, plan: Plan) -> Path:
     path = Path(path).expanduser().absolute()
     clean_creating(path)
     if path.exists():
-        check_matches(path, plan)
+        if not (path / GROWTH_JOURNAL).exists():
+            # Under the runner lock, the run finishes the growth and checks again.
+            check_matches(path, plan.sweep)
         return path.resolve()
     parent = path.parent
     if not parent.is_dir():
@@ -63,7 +72,7 @@ def prepare(path: str | Path, plan: Plan) -> Path:
     except OSError as err:
         remove_tree(tmp)
         if path.exists():  # another runner created it first: check it like any store
-            check_matches(path, plan)
+            check_matches(path, plan.sweep)
             return path.resolve()
         raise os_error(path, "create the store", err) from err
     except BaseException:
@@ -72,14 +81,25 @@ def prepare(path: str | Path, plan: Plan) -> Path:
     return path.resolve()
 
 
-def create(path: Path, plan: Plan) -> None:
-    """Make the complete store of ``plan`` at ``path`` (which must not exist)."""
-    store_id = uuid.uuid4().hex
+def create(
+    path: Path,
+    plan: Plan,
+    store_id: str | None = None,
+    extra: Mapping[str, Any] | None = None,
+) -> None:
+    """Make the complete store of ``plan`` at ``path`` (which must not exist).
+
+    ``plan.sweep``'s points are in store order. ``store_id`` and ``extra`` (root
+    attributes that override the defaults) are given when a growth rebuilds a
+    store's metadata: the id and ``created`` stay, the growth record and
+    ``point_order`` are added (sweep.store.growth).
+    """
+    store_id = store_id or uuid.uuid4().hex
     root = zarr.open_group(
         str(path),
         mode="w-",
         zarr_format=3,
-        attributes=root_attributes(plan.sweep, store_id),
+        attributes=root_attributes(plan.sweep, store_id, extra),
     )
     create_arrays(root, plan.sweep)
     with warnings.catch_warnings():

@@ -297,6 +297,9 @@ ARRAYS: tuple[ArraySpec, ...] = (
 TASK_ARRAYS = tuple(spec for spec in ARRAYS if spec.written_by_task)
 #: Dataset variables that come from the markers, not from an array.
 MARKER_VARIABLES = ("done", "walkers_done")
+#: ... and those only a store with a precision target has (sweep.precision): the
+#: tasks its points' targets plan so far; not exported by default.
+TARGET_VARIABLES = ("planned",)
 
 
 def by_name(name: str) -> ArraySpec:

@@ -408,6 +408,15 @@ def done_tasks(path: Path) -> set[tuple[int, int]]:
     return set(verified_markers(path)[1])
 
 
+def markers_by_point(path: Path) -> dict[int, dict[int, dict[str, Any]]]:
+    """Markers of finished tasks (checked; damage raises): point → chunk → marker,
+    by store index."""
+    out: dict[int, dict[int, dict[str, Any]]] = {}
+    for (p, c), marker in verified_markers(path)[1].items():
+        out.setdefault(p, {})[c] = marker
+    return out
+
+
 def read_markers(path: Path) -> list[dict[str, Any]]:
     """The summaries written in every completion marker (checked; damage raises)."""
     done = verified_markers(path)[1]

@@ -25,8 +25,9 @@ from typing import Any
 import numpy as np
 
 from kernels import STREAM_VERSION
-from sweep.errors import StoreError, StoreMismatchError
-from sweep.plan import BIT_GENERATOR, Plan, coordinate_columns
+from sweep.errors import StoreError, StoreMismatchError, SweepError
+from sweep.growth import Growth, Refused, in_store_order, plan_growth
+from sweep.plan import BIT_GENERATOR, coordinate_columns
 from sweep.spec import Sweep, axis_names, parse_spec
 from sweep.store.files import (
     Damage,
@@ -39,7 +40,14 @@ from sweep.store.files import (
 from sweep.store.layout import MARKER_DIR, SEAL_FILE, record_flags
 
 #: 2: the store id and ``_seal.json``; markers list their chunk files' checksums.
+#: 3: a grown store whose points are not in its definition's order (``point_order``).
 STORE_FORMAT = 2
+GROWN_FORMAT = 3
+#: Formats this version reads (and resumes, and grows).
+READ_FORMATS = (2, 3)
+#: The growth journal: present from the moment a growth is committed until its files
+#: are all in place; its presence means "finish me" (sweep.store.growth).
+GROWTH_JOURNAL = "_growth.json"
 #: The root attribute that holds everything the tool records about a store.
 ATTRS_KEY = "brownian_sweep"
 #: The stream version of stores made before versions were recorded (they carry a
@@ -78,8 +86,12 @@ def provenance() -> dict[str, str]:
     }
 
 
-def root_attributes(sweep: Sweep, store_id: str) -> dict[str, Any]:
-    """The root group's attributes of a new store of ``sweep`` with id ``store_id``."""
+def root_attributes(
+    sweep: Sweep, store_id: str, extra: Mapping[str, Any] | None = None
+) -> dict[str, Any]:
+    """The root group's attributes of a new store of ``sweep`` with id ``store_id``;
+    ``extra`` overrides or adds entries (a grown store's ``created``, ``growth``,
+    ``point_order`` and ``format``)."""
     first = sweep.points[0]
     flags = record_flags(sweep)
     return {
@@ -108,7 +120,8 @@ def root_attributes(sweep: Sweep, store_id: str) -> dict[str, Any]:
             "occupancy": flags["occupancy"],
             "fpt_bins": first.record.fpt_bins,
             "units": {"length": sweep.units.length, "time": sweep.units.time},
-        },
+        }
+        | dict(extra or {}),
         "title": f"brownian-sweep results: {sweep.name}",
         "Conventions": "CF-1.10",
     }
@@ -156,6 +169,13 @@ def read_attrs(path: str | Path, writing: bool = False) -> dict[str, Any]:
         raise StoreError(
             f"{path}: no such store (expected a directory made by `sweep run`)."
         )
+    if (path / GROWTH_JOURNAL).exists():
+        raise StoreError(
+            f"{path}: this store is being grown to a larger definition, or its growth "
+            f"was stopped midway ({GROWTH_JOURNAL} exists): wait for the run that grows "
+            f"it, or rerun `sweep run` with the new definition and --store {path} to "
+            f"finish the growth; the stored results are intact."
+        )
     ours = (path / SEAL_FILE).exists()
     try:
         attrs = json.loads(meta.read_text())["attributes"][ATTRS_KEY]
@@ -192,12 +212,12 @@ def read_attrs(path: str | Path, writing: bool = False) -> dict[str, Any]:
 
 
 def _check_format(path: Path, attrs: Mapping[str, Any]) -> None:
-    if attrs.get("format") == STORE_FORMAT:
+    if attrs.get("format") in READ_FORMATS:
         return
     older = isinstance(attrs.get("format"), int) and attrs["format"] < STORE_FORMAT
     raise StoreError(
         f"{path}: store format {attrs.get('format')!r}; this version of the tool reads "
-        f"format {STORE_FORMAT}."
+        f"format {' and '.join(map(str, READ_FORMATS))}."
         + (
             " Earlier formats kept no checksums of their results: run the "
             "definition again into a new store."
@@ -233,11 +253,30 @@ def _check_seal(path: Path, attrs: Mapping[str, Any]) -> list[Damage]:
 
 
 def load_sweep(path: str | Path) -> Sweep:
-    """The validated sweep that made the store at ``path`` (from its stored text)."""
+    """The validated sweep that made the store at ``path`` (from its stored text).
+
+    Its points are in the definition's order, as ``open_dataset`` presents them (a
+    grown store keeps them in another order on disk: see :func:`point_order`).
+    """
     attrs = read_attrs(path)
     return parse_spec(
         attrs["definition"], source=f"{attrs.get('source', '?')} (stored in {path})"
     )
+
+
+def point_order(attrs: Mapping[str, Any]) -> list[int]:
+    """Store index → index of the point in the definition (identity unless grown)."""
+    order = attrs.get("point_order")
+    return list(range(attrs["n_points"])) if order is None else list(order)
+
+
+def ordered_sweep(path: str | Path, sweep: Sweep) -> Sweep:
+    """``sweep``, the definition the store at ``path`` holds, with its points in the
+    store's order (what a run's tasks are numbered by)."""
+    attrs = read_attrs(path, writing=True)
+    if attrs["spec"] != sweep.canonical:
+        raise StoreMismatchError(f"{path}: not the store of {sweep.source}.")
+    return in_store_order(sweep, attrs.get("point_order"))
 
 
 def stream_version(attrs: Mapping[str, Any]) -> int:
@@ -245,14 +284,21 @@ def stream_version(attrs: Mapping[str, Any]) -> int:
     return int(attrs.get("stream_version", UNVERSIONED_STREAM))
 
 
-def check_matches(path: Path, plan: Plan) -> None:
-    """Refuse a store made with other random streams or by another definition.
+def check_matches(path: Path, sweep: Sweep) -> Growth | None:
+    """Refuse a store made with other random streams or by a definition that does not
+    only add work to it.
+
+    Returns
+    -------
+    Growth or None
+        None when the store was made by this very definition; a :class:`Growth` when
+        the definition adds walkers or points (or lists the same points in another
+        order), which ``sweep.store.growth.grow`` applies.
 
     Raises
     ------
     StoreMismatchError
-        The store's stream version or definition differs from ``plan``'s; the
-        message names both versions, or lists the differences.
+        Other random streams (both versions named), or any other difference (listed).
     """
     attrs = read_attrs(path, writing=True)
     version = stream_version(attrs)
@@ -265,13 +311,21 @@ def check_matches(path: Path, plan: Plan) -> None:
             f"Finish it with a brownian-sweep that draws stream version {version}, or "
             "start the sweep again under another store path; nothing was changed."
         )
-    stored = {"spec": attrs["spec"]}
-    wanted = {"spec": plan.sweep.canonical}
-    if stored == wanted:
-        return
+    if attrs["spec"] == sweep.canonical:
+        return None
+    try:
+        stored = parse_spec(attrs["definition"], source=f"{path}")
+        if stored.canonical != attrs["spec"]:
+            # Stored by a version that resolved the definition otherwise: only an
+            # identical definition resumes it.
+            raise Refused(list(_differences(attrs["spec"], sweep.canonical)))
+        return plan_growth(stored, attrs.get("point_order"), sweep)
+    except Refused as refused:
+        differences = refused.differences
+    except SweepError:
+        differences = list(_differences(attrs["spec"], sweep.canonical))
     lines = [
-        f"  {key}: stored {_short(a)}, now {_short(b)}"
-        for key, a, b in _differences(stored, wanted)
+        f"  {key}: stored {_short(a)}, now {_short(b)}" for key, a, b in differences
     ]
     shown = "\n".join(lines[:MAX_DIFFERENCES]) + (
         f"\n  ... and {len(lines) - MAX_DIFFERENCES} more"
@@ -280,8 +334,9 @@ def check_matches(path: Path, plan: Plan) -> None:
     )
     raise StoreMismatchError(
         f"{path}: this store was made by a different sweep definition "
-        f"({attrs.get('source', '?')}), so resuming it with {plan.sweep.source} would mix "
-        f"results. Differences:\n{shown}\n"
+        f"({attrs.get('source', '?')}), so resuming it with {sweep.source} would mix "
+        f"results. A rerun may only add work to a store (more walkers with the same "
+        f"chunk, more grid values or zip rows). Differences:\n{shown}\n"
         f"Use another store path for the new definition, or restore the old one."
     )
 

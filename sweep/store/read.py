@@ -8,6 +8,7 @@ finished comes from the checked completion markers, never from chunk files.
 from __future__ import annotations
 
 import warnings
+from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
@@ -15,8 +16,9 @@ import numpy as np
 import xarray as xr
 from numpy.typing import NDArray
 
+from sweep import precision
 from sweep.spec import NO_UNITS, Units, key_quantity
-from sweep.store.layout import ARRAYS, PARAMETER, by_name
+from sweep.store.layout import ARRAYS, PARAMETER, TARGET_VARIABLES, by_name
 from sweep.store.markers import verified_markers
 
 #: Variables renamed since earlier store versions (old name -> new name); read stores
@@ -77,12 +79,28 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
     ds["done"] = xr.DataArray(
         done, dims=("point", "chunk"), attrs={"long_name": "task completed"}
     )
+    target = precision.from_canonical(attrs["spec"]["sweep"].get("precision"))
+    if target is not None:
+        # A precision target: a point runs only the chunks its target needs.
+        planned, final = _planned(target, attrs, markers)
+        (name,) = TARGET_VARIABLES
+        ds[name] = xr.DataArray(
+            planned,
+            dims=("point", "chunk"),
+            attrs={
+                "long_name": "task part of the sweep: the chunks up to the point's "
+                "deciding checkpoint, or up to its next one while undecided "
+                "(sweep.precision)"
+            },
+        )
     done_da = ds["done"]
     walkers_done = (done_da * ds["chunk_walkers"]).sum("chunk")
     ds["walkers_done"] = walkers_done.assign_attrs(
         long_name="walkers of finished tasks"
     )
     complete = bool(done.all())
+    if target is not None:
+        complete = bool(final.all() and (done | ~planned).all())
     for spec in ARRAYS:
         if spec.name not in raw or spec.read in ("index", "coordinate"):
             continue
@@ -104,6 +122,18 @@ def open_dataset(path: str | Path, verify: bool = False) -> xr.Dataset:
             ds[spec.name] = raw[spec.name].compute()
     if "wall" in ds.dims:
         ds = ds.assign_coords(wall=list(attrs["wall_names"]))
+    order = attrs.get("point_order")
+    if order is not None:
+        # A grown store appended the points it gained; readers see the points in the
+        # definition's order, as in a store made at once from it.
+        ds = ds.isel(point=np.argsort(np.asarray(order)))
+        ds = ds.assign_coords(
+            point=xr.Variable(
+                ("point",),
+                np.arange(attrs["n_points"], dtype=np.int64),
+                ds["point"].attrs,
+            )
+        )
     ds.attrs = {
         "title": raw.attrs.get("title", ""),
         "spec_hash": attrs["spec_hash"],
@@ -147,6 +177,28 @@ def _coordinates(raw: xr.Dataset, attrs: dict[str, Any]) -> xr.Dataset:
     return xr.Dataset(
         coords={"point": raw["point"].values, "time": raw["time"].values, **coords}
     )
+
+
+def _planned(
+    target: precision.Precision,
+    attrs: Mapping[str, Any],
+    markers: Mapping[tuple[int, int], Mapping[str, Any]],
+) -> tuple[NDArray[np.bool_], NDArray[np.bool_]]:
+    """(point, chunk) tasks a precision target plans, and (point,) which points are
+    decided, from the finished tasks' markers (store indices)."""
+    n_p, n_c = attrs["n_points"], attrs["n_chunks"]
+    by_point: dict[int, dict[int, Mapping[str, Any]]] = {}
+    for (p, c), marker in markers.items():
+        by_point.setdefault(p, {})[c] = marker
+    wall = list(attrs["wall_names"]).index(target.wall) if target.wall else 0
+    planned = np.zeros((n_p, n_c), dtype=bool)
+    final = np.zeros(n_p, dtype=bool)
+    for p in range(n_p):
+        chunks, final[p], _ = precision.planned_chunks(
+            target, wall, attrs["chunk"], n_c, by_point.get(p, {})
+        )
+        planned[p, :chunks] = True
+    return planned, final
 
 
 def _mask_unfinished(data: Any, done: NDArray[np.bool_], fill: Any) -> Any:

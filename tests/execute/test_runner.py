@@ -139,9 +139,11 @@ def test_store_of_another_definition_is_refused(
         if p.is_file() and "_runs" not in p.name
     }
     other = tmp_path / "other.toml"
-    other.write_text(SMALL_SPEC.replace("walkers = 3000", "walkers = 4000"))
+    # Fewer walkers: a store only grows (tests/test_growth.py grows one).
+    other.write_text(SMALL_SPEC.replace("walkers = 3000", "walkers = 2000"))
     with pytest.raises(
-        StoreMismatchError, match=r"sweep\.walkers: stored 3000, now 4000"
+        StoreMismatchError,
+        match=r"sweep\.walkers \(fewer walkers\): stored 3000, now 2000",
     ):
         run(other, out, RunOptions(threads=1, progress=False))
     after = {

@@ -55,7 +55,7 @@ CASES: list[Case] = [
     other_definition(
         "store-of-other-grid",
         edit_text(SMALL_SPEC, ("[0.5, 1.0]", "[0.5, 2.0]")),
-        "values: stored [[0.5], [1.0]], now [[0.5], [2.0]]",
+        "points removed (1; their values of motion.diffusivity: [1.0])",
     ),
     other_definition(
         "store-of-other-seed-and-horizon",
@@ -63,7 +63,7 @@ CASES: list[Case] = [
             SMALL_SPEC, ("seed = 7", "seed = 8"), ("horizon = 3.0", "horizon = 4.0")
         ),
         "sweep.seed: stored 7, now 8",
-        "point0.time.horizon: stored 3.0, now 4.0",
+        "time.horizon: stored 3.0, now 4.0",
     ),
     Case(
         id="store-of-other-stream-version",
@@ -101,8 +101,8 @@ CASES: list[Case] = [
     Case(
         id="store-of-newer-format",
         argv=RUN_SMALL,
-        expect=("{ws}/s.zarr", "store format 3", "reads format 2"),
-        setup=(copy_store(), SMALL, edit_attrs("s.zarr", lambda a: a.update(format=3))),
+        expect=("{ws}/s.zarr", "store format 4", "reads format 2 and 3"),
+        setup=(copy_store(), SMALL, edit_attrs("s.zarr", lambda a: a.update(format=4))),
         store="s.zarr",
     ),
     Case(

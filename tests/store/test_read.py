@@ -74,6 +74,7 @@ def test_the_dataset_has_the_variables_the_layout_names(small_store: Path) -> No
     ds = store.open_dataset(small_store)
     named = {n for spec in store.ARRAYS for n in spec.dataset_names()}
     marker_variables = set(store.layout.MARKER_VARIABLES)
+    marker_variables |= set(store.layout.TARGET_VARIABLES)
     parameters = set(ds.attrs["parameter_coordinates"])
     assert set(ds.data_vars) <= named | marker_variables
     assert set(ds.coords) <= named | parameters | {"axis", "wall"}

@@ -1,11 +1,14 @@
-"""The ``[sweep]`` table: name, seed, walkers per point, walkers per task, units."""
+"""The ``[sweep]`` table: name, seed, walkers per point, walkers per task, units,
+precision target."""
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+from sweep import precision as precision_target
 from sweep.spec.context import Context, toml_text
 from sweep.spec.model import Units
 from sweep.spec.sections.section import Section
@@ -13,7 +16,7 @@ from sweep.spec.values import integer
 
 SECTION = Section(
     "sweep",
-    ("name", "seed", "walkers", "chunk", "description", "units"),
+    ("name", "seed", "walkers", "chunk", "description", "units", "precision"),
     required=True,
 )
 #: At most this many walkers per point (the per-walker arrays' length).
@@ -30,6 +33,8 @@ class Head:
     seed: int
     walkers: int
     chunk: int
+    #: ``precision`` read (then ``walkers`` is its ceiling, ``max_walkers``).
+    precision: precision_target.Precision | None = None
 
 
 def read_head(ctx: Context, head: dict[str, Any]) -> Head:
@@ -47,9 +52,20 @@ def read_head(ctx: Context, head: dict[str, Any]) -> Head:
         )
     units = read_units(ctx, head.get("units", {}))
     seed = integer(ctx, ctx.required(head, "seed", "sweep"), "sweep.seed", minimum=0)
+    if "precision" in head:
+        return _read_targeted(ctx, head, name, description, units, seed)
     walkers = integer(
         ctx, ctx.required(head, "walkers", "sweep"), "sweep.walkers", minimum=1
     )
+    _at_most_max(ctx, walkers)
+    if "chunk" in head:
+        chunk = integer(ctx, head["chunk"], "sweep.chunk", minimum=1, maximum=walkers)
+    else:
+        chunk = auto_chunk(walkers)
+    return Head(name, description, units, seed, walkers, chunk)
+
+
+def _at_most_max(ctx: Context, walkers: int) -> None:
     if walkers > MAX_WALKERS:
         # Beyond ~1e300 the size is not a float (an int that large cannot be divided).
         terabytes = walkers * 26 / 1e12 if walkers < 10**300 else float("inf")
@@ -58,11 +74,42 @@ def read_head(ctx: Context, head: dict[str, Any]) -> Head:
             f"must be at most {MAX_WALKERS:,} per point (the per-walker arrays "
             f"alone would hold {terabytes:.3g} TB); got {walkers:,}.",
         )
+
+
+def _read_targeted(
+    ctx: Context,
+    head: dict[str, Any],
+    name: str,
+    description: str,
+    units: Units,
+    seed: int,
+) -> Head:
+    """``[sweep]`` with a precision target: the store holds ``max_walkers`` per point;
+    ``walkers`` (optional) is the first round's (sweep.precision)."""
+    target = precision_target.parse(head["precision"], ctx.source)
+    _at_most_max(ctx, target.max_walkers)
+    chunk = None
     if "chunk" in head:
-        chunk = integer(ctx, head["chunk"], "sweep.chunk", minimum=1, maximum=walkers)
-    else:
-        chunk = auto_chunk(walkers)
-    return Head(name, description, units, seed, walkers, chunk)
+        chunk = integer(ctx, head["chunk"], "sweep.chunk", minimum=1)
+        if chunk > target.max_walkers:
+            raise ctx.fail(
+                "sweep.precision.max_walkers",
+                f"must hold at least one chunk of {chunk:,} walkers (sweep.chunk); "
+                f"got {target.max_walkers:,}.",
+            )
+    first = (
+        integer(
+            ctx, head["walkers"], "sweep.walkers", minimum=1, maximum=target.max_walkers
+        )
+        if "walkers" in head
+        else min(precision_target.DEFAULT_FIRST_WALKERS, target.max_walkers)
+    )
+    target = dataclasses.replace(target, first_walkers=first)
+    if chunk is None:
+        chunk = auto_chunk(first)
+    return Head(
+        name, description, units, seed, target.max_walkers, chunk, precision=target
+    )
 
 
 def read_units(ctx: Context, raw: Any) -> Units:

@@ -18,7 +18,15 @@ def test_sections_and_their_keys_in_message_order() -> None:
     # As written before the registry existed (one literal table): "Allowed keys"
     # messages list them in this order.
     assert SECTIONS == {
-        "sweep": ("name", "seed", "walkers", "chunk", "description", "units"),
+        "sweep": (
+            "name",
+            "seed",
+            "walkers",
+            "chunk",
+            "description",
+            "units",
+            "precision",
+        ),
         "motion": ("dimension", "diffusivity", "drift", "start"),
         "time": ("dt", "horizon", "monitoring", "scheme"),
         "domain": (
