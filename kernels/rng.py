@@ -28,7 +28,7 @@ uint64/int64 arithmetic as float64, which is both wrong (rounding) and slow.
 
 Numba's on-disk cache does not notice edits to this file from kernels that call it
 (the cache is keyed on the calling function's own file): after editing it, delete the
-``__pycache__`` directories under ``kernels/`` (DEVELOPERS.md, "Kernels").
+``__pycache__`` directories under ``kernels/`` (DEVELOPERS.md, "Debugging the kernels").
 """
 
 from __future__ import annotations

@@ -31,7 +31,7 @@ monitoring), plus the table's 3e-11.
 
 The step logic (crossing test, hitting fraction, exit point, folding, the ball mirror,
 the uniform start) repeats :mod:`kernels.walkers`' on array positions with the
-generator state threaded through; DEVELOPERS.md ("The spheres scheme") lists it for a
+generator state threaded through; docs/kernels.md ("The spheres scheme") lists it for a
 later unification.
 """
 

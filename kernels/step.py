@@ -22,7 +22,7 @@ Python with three mechanical rules, so it reads top to bottom as the algorithm:
 
 Why generated, not numba-level specialisation: the position must live in scalar
 registers, because the generator is called through a function pointer, after which
-numba reloads every array element (DEVELOPERS.md, "Kernels"). Numba's own means of
+numba reloads every array element (docs/kernels.md). Numba's own means of
 writing the step once for any dimension keep it in a tuple (``tuple_setitem`` in a
 loop over a literal dimension): measured on a 3-D reflecting box (same run, fastest of
 7), 58 M steps/s against 78 M for scalars and 68 M for arrays. Unrolled text costs

@@ -61,7 +61,7 @@ def _normal(bits):  # type: ignore[no-untyped-def]
     numpy's ziggurat draw for draw, so the stream equals ``rng.standard_normal()``'s;
     but the random sign is applied by multiplying with +-1 instead of by a branch, whose
     mispredictions (half of all draws) cost numba's own version about half its rate on
-    the development machines (DEVELOPERS.md, "Kernels"). Every integer constant is a
+    the development machines (docs/kernels.md). Every integer constant is a
     uint64: with plain int literals numba types the masks as int64 and compares the
     mixed-sign ``rabs < ki_double[idx]`` in floating point, a conversion that cost the
     kernels about 10 % (same-run A/B; exact either way, as the values are below 2^53).
@@ -187,7 +187,7 @@ def draw_normals(generator, n_steps, dimension):  # type: ignore[no-untyped-def]
 
 #: The bridge probability is only evaluated when (a - x1)(a - x2) < BRIDGE_CUTOFF * D dt;
 #: beyond that it is below exp(-20) ~ 2e-9 and is skipped (planning figure, see
-#: DEVELOPERS.md "Kernels").
+#: docs/kernels.md).
 BRIDGE_CUTOFF = 20.0
 
 #: See _crossing: 1 + 1e-12 exceeds the rounding error of u * cubic (a few 1e-16) and
