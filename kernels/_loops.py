@@ -3,7 +3,7 @@ EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,
 ``FORCE_LOOPS[kind, dim]`` those with a force field.
-Digest of template, generator, kernels/walkers.py and rng.py: 071c2a78d643f58208b5d36392e24973
+Digest of template, generator, kernels/walkers.py and rng.py: 20782881d46649794208c20db69fad25
 """
 
 # ruff: noqa
