@@ -43,6 +43,11 @@ def half_line_reactive_cdf(
     Returns
     -------
     ndarray of float, the shape of ``t``
+
+    Source
+    ------
+    Carslaw & Jaeger 1959, Conduction of Heat in Solids, §2.9, radiation condition
+    [memory]; docs/analytic-reference.md J1.
     """
     t = np.asarray(t, dtype=np.float64)
     d, k = diffusivity, reactivity
@@ -69,6 +74,11 @@ def interval_reactive_mean(
     -x): T = (L x - x²/2)/D + c, T'(0) = L/D, so c = L/κ. κ → inf recovers the
     absorbing-reflecting interval (Redner 2001 ch. 2 [from memory]); analytic
     reference J2 (check value L = 1, D = 0.5, κ = 2, x0 = 0.5: 1.25).
+
+    Source
+    ------
+    Redner 2001, A Guide to First-Passage Processes, ch. 2 [memory]; derivation in
+    docs/analytic-reference.md J2 [derived].
     """
     extra = 0.0 if math.isinf(reactivity) else length / reactivity
     return (length * x0 - 0.5 * x0 * x0) / diffusivity + extra
@@ -83,6 +93,12 @@ def ball_reactive_mean(
     D ∇²T = -1 is (R² - r²)/(2 d D) + c; at r = R, D T'(R) = -R/d must equal -κ T(R) =
     -κ c, so c = R / (d κ). κ → inf recovers the absorbing ball (Øksendal,
     Example 7.4.2 [from memory]).
+
+    Source
+    ------
+    Derived here (backward equation with the Robin condition; docs/analytic-
+    reference.md, section J); the absorbing limit: Øksendal, Stochastic Differential
+    Equations, Example 7.4.2 [memory].
     """
     extra = 0.0 if math.isinf(reactivity) else radius / (dimension * reactivity)
     return (radius * radius - r0 * r0) / (2.0 * dimension * diffusivity) + extra
@@ -99,6 +115,11 @@ def centre_target_reactive_mean(
     T'(R) = 0 is T = -r²/(6D) - R³/(3 D r) + c; the Robin condition at the target,
     whose outward normal (out of the domain) points to -r, is D T'(a) = κ T(a), and
     D T'(a) = (R³ - a³)/(3 a²) fixes c. κ → inf recovers the absorbing target.
+
+    Source
+    ------
+    Derived here (docs/analytic-reference.md J3) [derived]; the absorbing limit is the
+    classical narrow-escape mean, Redner 2001, ch. 6 [memory].
     """
     a, big_r, d = target, radius, diffusivity
     absorbing = (a * a - r0 * r0) / (6.0 * d) + big_r**3 * (1.0 / a - 1.0 / r0) / (
@@ -124,6 +145,11 @@ def sphere_reactive_cdf(
     probability (a / r0) κa / (κa + D) (Collins & Kimball 1949, J. Colloid Sci. 4
     [from memory]; analytic reference J4); κ → inf gives (a / r0) erfc((r0 - a) /
     sqrt(4 D t)) (Smoluchowski).
+
+    Source
+    ------
+    Collins & Kimball 1949, J. Colloid Sci. 4 [memory]; docs/analytic-reference.md
+    J4.
     """
     a, d, k = radius, diffusivity, reactivity
     if math.isinf(k):
@@ -142,7 +168,13 @@ def sphere_capture_probability(
     r0: float, radius: float, diffusivity: float, reactivity: float
 ) -> float:
     """Eventual capture probability ``(a/r0) κa/(κa + D)`` by a reactive sphere in free
-    3-D space (Collins & Kimball 1949 [from memory]; analytic reference J4)."""
+    3-D space (Collins & Kimball 1949 [from memory]; analytic reference J4).
+
+    Source
+    ------
+    Collins & Kimball 1949, J. Colloid Sci. 4 [memory]; docs/analytic-reference.md
+    J4.
+    """
     a = radius
     if math.isinf(reactivity):
         return a / r0
@@ -158,6 +190,10 @@ def obstacle_ball_mean(
     3-D: ``(R² - r0²)/(6D) + a³ (1/R - 1/r0)/(3D)``; 2-D: ``(R² - r0²)/(4D) +
     (a²/(2D)) ln(r0/R)`` (radial solution of D ∇²T = -1 with T(R) = 0, T'(a) = 0;
     analytic reference J5, derived).
+
+    Source
+    ------
+    Radial solution of the backward equation [derived]; docs/analytic-reference.md J5.
     """
     a, big_r, d = obstacle, radius, diffusivity
     if dimension == 3:
@@ -172,7 +208,13 @@ def free_msd(
 ) -> float:
     """Mean-square displacement ``2 d D t + |μ t|²`` of free motion, which walkers in a
     periodic box keep in unwrapped coordinates (analytic reference A2; Karlin &
-    Taylor 1975 ch. 7 [from memory])."""
+    Taylor 1975 ch. 7 [from memory]).
+
+    Source
+    ------
+    Karlin & Taylor 1975, A First Course in Stochastic Processes, ch. 7 [memory];
+    docs/analytic-reference.md A2.
+    """
     return 2.0 * dimension * diffusivity * t + sum((v * t) ** 2 for v in drift)
 
 
@@ -181,7 +223,12 @@ def free_msd_variance(
 ) -> float:
     """Variance of one walker's squared displacement |X(t) - x0|² under free motion:
     per axis X - x0 = μ t + s Z with s² = 2 D t, so (μt + sZ)² has variance
-    2 s⁴ + 4 μ² t² s² (Gaussian moments), summed over the independent axes."""
+    2 s⁴ + 4 μ² t² s² (Gaussian moments), summed over the independent axes.
+
+    Source
+    ------
+    Gaussian moments (E Z² = 1, E Z⁴ = 3) [derived].
+    """
     s2 = 2.0 * diffusivity * t
     mu = list(drift) or [0.0] * dimension
     return sum(2.0 * s2 * s2 + 4.0 * (v * t) ** 2 * s2 for v in mu)
