@@ -21,6 +21,7 @@ import numpy as np
 from sweep import precision
 from sweep.check.exact import _absorbing_axis, _exact_splitting
 from sweep.plan import Plan
+from sweep.spec import axis_names
 
 #: Walkers of the pilot of one point (from its first task's stream).
 PILOT_WALKERS = 2000
@@ -64,7 +65,7 @@ def walkers_needed(plan: Plan) -> list[Need]:
         if target.statistic == "splitting" and target.wall:
             axis = _absorbing_axis(point)
             axis_name, _, side = target.wall.rpartition("_")
-            names = _axis_names(point)
+            names = list(axis_names(point.motion.dimension))
             if (
                 axis is not None
                 and side in ("lower", "upper")
@@ -98,9 +99,3 @@ def walkers_needed(plan: Plan) -> list[Need]:
         chunks = next((m for m in stops if m * sweep.chunk >= needed), sweep.n_chunks)
         out.append(Need(p, needed, min(chunks * sweep.chunk, sweep.walkers), how))
     return out
-
-
-def _axis_names(point: object) -> list[str]:
-    from sweep.spec import axis_names
-
-    return list(axis_names(point.motion.dimension))  # type: ignore[attr-defined]
