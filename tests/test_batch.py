@@ -201,7 +201,7 @@ def test_workers_retire_before_the_limit_then_resubmit(
     out, workdir = tmp_path / "slurm.zarr", tmp_path / "job"
     first = submit(
         cluster, batch_spec, out, workdir, "--cpus-per-task=1", "--time=1",
-        env={"SWEEP_WORKER_LIFETIME": "8s"},
+        env={"SWEEP_WORKER_LIFETIME": "4s"},
     )  # fmt: skip
     info = cluster.wait(first, JOB_PATIENCE)
     log = job_log(workdir, first)
