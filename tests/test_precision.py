@@ -10,10 +10,7 @@ resumed, and require the same chunks per point and the same bits.
 from __future__ import annotations
 
 import math
-import os
 import shutil
-import signal
-import subprocess
 from pathlib import Path
 
 import numpy as np
@@ -25,11 +22,10 @@ from sweep.errors import SpecError
 from sweep.execute import RunOptions, run
 from sweep.spec import parse_spec
 from tests.conftest import (
-    PATIENCE,
     assert_stores_identical,
     build_store,
+    kill_run_at,
     run_cli,
-    sweep_command,
 )
 
 #: Pooled moments from chunk sums agree with a two-pass computation over all
@@ -316,26 +312,13 @@ def test_killed_and_resumed_targeted_run_gives_the_same_store(
     spec.write_text(TARGET_SPEC)
     store = tmp_path / "killed.zarr"
     # Killed before its third round (SWEEP_ROUND_PAUSE only makes it wait there) ...
-    proc = subprocess.Popen(
-        [*sweep_command(), "run", str(spec), "--store", str(store), "--quiet"],
-        stdout=subprocess.DEVNULL,
-        stderr=subprocess.PIPE,
-        text=True,
-        env={**os.environ, "PYTHONUNBUFFERED": "1", "SWEEP_ROUND_PAUSE": "3"},
-        start_new_session=True,
+    kill_run_at(
+        spec,
+        store,
+        "run paused before round 3",
+        "its third round",
+        SWEEP_ROUND_PAUSE="3",
     )
-    try:
-        assert proc.stderr is not None
-        for line in proc.stderr:
-            if "run paused before round 3" in line:
-                break
-        else:
-            pytest.fail(f"the run ended before its third round: rc {proc.wait()}")
-    finally:
-        os.killpg(proc.pid, signal.SIGKILL)
-        proc.wait(timeout=PATIENCE)
-        if proc.stderr is not None:
-            proc.stderr.close()
     # ... after rounds of 2 and then 4 chunks per point: 8 tasks done.
     markers = store / "_tasks"
     assert len(list(markers.glob("p*-c*.json"))) == 8
