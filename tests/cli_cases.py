@@ -8,11 +8,10 @@ naming the file or store, the key, the value, what is allowed), exit code 2, no
 traceback, and every file of an existing store byte-identical afterwards (the run log
 ``_runs.log`` aside). A module lists its cases in ``CASES`` and defines::
 
-    from tests.cli_cases import outcomes, reference_store, workspace  # fixtures
-
     test_something = case_test(CASES, "What the cases have in common.")
 
-(``tests/store/conftest.py`` imports the fixtures for every store test.) A bad
+(the fixtures here, ``workspace``, ``reference_store`` and ``outcomes``, reach every
+test module: ``tests/conftest.py`` loads this module as a pytest plugin). A bad
 definition file is a :func:`spec_case`. The reference store (``reference_store``, a
 copy of the session's SMALL_SPEC store) is made only when a case copies it.
 
@@ -41,7 +40,7 @@ from pathlib import Path
 import pytest
 
 from sweep import store
-from tests.conftest import PATIENCE, run_cli
+from tests.conftest import PATIENCE, SMALL_SPEC, run_cli
 
 ERROR = "sweep: error:"
 #: Address-space limits for cases that could otherwise take the machine's memory: enough
@@ -99,6 +98,10 @@ def write(name: str, text: str | bytes | dict[str, str]) -> Setup:
 
     return setup
 
+
+#: SMALL_SPEC written into the case's folder, and `sweep run` on it into ``ws/s.zarr``.
+SMALL = write("small.toml", SMALL_SPEC)
+RUN_SMALL = ("run", "{ws}/small.toml", "--store", "{ws}/s.zarr", "--quiet")
 
 #: How a setup gets the reference store (SMALL_SPEC, complete): set by the `outcomes`
 #: fixture before any case is set up, and made by it only when a case asks.
@@ -297,8 +300,7 @@ def outcomes(
     request: pytest.FixtureRequest, workspace: Path
 ) -> Iterator[dict[str, concurrent.futures.Future[Outcome]]]:
     """Set up every selected case of the requesting module, then run them all at once
-    on a small pool (the reference store is made at the first case that copies it;
-    a module whose cases copy it imports the ``reference_store`` fixture)."""
+    on a small pool (the reference store is made at the first case that copies it)."""
     REFERENCE[:] = [lambda: request.getfixturevalue("reference_store")]
     selected = []
     for item in request.session.items:
@@ -380,11 +382,8 @@ def assert_one_error(
 
 
 def check(case: Case, request: pytest.FixtureRequest) -> None:
-    """The case's command gave one clear message and left every file as it was.
-
-    ``request`` is the test's: its module must import the fixtures ``workspace``,
-    ``reference_store`` and ``outcomes`` from here.
-    """
+    """The case's command gave one clear message and left every file as it was
+    (``request``: the test's)."""
     outcomes: dict[str, concurrent.futures.Future[Outcome]] = request.getfixturevalue(
         "outcomes"
     )

@@ -15,6 +15,10 @@ import numpy as np
 import pytest
 import zarr
 
+#: The command-line case machinery's fixtures (``workspace``, ``reference_store``,
+#: ``outcomes``), found by every test module that lists cases.
+pytest_plugins = ("tests.cli_cases",)
+
 # Measured machine speeds (`sweep bench`, `sweep plan`'s calibration) go to a cache
 # of this test session, never the user's ~/.cache: set before any sweep module reads
 # it, and inherited by every subprocess the tests start.

@@ -13,8 +13,6 @@ from sweep.cli import build_parser
 from tests.cli_cases import (
     Case,
     case_test,
-    outcomes,  # noqa: F401  (a fixture)
-    workspace,  # noqa: F401  (a fixture)
 )
 from tests.conftest import run_cli
 

@@ -6,15 +6,12 @@ message, exit code 2, and leaves the store as it was (the case machinery:
 from __future__ import annotations
 
 from tests.cli_cases import (
+    RUN_SMALL,
+    SMALL,
     Case,
     case_test,
     copy_store,
-    outcomes,  # noqa: F401  (a fixture)
-    reference_store,  # noqa: F401  (a fixture)
-    workspace,  # noqa: F401  (a fixture)
-    write,
 )
-from tests.conftest import SMALL_SPEC
 
 #: For a missing scheduler file: the message must come well before the 60 s the Dask
 #: client would wait for a scheduler (the command takes about 2 s on an idle machine;
@@ -23,8 +20,6 @@ FAIL_FAST = 25.0
 #: The message argparse prints for bad options of `sweep run`.
 ARGPARSE_RUN_ERROR = "sweep run: error:"
 
-SMALL = write("small.toml", SMALL_SPEC)
-RUN_SMALL = ("run", "{ws}/small.toml", "--store", "{ws}/s.zarr", "--quiet")
 
 CASES: list[Case] = [
     Case(

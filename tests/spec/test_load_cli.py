@@ -17,9 +17,7 @@ from tests.cli_cases import (
     RUN_LIMIT,
     Case,
     case_test,
-    outcomes,  # noqa: F401  (a fixture)
     spec_case,
-    workspace,  # noqa: F401  (a fixture)
 )
 from tests.conftest import SMALL_SPEC
 from tests.spec.bases import CUBE
