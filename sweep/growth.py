@@ -125,7 +125,7 @@ def plan_growth(
     old_walkers, new_walkers = old_head.pop("walkers"), new_head.pop("walkers")
     old_precision = old_head.pop("precision", None)
     new_precision = new_head.pop("precision", None)
-    refused += _differences(old_head, new_head, "sweep.")
+    refused += differences(old_head, new_head, "sweep.")
     if old_precision != new_precision:
         refused.append(("sweep.precision", old_precision, new_precision))
     if new_walkers < old_walkers:
@@ -170,7 +170,7 @@ def plan_growth(
         # The same swept values, so any other difference is in a key not swept.
         old_point = stored.points[def_index].canonical()
         new_point = new.points[j].canonical()
-        for diff in _differences(old_point, new_point):
+        for diff in differences(old_point, new_point):
             key = (diff[0], json.dumps(diff[1]), json.dumps(diff[2]))
             if key not in seen:
                 seen.add(key)
@@ -209,9 +209,11 @@ def plan_growth(
     )
 
 
-def _differences(
-    a: Any, b: Any, prefix: str = ""
-) -> Iterator[tuple[str, Any, Any]] | list[tuple[str, Any, Any]]:
+def differences(a: Any, b: Any, prefix: str = "") -> list[tuple[str, Any, Any]]:
+    """Where two canonical forms (nested mappings) differ: ``(dotted key, a's value,
+    b's value)`` in sorted key order, ``"<absent>"`` for a key one of them lacks;
+    ``prefix`` starts every key (e.g. ``"sweep."``). Also the store's provenance
+    check's list of differences."""
     return list(_walk(a, b, prefix))
 
 

@@ -20,7 +20,7 @@ the pairwise update of Chan, Golub & LeVeque (1983, "Algorithms for computing th
 sample variance", The American Statistician 37:242, eq. 2.1), so a decision reads no
 walker data.
 
-Imports only :mod:`sweep.errors` (it sits before ``spec`` in the layering).
+Imports only :mod:`sweep.errors` of the stages (it sits before ``spec`` in the layering).
 """
 
 from __future__ import annotations
@@ -29,6 +29,8 @@ import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
+
+import numpy as np
 
 from sweep.errors import SpecError
 
@@ -221,6 +223,33 @@ def checkpoints(first_chunks: int, n_chunks: int) -> list[int]:
     return out
 
 
+def wilson_halfwidth(p: Any, n: Any, z: float = Z) -> Any:
+    """Half the width of the Wilson score interval of a binomial proportion (Wilson
+    1927, "Probable inference, the law of succession, and statistical inference",
+    JASA 22:209).
+
+    The one copy of the formula: :func:`estimate` judges splitting targets with it
+    and :func:`sweep.stats.wilson_interval` builds its intervals on it (this stage
+    sits before both).
+
+    Parameters
+    ----------
+    p : float or array
+        Observed proportion ``successes / n`` (dimensionless, in [0, 1]).
+    n : int, float or array
+        Trials behind ``p`` (walkers); broadcasts with ``p`` as their type does.
+    z : float
+        Two-sided standard-normal quantile of the level (default :data:`Z`, 95 %).
+
+    Returns
+    -------
+    float or array
+        The half-width (dimensionless), of the broadcast shape of ``p`` and ``n``;
+        a numpy scalar for scalar input. NaN where ``n`` is NaN.
+    """
+    return z / (1 + z * z / n) * np.sqrt(p * (1 - p) / n + z * z / (4 * n * n))
+
+
 @dataclass(frozen=True)
 class Estimate:
     """A point's statistic over a prefix of its chunks.
@@ -250,13 +279,9 @@ def estimate(
             absorbed = m["absorbed_by"]
             hits += int(absorbed[wall_index]) if wall_index < len(absorbed) else 0
         p = hits / walkers
-        # Half the Wilson score interval's width (Wilson 1927, JASA 22:209), as
-        # sweep.stats reports it; finite at p = 0 and 1, unlike the normal one.
-        half = (
-            Z
-            / (1 + Z * Z / walkers)
-            * math.sqrt(p * (1 - p) / walkers + Z * Z / (4 * walkers * walkers))
-        )
+        # The Wilson half-width, as sweep.stats reports it; finite at p = 0 and 1,
+        # unlike the normal one.
+        half = float(wilson_halfwidth(p, walkers))
         return Estimate(
             len(markers), walkers, p, half, censored, half <= precision.halfwidth
         )
@@ -318,8 +343,6 @@ def chunk_moments(times: Any) -> list[Any]:
     """``[absorbed, mean, sum of squared deviations]`` of one chunk's first-passage
     times (NaN: censored), exactly rounded sums (``math.fsum``) so they do not
     depend on how numpy vectorises a sum on this machine."""
-    import numpy as np
-
     t = np.asarray(times, dtype=np.float64)
     t = t[np.isfinite(t)]
     n = int(t.size)

@@ -1,16 +1,19 @@
 """Table-driven bad-input cases of the command line, shared by the test files that
-list them (``tests/test_bad_input.py``, ``tests/store/test_*.py``, ``tests/test_export.py``).
+list them (``tests/spec/test_load_cli.py``, ``tests/store/test_*.py``,
+``tests/execute/test_options.py``, ``tests/cli/test_bench.py``, ``tests/test_memory.py``,
+``tests/test_export.py``): the one case runner, through ``tests.conftest.run_cli``.
 
 A :class:`Case` is one bad command line: what it must say (ONE ``sweep: error:`` line
 naming the file or store, the key, the value, what is allowed), exit code 2, no
 traceback, and every file of an existing store byte-identical afterwards (the run log
 ``_runs.log`` aside). A module lists its cases in ``CASES`` and defines::
 
-    from tests.cli_cases import outcomes, reference_store, workspace  # fixtures
-
     test_something = case_test(CASES, "What the cases have in common.")
 
-(``tests/store/conftest.py`` imports the fixtures for every store test.)
+(the fixtures here, ``workspace``, ``reference_store`` and ``outcomes``, reach every
+test module: ``tests/conftest.py`` loads this module as a pytest plugin). A bad
+definition file is a :func:`spec_case`. The reference store (``reference_store``, a
+copy of the session's SMALL_SPEC store) is made only when a case copies it.
 
 The cases of a module are independent, so they are set up and started together
 on a small thread pool (the imports of ``sweep run`` cost about two CPU-seconds each) and
@@ -37,9 +40,13 @@ from pathlib import Path
 import pytest
 
 from sweep import store
-from tests.conftest import PATIENCE, run_cli
+from tests.conftest import PATIENCE, SMALL_SPEC, run_cli
 
 ERROR = "sweep: error:"
+#: Address-space limits for cases that could otherwise take the machine's memory: enough
+#: for `sweep run` (numba, dask) or for `sweep plan` (numpy only).
+RUN_LIMIT = 4 << 30
+PLAN_LIMIT = 512 << 20
 
 
 class Unavailable(Exception):
@@ -74,13 +81,17 @@ class Case:
 # --------------------------------------------------------------------------- setups
 
 
-def write(name: str, text: str | bytes) -> Setup:
-    """Write ``ws/name`` (text, or raw bytes)."""
+def write(name: str, text: str | bytes | dict[str, str]) -> Setup:
+    """Write ``ws/name`` (text, raw bytes, or a directory of these files' texts)."""
 
     def setup(ws: Path, stack: contextlib.ExitStack) -> None:
         target = ws / name
         target.parent.mkdir(parents=True, exist_ok=True)
-        if isinstance(text, bytes):
+        if isinstance(text, dict):
+            target.mkdir()
+            for file, content in text.items():
+                (target / file).write_text(content)
+        elif isinstance(text, bytes):
             target.write_bytes(text)
         else:
             target.write_text(text)
@@ -88,9 +99,13 @@ def write(name: str, text: str | bytes) -> Setup:
     return setup
 
 
-#: The reference store (SMALL_SPEC, complete), set by the `reference_store` fixture
-#: before any case is set up.
-REFERENCE: list[Path] = []
+#: SMALL_SPEC written into the case's folder, and `sweep run` on it into ``ws/s.zarr``.
+SMALL = write("small.toml", SMALL_SPEC)
+RUN_SMALL = ("run", "{ws}/small.toml", "--store", "{ws}/s.zarr", "--quiet")
+
+#: How a setup gets the reference store (SMALL_SPEC, complete): set by the `outcomes`
+#: fixture before any case is set up, and made by it only when a case asks.
+REFERENCE: list[Callable[[], Path]] = []
 
 
 def copy_store(name: str = "s.zarr", forget: int = 0) -> Setup:
@@ -98,7 +113,7 @@ def copy_store(name: str = "s.zarr", forget: int = 0) -> Setup:
 
     def setup(ws: Path, stack: contextlib.ExitStack) -> None:
         target = ws / name
-        shutil.copytree(REFERENCE[0], target)
+        shutil.copytree(REFERENCE[0](), target)
         for marker in sorted((target / store.MARKER_DIR).iterdir())[:forget]:
             marker.unlink()
 
@@ -174,6 +189,39 @@ def read_only_dir(name: str, contents: Setup | None = None) -> Setup:
     return setup
 
 
+def spec_case(
+    id: str,
+    text: str | bytes | dict[str, str] | None,
+    *expect: str,
+    command: str = "plan",
+    path: str = "bad.toml",
+    memory_limit: int | None = None,
+    bug: str | None = None,
+) -> Case:
+    """A bad definition at ``ws/path``: its text or bytes, ``None`` for a missing file,
+    or a dict of file names to texts for a directory in its place.
+
+    The message must name that path; ``run`` must create no store (``ws/out.zarr``),
+    and a directory in the definition's place is left as it was. ``plan`` validates
+    exactly as ``run`` does (both call ``load_spec``) at a tenth of the start-up cost,
+    so most definitions go through ``plan`` and a sample through ``run``.
+    """
+    where = "{ws}/" + path
+    argv: tuple[str, ...] = ("plan", where)
+    if command == "run":
+        argv = ("run", where, "--store", "{ws}/out.zarr", "--quiet")
+    return Case(
+        id=id,
+        argv=argv,
+        expect=(where, *expect),
+        setup=() if text is None else (write(path, text),),
+        store=path if isinstance(text, dict) else None,
+        absent="out.zarr",
+        memory_limit=memory_limit,
+        bug=bug,
+    )
+
+
 # --------------------------------------------------------------------------- running
 
 
@@ -244,16 +292,16 @@ def reference_store(workspace: Path, small_store: Path) -> Path:
     it in turn, and a concurrent pytest session cannot delete this copy)."""
     out = workspace / "reference" / "s.zarr"
     shutil.copytree(small_store, out)
-    REFERENCE[:] = [out]
     return out
 
 
 @pytest.fixture(scope="module")
 def outcomes(
-    request: pytest.FixtureRequest, workspace: Path, reference_store: Path
+    request: pytest.FixtureRequest, workspace: Path
 ) -> Iterator[dict[str, concurrent.futures.Future[Outcome]]]:
     """Set up every selected case of the requesting module, then run them all at once
-    on a small pool."""
+    on a small pool (the reference store is made at the first case that copies it)."""
+    REFERENCE[:] = [lambda: request.getfixturevalue("reference_store")]
     selected = []
     for item in request.session.items:
         callspec = getattr(item, "callspec", None)
@@ -334,11 +382,8 @@ def assert_one_error(
 
 
 def check(case: Case, request: pytest.FixtureRequest) -> None:
-    """The case's command gave one clear message and left every file as it was.
-
-    ``request`` is the test's: its module must import the fixtures ``workspace``,
-    ``reference_store`` and ``outcomes`` from here.
-    """
+    """The case's command gave one clear message and left every file as it was
+    (``request``: the test's)."""
     outcomes: dict[str, concurrent.futures.Future[Outcome]] = request.getfixturevalue(
         "outcomes"
     )

@@ -5,6 +5,7 @@ from __future__ import annotations
 import atexit
 import os
 import shutil
+import signal
 import subprocess
 import sys
 import tempfile
@@ -13,6 +14,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 import zarr
+
+#: The command-line case machinery's fixtures (``workspace``, ``reference_store``,
+#: ``outcomes``), found by every test module that lists cases.
+pytest_plugins = ("tests.cli_cases",)
 
 # Measured machine speeds (`sweep bench`, `sweep plan`'s calibration) go to a cache
 # of this test session, never the user's ~/.cache: set before any sweep module reads
@@ -123,6 +128,35 @@ def run_cli(
         cwd=cwd,
         env={**os.environ, "PYTHONUNBUFFERED": "1", **env},
     )
+
+
+def kill_run_at(
+    definition: Path, store: Path, line: str, what: str, **pause: str
+) -> None:
+    """Start ``sweep run DEFINITION --store STORE --quiet`` in its own session with
+    the environment ``pause`` (a pause hook, e.g. ``SWEEP_ROUND_PAUSE="3"``), wait for
+    ``line`` on its stderr and SIGKILL its process group there; fail if the run ends
+    first (``what``: where it should have paused, for the message)."""
+    proc = subprocess.Popen(
+        [*sweep_command(), "run", str(definition), "--store", str(store), "--quiet"],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.PIPE,
+        text=True,
+        env={**os.environ, "PYTHONUNBUFFERED": "1", **pause},
+        start_new_session=True,
+    )
+    try:
+        assert proc.stderr is not None
+        for text in proc.stderr:
+            if line in text:
+                break
+        else:
+            pytest.fail(f"the run ended before {what}: rc {proc.wait()}")
+    finally:
+        os.killpg(proc.pid, signal.SIGKILL)
+        proc.wait(timeout=PATIENCE)
+        if proc.stderr is not None:
+            proc.stderr.close()
 
 
 def build_store(

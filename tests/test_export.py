@@ -17,10 +17,7 @@ from tests.cli_cases import (
     Case,
     case_test,
     copy_store,
-    outcomes,  # noqa: F401  (a fixture)
     read_only_dir,
-    reference_store,  # noqa: F401  (a fixture)
-    workspace,  # noqa: F401  (a fixture)
 )
 
 #: The message argparse prints for bad options of `sweep export`.

@@ -11,10 +11,7 @@ index itself) differs.
 from __future__ import annotations
 
 import json
-import os
 import shutil
-import signal
-import subprocess
 import warnings
 from pathlib import Path
 
@@ -26,7 +23,7 @@ import zarr
 import sweep
 from sweep.errors import StoreError, StoreMismatchError
 from sweep.execute import RunOptions, run
-from tests.conftest import PATIENCE, SMALL_SPEC, build_store, run_cli, sweep_command
+from tests.conftest import SMALL_SPEC, build_store, kill_run_at, run_cli
 
 REPO = Path(__file__).resolve().parent.parent
 
@@ -224,26 +221,13 @@ def test_partial_last_chunk_cannot_be_extended(tmp_path: Path) -> None:
 
 def _growth_killed_at(step: str, store: Path, spec: Path) -> None:
     """Start growing ``store`` to ``spec`` in a process, SIGKILL it at ``step``."""
-    proc = subprocess.Popen(
-        [*sweep_command(), "run", str(spec), "--store", str(store), "--quiet"],
-        stderr=subprocess.PIPE,
-        stdout=subprocess.DEVNULL,
-        text=True,
-        env={**os.environ, "SWEEP_GROWTH_PAUSE": step, "PYTHONUNBUFFERED": "1"},
-        start_new_session=True,
+    kill_run_at(
+        spec,
+        store,
+        f"growth paused at step {step}",
+        f"step {step}",
+        SWEEP_GROWTH_PAUSE=step,
     )
-    try:
-        assert proc.stderr is not None
-        for line in proc.stderr:
-            if f"growth paused at step {step}" in line:
-                break
-        else:
-            pytest.fail(f"the run ended before step {step}: rc {proc.wait()}")
-    finally:
-        os.killpg(proc.pid, signal.SIGKILL)
-        proc.wait(timeout=PATIENCE)
-        if proc.stderr is not None:
-            proc.stderr.close()
 
 
 @pytest.mark.parametrize("step", ["built", "committed", "installing", "sealed"])

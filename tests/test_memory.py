@@ -12,7 +12,54 @@ from sweep.errors import PlanError
 from sweep.execute import RunOptions, run
 from sweep.sizing import check_memory, memory_limit
 from sweep.spec import load_spec
+from tests.cli_cases import (
+    RUN_LIMIT,
+    Case,
+    case_test,
+    spec_case,
+)
 from tests.conftest import SMALL_SPEC
+from tests.spec.bases import CUBE
+from tests.spec.edit import dumps
+from tests.spec.edit import spec as definition
+
+#: Definitions whose tasks would not fit in memory, refused by `sweep run` (under an
+#: address-space limit, so a regression fails fast instead of taking the machine).
+CASES: list[Case] = [
+    spec_case(
+        "chunk-needs-more-memory-than-the-machine",
+        definition(CUBE, sweep__walkers=2_000_000_000, sweep__chunk=2_000_000_000),
+        "[sweep.chunk] = 2000000000",
+        "GiB per task",
+        "Lower sweep.chunk",
+        memory_limit=RUN_LIMIT,
+        command="run",
+    ),
+    spec_case(
+        "two-threads-need-more-memory-than-the-machine",
+        definition(CUBE, sweep__walkers=200_000_000, sweep__chunk=200_000_000),
+        "[sweep.chunk] = 200000000",
+        "2 tasks at once",
+        "run fewer tasks at once",
+        memory_limit=RUN_LIMIT,
+        command="run",
+    ),
+    spec_case(
+        "occupancy-snapshots-need-more-memory-than-the-machine",
+        dumps(CUBE)
+        + "\n[record]\noccupancy = { times = ["
+        + ", ".join(["0.5"] * 400)
+        + "], bins = 215 }\n",
+        "[record.occupancy]",
+        "GiB per task",
+        memory_limit=RUN_LIMIT,
+        command="run",
+    ),
+]
+
+test_too_much_memory_gets_one_clear_message = case_test(
+    CASES, "`sweep run` refuses a sweep that would not fit: one message, no store."
+)
 
 
 def test_memory_beyond_machine_is_refused(tmp_path: Path) -> None:

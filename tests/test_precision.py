@@ -10,10 +10,7 @@ resumed, and require the same chunks per point and the same bits.
 from __future__ import annotations
 
 import math
-import os
 import shutil
-import signal
-import subprocess
 from pathlib import Path
 
 import numpy as np
@@ -25,11 +22,10 @@ from sweep.errors import SpecError
 from sweep.execute import RunOptions, run
 from sweep.spec import parse_spec
 from tests.conftest import (
-    PATIENCE,
     assert_stores_identical,
     build_store,
+    kill_run_at,
     run_cli,
-    sweep_command,
 )
 
 #: Pooled moments from chunk sums agree with a two-pass computation over all
@@ -217,6 +213,33 @@ def test_decision_reads_only_a_prefix_of_the_chunks() -> None:
     np.testing.assert_allclose(last.halfwidth, half, rtol=POOLED_RTOL)
 
 
+def test_splitting_judgement_and_stats_share_the_wilson_interval_to_the_bit() -> None:
+    """The splitting target's half-width and sweep.stats' Wilson bounds are the score
+    interval written out below (Wilson 1927, JASA 22:209; centre (p + z^2/2n) /
+    (1 + z^2/n), half-width z / (1 + z^2/n) sqrt(p(1-p)/n + z^2/4n^2)), bit for bit."""
+    from sweep import stats
+
+    z = precision.Z
+    assert z == stats.z_value(precision.LEVEL)
+    target = precision.Precision("splitting", 0.01, 10**9, "x_upper")
+    for walkers in (1, 2, 5, 500, 4000, 123_457, 10**7):
+        hits = np.unique([0, 1, walkers // 3, walkers // 2, walkers - 1, walkers])
+        n = np.full(hits.shape, float(walkers))
+        p = hits / n
+        half = z / (1 + z * z / n) * np.sqrt(p * (1 - p) / n + z * z / (4 * n * n))
+        centre = (p + z * z / (2 * n)) / (1 + z * z / n)
+        lower, upper = stats.wilson_interval(hits.astype(float), n)
+        np.testing.assert_array_equal(
+            lower, np.clip(np.minimum(centre - half, p), 0, 1)
+        )
+        np.testing.assert_array_equal(
+            upper, np.clip(np.maximum(centre + half, p), 0, 1)
+        )
+        for k, h in zip(hits.tolist(), half.tolist(), strict=True):
+            marker = {"walkers": walkers, "censored": 0, "absorbed_by": [0, k]}
+            assert precision.estimate(target, 1, [marker]).halfwidth == h
+
+
 def test_censored_walkers_keep_a_mean_target_unmet() -> None:
     times = [np.array([0.1, 0.2, np.nan, 0.3] * 50)]
     target = precision.Precision("mean_first_passage_time", 10.0, 200, None, 200)
@@ -289,26 +312,13 @@ def test_killed_and_resumed_targeted_run_gives_the_same_store(
     spec.write_text(TARGET_SPEC)
     store = tmp_path / "killed.zarr"
     # Killed before its third round (SWEEP_ROUND_PAUSE only makes it wait there) ...
-    proc = subprocess.Popen(
-        [*sweep_command(), "run", str(spec), "--store", str(store), "--quiet"],
-        stdout=subprocess.DEVNULL,
-        stderr=subprocess.PIPE,
-        text=True,
-        env={**os.environ, "PYTHONUNBUFFERED": "1", "SWEEP_ROUND_PAUSE": "3"},
-        start_new_session=True,
+    kill_run_at(
+        spec,
+        store,
+        "run paused before round 3",
+        "its third round",
+        SWEEP_ROUND_PAUSE="3",
     )
-    try:
-        assert proc.stderr is not None
-        for line in proc.stderr:
-            if "run paused before round 3" in line:
-                break
-        else:
-            pytest.fail(f"the run ended before its third round: rc {proc.wait()}")
-    finally:
-        os.killpg(proc.pid, signal.SIGKILL)
-        proc.wait(timeout=PATIENCE)
-        if proc.stderr is not None:
-            proc.stderr.close()
     # ... after rounds of 2 and then 4 chunks per point: 8 tasks done.
     markers = store / "_tasks"
     assert len(list(markers.glob("p*-c*.json"))) == 8

@@ -20,6 +20,7 @@ from numpy.typing import NDArray
 from scipy import special
 
 from sweep.errors import SweepWarning
+from sweep.precision import wilson_halfwidth
 from sweep.stats.validate import check_level
 
 #: Default confidence level of every interval.
@@ -77,7 +78,7 @@ def wilson_interval(successes: Any, n: Any, level: float = LEVEL) -> tuple[Any, 
     with np.errstate(invalid="ignore", divide="ignore"):
         p = successes / n
         centre = (p + z * z / (2 * n)) / (1 + z * z / n)
-        half = z / (1 + z * z / n) * np.sqrt(p * (1 - p) / n + z * z / (4 * n * n))
+        half = wilson_halfwidth(p, n, z)
         lower = np.clip(np.minimum(centre - half, p), 0.0, 1.0)
         upper = np.clip(np.maximum(centre + half, p), 0.0, 1.0)
     return lower, upper

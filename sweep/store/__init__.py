@@ -95,9 +95,6 @@ from sweep.store.provenance import (
 )
 from sweep.store.read import RENAMED, open_dataset
 
-#: The former private name of :func:`file_state`, kept for callers that use it.
-_file_state = file_state
-
 __all__ = [
     "ABSENT",
     "ARRAYS",

@@ -18,7 +18,7 @@ from __future__ import annotations
 import datetime
 import json
 import os
-from collections.abc import Iterator, Mapping
+from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
@@ -26,7 +26,7 @@ import numpy as np
 
 from kernels import STREAM_VERSION
 from sweep.errors import StoreError, StoreMismatchError, SweepError
-from sweep.growth import Growth, Refused, in_store_order, plan_growth
+from sweep.growth import Growth, Refused, differences, in_store_order, plan_growth
 from sweep.plan import BIT_GENERATOR, coordinate_columns
 from sweep.spec import Sweep, axis_names, parse_spec
 from sweep.store.files import (
@@ -318,15 +318,13 @@ def check_matches(path: Path, sweep: Sweep) -> Growth | None:
         if stored.canonical != attrs["spec"]:
             # Stored by a version that resolved the definition otherwise: only an
             # identical definition resumes it.
-            raise Refused(list(_differences(attrs["spec"], sweep.canonical)))
+            raise Refused(differences(attrs["spec"], sweep.canonical))
         return plan_growth(stored, attrs.get("point_order"), sweep)
     except Refused as refused:
-        differences = refused.differences
+        changed = refused.differences
     except SweepError:
-        differences = list(_differences(attrs["spec"], sweep.canonical))
-    lines = [
-        f"  {key}: stored {_short(a)}, now {_short(b)}" for key, a, b in differences
-    ]
+        changed = differences(attrs["spec"], sweep.canonical)
+    lines = [f"  {key}: stored {_short(a)}, now {_short(b)}" for key, a, b in changed]
     shown = "\n".join(lines[:MAX_DIFFERENCES]) + (
         f"\n  ... and {len(lines) - MAX_DIFFERENCES} more"
         if len(lines) > MAX_DIFFERENCES
@@ -339,16 +337,6 @@ def check_matches(path: Path, sweep: Sweep) -> Growth | None:
         f"chunk, more grid values or zip rows). Differences:\n{shown}\n"
         f"Use another store path for the new definition, or restore the old one."
     )
-
-
-def _differences(a: Any, b: Any, prefix: str = "") -> Iterator[tuple[str, Any, Any]]:
-    if isinstance(a, Mapping) and isinstance(b, Mapping):
-        for key in sorted(set(a) | set(b)):
-            yield from _differences(
-                a.get(key, "<absent>"), b.get(key, "<absent>"), f"{prefix}{key}."
-            )
-    elif a != b:
-        yield prefix.rstrip("."), a, b
 
 
 def _short(value: Any) -> str:

@@ -1,4 +1,5 @@
-"""`sweep bench` at the command line: a quick bench keeps no rates."""
+"""`sweep bench` at the command line: a quick bench keeps no rates; a bad option gets
+one clear message (the case machinery: :mod:`tests.cli_cases`)."""
 
 from __future__ import annotations
 
@@ -9,7 +10,34 @@ from sweep.bench import (
     REMEASURE,
 )
 from sweep.cli import build_parser
+from tests.cli_cases import (
+    Case,
+    case_test,
+)
 from tests.conftest import run_cli
+
+#: The message argparse prints for bad options of `sweep bench`, whose range checks
+#: are argparse types.
+ARGPARSE_BENCH_ERROR = "sweep bench: error:"
+
+CASES: list[Case] = [
+    Case(
+        id="bench-no-repeats",
+        argv=("bench", "--repeats", "0"),
+        expect=("--repeats", "at least 1", "got 0"),
+        prefix=ARGPARSE_BENCH_ERROR,
+    ),
+    Case(
+        id="bench-negative-remeasure",
+        argv=("bench", "--remeasure", "-1"),
+        expect=("--remeasure", "at least 0", "got -1"),
+        prefix=ARGPARSE_BENCH_ERROR,
+    ),
+]
+
+test_bad_bench_option_gets_one_clear_message = case_test(
+    CASES, "A bad option of `sweep bench` gets one clear message and exit code 2."
+)
 
 
 def test_quick_bench_keeps_no_rates(tmp_path: Path) -> None:

@@ -336,6 +336,33 @@ def _listening(pids: list[int]) -> list[tuple[str, int]]:
     return found
 
 
+@contextlib.contextmanager
+def _running_on_processes(
+    spec: Path, out: Path, env: dict[str, str]
+) -> Iterator[subprocess.Popen[str]]:
+    """``sweep run SPEC --store OUT --processes 2 --quiet`` in a subprocess, yielded
+    once the store holds its first finished task; killed on the way out if it still
+    runs."""
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "sweep.cli", "run", str(spec), "--store", str(out),
+         "--processes", "2", "--quiet"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env=env,
+    )  # fmt: skip
+    try:
+        deadline = time.monotonic() + PATIENCE
+        while not (out / "_tasks").is_dir() or not any((out / "_tasks").iterdir()):
+            assert proc.poll() is None and time.monotonic() < deadline
+            time.sleep(0.1)
+        yield proc
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+
+
 def test_local_cluster_admits_nobody_else_and_is_quiet(
     tmp_path: Path, cli_env: dict[str, str]
 ) -> None:
@@ -348,19 +375,7 @@ def test_local_cluster_admits_nobody_else_and_is_quiet(
 
     spec = _longer_spec(tmp_path)
     out = tmp_path / "private.zarr"
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "sweep.cli", "run", str(spec), "--store", str(out),
-         "--processes", "2", "--quiet"],
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-        env=cli_env,
-    )  # fmt: skip
-    try:
-        deadline = time.monotonic() + PATIENCE
-        while not (out / "_tasks").is_dir() or not any((out / "_tasks").iterdir()):
-            assert proc.poll() is None and time.monotonic() < deadline
-            time.sleep(0.1)
+    with _running_on_processes(spec, out, cli_env) as proc:
         family = _family(proc.pid)
         ports = _listening(family)
         # Scheduler, two nannies, two workers: TLS, on the loopback, no HTTP.
@@ -386,10 +401,6 @@ def test_local_cluster_admits_nobody_else_and_is_quiet(
         assert len(workers) == 2
         os.kill(workers[0], signal.SIGKILL)
         stdout, stderr = proc.communicate(timeout=PATIENCE)
-    finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
     assert proc.returncode == 0, stderr
     assert "16/16 tasks done" in stdout
     # Dask's warnings about the strangers' attempts and the restarted worker are all:
@@ -423,26 +434,10 @@ def test_sigterm_stops_a_process_cluster_cleanly(
     """SIGTERM (how batch systems end a job) stops `sweep run --processes` like Ctrl-C:
     exit 130, finished tasks kept, the lock released, no worker left, no tracebacks."""
     spec, out = _longer_spec(tmp_path), tmp_path / "terminated.zarr"
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "sweep.cli", "run", str(spec), "--store", str(out),
-         "--processes", "2", "--quiet"],
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-        env=cli_env,
-    )  # fmt: skip
-    try:
-        deadline = time.monotonic() + PATIENCE
-        while not (out / "_tasks").is_dir() or not any((out / "_tasks").iterdir()):
-            assert proc.poll() is None and time.monotonic() < deadline
-            time.sleep(0.1)
+    with _running_on_processes(spec, out, cli_env) as proc:
         family = _family(proc.pid)
         proc.send_signal(signal.SIGTERM)
         stdout, stderr = proc.communicate(timeout=PATIENCE)
-    finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
     assert proc.returncode == 130, stderr
     assert "Rerun to resume" in stdout
     assert [line for line in stderr.splitlines() if line.strip()] == [

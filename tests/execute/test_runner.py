@@ -22,6 +22,7 @@ from sweep.errors import StoreError, StoreLockedError, StoreMismatchError
 from sweep.execute import RunOptions, run, run_task
 from sweep.plan import make_plan
 from sweep.spec import load_spec
+from tests.cli_cases import reseal
 from tests.conftest import (
     PATIENCE,
     SMALL_SPEC,
@@ -87,17 +88,25 @@ def test_rerun_of_complete_store_does_nothing(small_spec: Path, tmp_path: Path) 
     assert before == after
 
 
+def assert_resume_redoes_forgotten_tasks(
+    definition: Path, out: Path, full: Path, every: int
+) -> None:
+    """Forget every ``every``-th task of the complete store ``out`` (remove its marker;
+    its chunks may stay: they are redone), resume: only those tasks run, and ``out``
+    equals ``full`` bit for bit."""
+    markers = sorted((out / "_tasks").iterdir())
+    for marker in markers[::every]:
+        marker.unlink()
+    summary = run(definition, out, RunOptions(threads=2, progress=False))
+    assert summary.completed == len(markers[::every])
+    assert_stores_identical(full, out)
+
+
 def test_resume_recomputes_only_missing_tasks(small_spec: Path, tmp_path: Path) -> None:
     build_store(small_spec, tmp_path / "full.zarr", threads=2)
     out = tmp_path / "partial.zarr"
     build_store(small_spec, out, threads=2)
-    # Forget three tasks: remove their markers (their chunks may stay: they are redone).
-    markers = sorted((out / "_tasks").iterdir())
-    for marker in markers[::4]:
-        marker.unlink()
-    summary = run(small_spec, out, RunOptions(threads=2, progress=False))
-    assert summary.completed == len(markers[::4])
-    assert_stores_identical(tmp_path / "full.zarr", out)
+    assert_resume_redoes_forgotten_tasks(small_spec, out, tmp_path / "full.zarr", 4)
 
 
 def test_resume_across_library_versions_of_one_stream(
@@ -115,17 +124,8 @@ def test_resume_across_library_versions_of_one_stream(
     assert attrs["stream_version"] == STREAM_VERSION
     attrs["provenance"].update(numpy="1.0.0", numba="0.1.0")
     meta.write_text(json.dumps(doc))
-    # As the tool that made it would have sealed it (not damage, another version).
-    seal_file = out / store.SEAL_FILE
-    seal = json.loads(seal_file.read_text())
-    seal["files"]["zarr.json"] = store._file_state(meta, digest=True)
-    seal_file.write_text(json.dumps(seal))
-    markers = sorted((out / "_tasks").iterdir())
-    for marker in markers[::3]:
-        marker.unlink()
-    summary = run(small_spec, out, RunOptions(threads=2, progress=False))
-    assert summary.completed == len(markers[::3])
-    assert_stores_identical(tmp_path / "full.zarr", out)
+    reseal(out)  # as the tool that made it would have (not damage, another version)
+    assert_resume_redoes_forgotten_tasks(small_spec, out, tmp_path / "full.zarr", 3)
 
 
 def test_store_of_another_definition_is_refused(

@@ -20,6 +20,22 @@ from tests.conftest import (
 )
 
 
+def start_run(
+    definition: Path,
+    out: Path,
+    env: dict[str, str],
+    threads: int,
+    *,
+    quiet: bool = True,
+    output: int = subprocess.PIPE,
+) -> subprocess.Popen[str]:
+    """Start ``sweep run DEFINITION --store OUT --threads THREADS [--quiet]`` in a
+    subprocess; ``output`` is where its stdout and stderr go (text)."""
+    argv = [*sweep_command(), "run", str(definition), "--store", str(out)]
+    argv += ["--threads", str(threads), *(["--quiet"] if quiet else [])]
+    return subprocess.Popen(argv, env=env, stdout=output, stderr=output, text=True)
+
+
 def test_sigkilled_run_resumes_bit_identical(
     small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
 ) -> None:
@@ -27,21 +43,7 @@ def test_sigkilled_run_resumes_bit_identical(
     build_store(small_spec, reference, threads=2)
     out = tmp_path / "killed.zarr"
     for attempt in range(3):
-        proc = subprocess.Popen(
-            [
-                *sweep_command(),
-                "run",
-                str(small_spec),
-                "--store",
-                str(out),
-                "--threads",
-                "2",
-                "--quiet",
-            ],
-            env=cli_env,
-            stdout=subprocess.DEVNULL,
-            stderr=subprocess.DEVNULL,
-        )
+        proc = start_run(small_spec, out, cli_env, 2, output=subprocess.DEVNULL)
         deadline = time.monotonic() + PATIENCE
         target = 2 + 3 * attempt
         while time.monotonic() < deadline and proc.poll() is None:
@@ -66,22 +68,7 @@ def test_ctrl_c_stops_cleanly_and_resumes(
     reference = tmp_path / "reference.zarr"
     build_store(small_spec, reference, threads=2)
     out = tmp_path / "interrupted.zarr"
-    proc = subprocess.Popen(
-        [
-            *sweep_command(),
-            "run",
-            str(small_spec),
-            "--store",
-            str(out),
-            "--threads",
-            "1",
-            "--quiet",
-        ],
-        env=cli_env,
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-    )
+    proc = start_run(small_spec, out, cli_env, 1)
     deadline = time.monotonic() + PATIENCE
     while (
         time.monotonic() < deadline
@@ -117,13 +104,7 @@ def test_second_ctrl_c_stops_at_once(tmp_path: Path, cli_env: dict[str, str]) ->
     # One task of some 1e9 walker-steps: seconds to minutes, far beyond the signals.
     spec = slow_spec(tmp_path, dt=1e-6, walkers=5000)
     out = tmp_path / "s.zarr"
-    proc = subprocess.Popen(
-        [*sweep_command(), "run", str(spec), "--store", str(out), "--threads", "1"],
-        env=cli_env,
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-    )
+    proc = start_run(spec, out, cli_env, 1, quiet=False)
     deadline = time.monotonic() + PATIENCE
     # The lock is taken just before the kernel's warm-up and the first task.
     while time.monotonic() < deadline and not (out / store.LOCK_FILE).exists():
@@ -146,21 +127,7 @@ def test_status_while_another_process_runs(
 ) -> None:
     slow = slow_spec(tmp_path, dt=2e-5, walkers=60000)
     out = tmp_path / "s.zarr"
-    proc = subprocess.Popen(
-        [
-            *sweep_command(),
-            "run",
-            str(slow),
-            "--store",
-            str(out),
-            "--threads",
-            "1",
-            "--quiet",
-        ],
-        env=cli_env,
-        stdout=subprocess.DEVNULL,
-        stderr=subprocess.DEVNULL,
-    )
+    proc = start_run(slow, out, cli_env, 1, output=subprocess.DEVNULL)
     try:
         deadline = time.monotonic() + PATIENCE
         while time.monotonic() < deadline and len(store.done_tasks(out)) < 1:

@@ -6,9 +6,10 @@ and returns every output."""
 from __future__ import annotations
 
 import math
+from collections import namedtuple
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, NamedTuple
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -132,18 +133,20 @@ class Domain:
         return geometry, motion, recording
 
 
-class Run(NamedTuple):
-    """Every output of one run (``steps`` is -1 for the numpy reference)."""
+#: Every output of one run: the fields of :class:`kernels.inputs.Outputs` (derived, so
+#: an output added there is one here), then ``steps`` (-1 for the numpy reference).
+Run = namedtuple("Run", (*inputs.Outputs._fields, "steps"))
 
-    time: NDArray[np.float64]
-    wall: NDArray[np.int16]
-    position: NDArray[np.float64]
-    survival: NDArray[np.int64]
-    occupancy: NDArray[np.int64]
-    final: NDArray[np.float64]
-    fpt_hist: NDArray[np.int64]
-    displacement: NDArray[np.float64]
-    steps: int
+
+def reference_run(**outputs: NDArray[Any]) -> Run:
+    """A :class:`Run` of a numpy reference: the ``outputs`` it computes, an empty array
+    for each it does not, and ``steps`` -1."""
+    unknown = set(outputs) - set(inputs.Outputs._fields)
+    assert not unknown, f"not kernel outputs: {sorted(unknown)}"
+    empty = np.zeros((0, 0))
+    return Run(
+        **{name: outputs.get(name, empty) for name in inputs.Outputs._fields}, steps=-1
+    )
 
 
 def stream(seed: int) -> NDArray[np.uint64]:

@@ -40,6 +40,7 @@ from tests.kernels.runner import (
     Domain,
     Run,
     assert_runs_identical,
+    reference_run,
     run,
     stream,
     uncompiled_loop,
@@ -76,8 +77,9 @@ def run_reference(box: Domain, n_walkers: int, rng: np.random.Generator) -> Run:
         box.bridge,
         box.survival_times,
     )
-    none = np.zeros((0, 0), np.int64)
-    return Run(time, wall, position, survival, none, final, none, np.zeros((0, 0)), -1)
+    return reference_run(
+        time=time, wall=wall, position=position, survival=survival, final=final
+    )
 
 
 def check_z(

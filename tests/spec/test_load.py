@@ -207,15 +207,22 @@ toml_values = st.recursive(
 )
 
 
-def _mutated(doc: dict[str, Any], path: tuple[Any, ...], value: Any) -> dict[str, Any]:
+def _mutated(
+    doc: dict[str, Any], path: tuple[Any, ...], value: Any
+) -> dict[str, Any] | None:
+    """A copy of ``doc`` with ``value`` at ``path`` (``DELETE``: removed); None when
+    the path's parent is not there to mutate."""
     doc = copy.deepcopy(doc)
     node: Any = doc
-    for part in path[:-1]:
-        node = node[part]
-    if value is DELETE:
-        del node[path[-1]]
-    else:
-        node[path[-1]] = value
+    try:
+        for part in path[:-1]:
+            node = node[part]
+        if value is DELETE:
+            del node[path[-1]]
+        else:
+            node[path[-1]] = value
+    except (KeyError, IndexError, TypeError):
+        return None
     return doc
 
 
@@ -280,11 +287,9 @@ def test_parse_spec_edited_quickstart_text_only_raises_spec_error(
 def test_parse_spec_mutated_quickstart_only_raises_spec_error(
     path: tuple[Any, ...], value: Any
 ) -> None:
-    try:
-        doc = _mutated(QUICKSTART_DOC, path, value)
-    except (KeyError, IndexError, TypeError):
-        return  # the path's parent was not there to mutate
-    _parse_or_spec_error(dumps(doc))
+    doc = _mutated(QUICKSTART_DOC, path, value)
+    if doc is not None:
+        _parse_or_spec_error(dumps(doc))
 
 
 #: A definition sweeping nested keys, so mutations reach swept paths through tables,
@@ -352,13 +357,9 @@ def _word_key_into_list(doc: dict[str, Any]) -> bool:
 def test_parse_spec_mutated_swept_definition_only_raises_spec_error(
     path: tuple[Any, ...], value: Any
 ) -> None:
-    try:
-        doc = _mutated(SWEPT_DOC, path, value)
-    except (KeyError, IndexError, TypeError):
-        return  # the path's parent was not there to mutate
-    if _word_key_into_list(doc):
-        return
-    _parse_or_spec_error(dumps(doc))
+    doc = _mutated(SWEPT_DOC, path, value)
+    if doc is not None and not _word_key_into_list(doc):
+        _parse_or_spec_error(dumps(doc))
 
 
 def test_repeated_grid_points_warn() -> None:

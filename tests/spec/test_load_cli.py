@@ -1,39 +1,42 @@
 """Bad definition files at the command line: one clear message, exit code 2, no store.
 
-The definition-file cases of the command-line battery (the rest, about stores and
-options, are in ``tests/test_bad_input.py``): each case writes a definition (or leaves
-it missing, or puts a directory there), runs ``sweep plan`` (which validates exactly as
+The definition-file cases of the command-line battery (the rest are beside the stage
+they check: stores in ``tests/store/``, executor options in
+``tests/execute/test_options.py``, ...): each case writes a definition (or leaves it
+missing, or puts a directory there), runs ``sweep plan`` (which validates exactly as
 ``run`` does, both through ``load_spec``, at a tenth of the start-up cost) or, for a
 sample, ``sweep run``, and checks for ONE ``sweep: error:`` line naming the file, the
 key and the value, exit code 2, no traceback and no store created. The cases are
-independent, so they run together on a small thread pool.
+independent, so they run together on a small thread pool (:mod:`tests.cli_cases`).
 """
 
 from __future__ import annotations
 
-import concurrent.futures
-import os
-import tempfile
-from collections.abc import Iterator
-from pathlib import Path
-
-import pytest
-
-from tests.spec.bases import CUBE
-from tests.spec.cli_cases import (
-    ERROR,
-    OCCUPANCY,
+from tests.cli_cases import (
     PLAN_LIMIT,
     RUN_LIMIT,
-    WALLS,
     Case,
-    Outcome,
-    base,
-    base_with,
-    execute,
+    case_test,
     spec_case,
 )
-from tests.spec.edit import dumps
+from tests.conftest import SMALL_SPEC
+from tests.spec.bases import CUBE
+from tests.spec.edit import dumps, edit_text
+
+#: SMALL_SPEC without its grid, so [motion] values are not overridden by [grid].
+BASE = edit_text(SMALL_SPEC, ('[grid]\n"motion.diffusivity" = [0.5, 1.0]\n', ""))
+WALLS = 'walls = { x_lower = "absorbing", x_upper = "absorbing" }'
+OCCUPANCY = "occupancy = { times = [0.2, 0.05], bins = 8 }"
+
+
+def base(*edits: tuple[str, str]) -> str:
+    return edit_text(BASE, *edits)
+
+
+def base_with(grid: str) -> str:
+    """The base definition plus a [grid] or [[zip]] table."""
+    return base() + f"\n{grid}\n"
+
 
 CASES: list[Case] = [
     # ----- syntax
@@ -528,51 +531,11 @@ CASES: list[Case] = [
 ]
 
 
-@pytest.fixture(scope="module")
-def outcomes(
-    request: pytest.FixtureRequest,
-) -> Iterator[dict[str, concurrent.futures.Future[Outcome]]]:
-    """Start every selected case at once on a small pool; each test waits for its own.
-
-    A private folder, not pytest's tmp_path: pytest deletes all but its three newest
-    base folders when a session starts, so another session would delete a case's files
-    while it runs.
-    """
-    params = [getattr(item, "callspec", None) for item in request.session.items]
-    selected = [
-        p.params["case"]
-        for p in params
-        if p is not None and isinstance(p.params.get("case"), Case)
-    ]
-    with tempfile.TemporaryDirectory(prefix="sweep-bad-definition-") as folder:
-        workers = (os.cpu_count() or 1) + 1
-        with concurrent.futures.ThreadPoolExecutor(max_workers=workers) as pool:
-            futures = {}
-            for case in selected:
-                ws = Path(folder) / case.id
-                ws.mkdir()
-                futures[case.id] = pool.submit(execute, case, ws)
-            yield futures
-
-
 def test_case_ids_are_unique() -> None:
     ids = [c.id for c in CASES]
     assert len(ids) == len(set(ids))
 
 
-@pytest.mark.parametrize("case", [pytest.param(c, id=c.id) for c in CASES])
-def test_bad_definition_gets_one_clear_message(
-    case: Case, outcomes: dict[str, concurrent.futures.Future[Outcome]]
-) -> None:
-    ws, result = outcomes[case.id].result()
-    stderr = result.stderr
-    assert result.returncode == 2, f"exit code {result.returncode}; stderr:\n{stderr}"
-    assert "Traceback" not in stderr, stderr
-    heads = [line for line in stderr.splitlines() if line.startswith(ERROR)]
-    assert len(heads) == 1, f"expected one {ERROR!r} line; stderr:\n{stderr}"
-    for fragment in (str(ws / case.path), *case.expect):
-        assert fragment in stderr, f"{fragment!r} not in stderr:\n{stderr}"
-    assert not (ws / "out.zarr").exists(), "out.zarr was created"
-    if isinstance(case.text, dict):  # the directory in the definition's place
-        kept = {f.name: f.read_text() for f in (ws / case.path).iterdir()}
-        assert kept == case.text
+test_bad_definition_gets_one_clear_message = case_test(
+    CASES, "A bad definition gets one clear message naming its file; no store made."
+)

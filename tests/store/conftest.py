@@ -1,5 +1,5 @@
-"""Fixtures of the store tests: the command-line case machinery's
-(:mod:`tests.cli_cases`) and a small disk to fill up."""
+"""Fixtures of the store tests: a small disk to fill up (the command-line case
+machinery's fixtures come from :mod:`tests.cli_cases`, a plugin of the tests)."""
 
 from __future__ import annotations
 
@@ -9,18 +9,12 @@ from pathlib import Path
 
 import pytest
 
-from tests.cli_cases import (  # noqa: F401  (fixtures, found here by every store test)
-    Unavailable,
-    mount_tmpfs,
-    outcomes,
-    reference_store,
-    workspace,
-)
+from tests.cli_cases import Unavailable, mount_tmpfs
 from tests.conftest import SMALL_SPEC
 
 
 @pytest.fixture
-def small_disk(workspace: Path) -> Iterator[Callable[[str, str], tuple[Path, Path]]]:  # noqa: F811
+def small_disk(workspace: Path) -> Iterator[Callable[[str, str], tuple[Path, Path]]]:
     """``small_disk(name, size)``: (the SMALL_SPEC definition, a tmpfs folder of
     ``size``) in folder ``name`` of the workspace, unmounted after the test; the test
     skips, with the reason, where a tmpfs cannot be mounted."""

@@ -4,14 +4,12 @@ made get one clear message and are left as they were."""
 from __future__ import annotations
 
 from tests.cli_cases import (
+    SMALL,
     Case,
     case_test,
     read_only_dir,
     write,
 )
-from tests.conftest import SMALL_SPEC
-
-SMALL = write("small.toml", SMALL_SPEC)
 
 CASES: list[Case] = [
     Case(

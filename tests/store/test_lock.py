@@ -12,6 +12,8 @@ from pathlib import Path
 
 from sweep import store
 from tests.cli_cases import (
+    RUN_SMALL,
+    SMALL,
     Case,
     assert_one_error,
     case_test,
@@ -20,10 +22,7 @@ from tests.cli_cases import (
     read_only_dir,
     write,
 )
-from tests.conftest import SMALL_SPEC, assert_stores_identical, run_cli
-
-SMALL = write("small.toml", SMALL_SPEC)
-RUN_SMALL = ("run", "{ws}/small.toml", "--store", "{ws}/s.zarr", "--quiet")
+from tests.conftest import assert_stores_identical, run_cli
 
 CASES: list[Case] = [
     Case(

@@ -10,6 +10,8 @@ from pathlib import Path
 from kernels import STREAM_VERSION
 from sweep import store
 from tests.cli_cases import (
+    RUN_SMALL,
+    SMALL,
     Case,
     case_test,
     copy_store,
@@ -18,9 +20,6 @@ from tests.cli_cases import (
 )
 from tests.conftest import SMALL_SPEC
 from tests.spec.edit import edit_text
-
-SMALL = write("small.toml", SMALL_SPEC)
-RUN_SMALL = ("run", "{ws}/small.toml", "--store", "{ws}/s.zarr", "--quiet")
 
 
 def other_definition(id: str, text: str, *expect: str) -> Case:
