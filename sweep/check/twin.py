@@ -39,9 +39,15 @@ from sweep.spec.sections.surfaces import PERIODIC_CLEARANCE
 
 #: At most this many walkers in a companion run (fewer when the store holds fewer for
 #: the point): enough for a standard error of about 1 % of the mean (first-passage
-#: times of a small target are nearly exponential, so sd ≈ mean), and it bounds the
-#: check's cost by that of 10 000 walkers of the point.
+#: times of a small target are nearly exponential, so sd ≈ mean).
 COMPANION_WALKERS = 10_000
+#: ... and at most about this many walker-steps (a few seconds of one core), judged by
+#: the stored point's mean time to absorption or the horizon, whichever comes first:
+#: an overnight point's walkers may each need 10^5-10^6 steps.
+COMPANION_STEPS = 2e8
+#: ... but never fewer walkers than this (or than the store holds for the point): below
+#: it the comparison says little.
+MIN_COMPANION_WALKERS = 100
 
 #: A target is "at the centre" when every coordinate is within this fraction of the
 #: box's side of the side's midpoint (floating-point slack for values like 0.1 + 0.2).
@@ -173,10 +179,10 @@ def consistency_rows(
     twin = mirror_twin(point)
     assert twin is not None
     stored = ds.isel(point=[p])
-    n_stored = int(stored["walkers_done"][0])
-    walkers = min(n_stored, COMPANION_WALKERS)
     per_walker = "first_passage_time" in ds
     has_times = per_walker or "fpt_histogram" in ds
+    m1 = stats.mean_first_passage_time(stored).isel(point=0) if has_times else None
+    walkers = companion_walkers(point, int(stored["walkers_done"][0]), m1)
     other = companion_dataset(twin, sweep, walkers, per_walker)
     kind = twin_kind(twin)
     companion = (
@@ -215,8 +221,7 @@ def consistency_rows(
                 )
             )
     why = ""
-    if has_times:
-        m1 = stats.mean_first_passage_time(stored).isel(point=0)
+    if m1 is not None:
         m2 = stats.mean_first_passage_time(other).isel(point=0)
         c1, c2 = float(m1["censored"]), float(m2["censored"])
         se1, se2 = float(m1["stderr"]), float(m2["stderr"])
@@ -245,6 +250,28 @@ def consistency_rows(
     reasons = [f"the pooled survival is outside {low:g}-{high:g} at every stored time"]
     reasons += [why] if why else []
     return [], f"J7 {companion}: " + "; ".join(reasons)
+
+
+def companion_walkers(point: PointSpec, stored: int, mean: xr.Dataset | None) -> int:
+    """Walkers of a companion run: ``COMPANION_WALKERS``, fewer when that would take
+    more than ``COMPANION_STEPS`` walker-steps, at least ``MIN_COMPANION_WALKERS``, and
+    never more than the ``stored`` walkers of the point.
+
+    A walker's steps are judged by the stored point: its mean first-passage time over
+    absorbed walkers and the horizon for censored ones (``mean``: the point's row of
+    :func:`sweep.stats.mean_first_passage_time`), or the horizon when no times are
+    stored. Read from stored data only, so the count (and the check) is reproducible.
+    """
+    tm = point.timing
+    horizon = tm.n_steps * tm.dt
+    expected = horizon
+    if mean is not None:
+        censored, estimate = float(mean["censored"]), float(mean["estimate"])
+        if math.isfinite(estimate) and math.isfinite(censored):
+            expected = (1.0 - censored) * estimate + censored * horizon
+    steps = max(expected / tm.dt, 1.0)
+    affordable = max(int(COMPANION_STEPS / steps), MIN_COMPANION_WALKERS)
+    return min(stored, COMPANION_WALKERS, affordable)
 
 
 def twin_row(

@@ -14,6 +14,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import xarray as xr
 
 import sweep
 from sweep.check import check_store, twin
@@ -145,6 +146,34 @@ def test_twin_row_verdict_on_synthetic_numbers() -> None:
     assert report.passed is False
     row = json.loads(report.to_json())["rows"][0]
     assert row["companion"] == "reflecting twin" and row["reference_stderr"] == 0.04
+
+
+def test_companion_walkers_are_capped_by_steps() -> None:
+    """10 000 walkers at most, fewer where they would take over 2e8 walker-steps
+    (judged by the stored mean and censored fraction), at least 100, never more than
+    the store holds."""
+    point = point_of(cell())  # dt = 1e-3, horizon 6
+
+    def mean(estimate: float, censored: float = 0.0) -> xr.Dataset:
+        return xr.Dataset({"estimate": estimate, "censored": censored})
+
+    assert twin.companion_walkers(point, 2000, mean(0.17)) == 2000
+    assert twin.companion_walkers(point, 10**6, mean(0.17)) == twin.COMPANION_WALKERS
+    # 20 s per walker = 2e4 steps: 2e8 / 2e4 = 1e4; 200 s: 1e3.
+    slow = dataclasses.replace(
+        point, timing=dataclasses.replace(point.timing, horizon=1000.0)
+    )
+    assert twin.companion_walkers(slow, 10**6, mean(200.0)) == 1000
+    # Half censored at the horizon of 1000: (100 + 500) s = 6e5 steps -> 333.
+    assert twin.companion_walkers(slow, 10**6, mean(200.0, 0.5)) == 333
+    # No stored times: the horizon (1e6 steps) -> 200; everything slower: the floor.
+    assert twin.companion_walkers(slow, 10**6, None) == 200
+    assert twin.companion_walkers(slow, 10**6, mean(math.nan, 1.0)) == 200
+    glacial = dataclasses.replace(
+        slow, timing=dataclasses.replace(point.timing, horizon=1e5)
+    )
+    assert twin.companion_walkers(glacial, 10**6, None) == twin.MIN_COMPANION_WALKERS
+    assert twin.companion_walkers(glacial, 50, None) == 50
 
 
 def test_periodic_store_passes_against_its_reflecting_twin(tmp_path: Path) -> None:
