@@ -11,7 +11,7 @@ reflecting axes). There is no closed form: the stored point is compared with a
 *companion run* of its twin (every periodic axis made reflecting and every reflecting
 one periodic), simulated here through :func:`sweep.simulate.simulate_task` with the
 store's own seed and chunk size, so the companion is exactly what ``sweep run`` would
-store for the twin point's first walkers. Its random streams differ from the store's
+store for the twin point with that many walkers (:func:`companion_walkers`). Its random streams differ from the store's
 (the twin point's digest differs), so the two estimates are independent and
 ``z = (stored - twin) / sqrt(se_stored² + se_twin²)``.
 
