@@ -515,7 +515,7 @@ def _html(
         "<tr>"
         f"<td>{r.point}</td><td>{e(r.statistic)}</td>"
         f"<td>{r.simulated:.5g} ± {stats.z_value() * r.stderr:.2g}</td>"
-        f"<td>{r.exact:.5g}</td><td>{r.z:+.2f}</td>"
+        f"<td>{_reference_cell(r)}</td><td>{r.z:+.2f}</td>"
         f"<td class={'ok' if r.passed else 'fail'}>{'ok' if r.passed else 'FAIL'}</td>"
         "</tr>"
         for r in report.rows
@@ -567,3 +567,12 @@ they are relied on.</strong></p>
 <h2>Figures</h2>{images}
 </body></html>
 """
+
+
+def _reference_cell(row: check.CheckRow) -> str:
+    """The report's "exact" cell: the closed form's value, or a companion run's value
+    with its 95 % interval (a consistency row, ``sweep.check.twin``)."""
+    if not row.companion:
+        return f"{row.exact:.5g}"
+    half = stats.z_value() * row.reference_stderr
+    return html.escape(f"{row.exact:.5g} ± {half:.2g} (twin: {row.companion})")

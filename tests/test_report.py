@@ -209,3 +209,16 @@ def test_report_leaves_the_plotting_backend_alone(
     before, after = json.loads(done.stdout)
     assert after == before and before[0] == "svg", (before, after)
     assert (tmp_path / "r" / "survival.png").read_bytes()[:4] == b"\x89PNG"
+
+
+def test_report_cell_of_a_twin_row_names_the_companion() -> None:
+    """The HTML check table shows a consistency row's reference as the companion's
+    value with its interval and description (closed forms: the value alone)."""
+    from sweep.check import CheckRow
+    from sweep.check.twin import twin_row
+    from sweep.report import _reference_cell
+
+    row = twin_row(0, "mean", 1.0, 0.03, 1.1, 0.04, "J7", "periodic twin: 400 walkers")
+    assert _reference_cell(row) == "1.1 ± 0.078 (twin: periodic twin: 400 walkers)"
+    closed = CheckRow(0, "mean", 1.0, 0.03, 1.1, -3.3, True, "C1")
+    assert _reference_cell(closed) == "1.1"

@@ -13,6 +13,9 @@ One module per job; every public name is re-exported here (``from sweep.check im
   the endpoint-monitoring shift;
 * :mod:`~sweep.check.comparisons`: the comparisons of a store (:func:`check_store`,
   :func:`check_dataset`), one row per statistic;
+* :mod:`~sweep.check.twin`: consistency rows without a closed form: a centred target
+  in a periodic or reflecting box against a companion run of its mirror twin
+  (identity J7; the one place the check simulates, through ``sweep.simulate``);
 * :mod:`~sweep.check.verdict`: rows, the report, its verdict and JSON;
 * :mod:`~sweep.check.table`: the text table and verdict line;
 * :mod:`~sweep.check.labels`: parameter names, headers, cells and point labels that
@@ -47,9 +50,11 @@ from sweep.check.labels import (
     show_value,
 )
 from sweep.check.table import format_table, text_table
+from sweep.check.twin import COMPANION_WALKERS, mirror_twin
 from sweep.check.verdict import Z_PASS, CheckReport, CheckRow
 
 __all__ = [
+    "COMPANION_WALKERS",
     "SURVIVAL_RANGE",
     "SURVIVAL_TIMES",
     "Z_PASS",
@@ -63,6 +68,7 @@ __all__ = [
     "exact_survival",
     "exit_cosines",
     "format_table",
+    "mirror_twin",
     "parameter_header",
     "parameters",
     "point_labels",

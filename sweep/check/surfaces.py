@@ -22,6 +22,7 @@ name, so splitting, survival and first-passage statistics need nothing new.
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -282,4 +283,11 @@ def mean_square_displacement(ds) -> tuple[np.ndarray, np.ndarray] | None:  # typ
     count = sq.count("walker")
     mean = sq.mean("walker")
     se = sq.std("walker", ddof=1) / np.sqrt(count)
-    return np.asarray(mean.values, float), np.asarray(se.values, float)
+    # A point with no walker free at the horizon (a target absorbed them all) has no
+    # mean-square displacement: NaN, without dask's 0/0 warning (the threads of a lazy
+    # reduction ignore np.errstate, so the warning is filtered here).
+    with warnings.catch_warnings():
+        warnings.filterwarnings(
+            "ignore", "invalid value encountered in divide", RuntimeWarning
+        )
+        return np.asarray(mean.values, float), np.asarray(se.values, float)

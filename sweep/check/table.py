@@ -15,7 +15,16 @@ def format_table(report: CheckReport, sweep: Sweep | None = None) -> str:
     """The report as an aligned text table, one row per comparison; with ``sweep``,
     preceded by each point's parameter values."""
     biased = any(r.allowance for r in report.rows)
-    header: tuple[str, ...] = ("point", "statistic", "simulated ± 95% CI", "exact", "z")
+    twins = [r for r in report.rows if r.companion]
+    # The reference column is headed "exact" unless consistency rows share it.
+    reference = "exact or twin ± 95% CI" if twins else "exact"
+    header: tuple[str, ...] = (
+        "point",
+        "statistic",
+        "simulated ± 95% CI",
+        reference,
+        "z",
+    )
     header += ("expected dt bias", "verdict") if biased else ("verdict",)
     lines = [header]
     z95 = stats.z_value()
@@ -24,7 +33,9 @@ def format_table(report: CheckReport, sweep: Sweep | None = None) -> str:
             str(r.point),
             r.statistic,
             f"{r.simulated:.5g} ± {z95 * r.stderr:.2g}",
-            f"{r.exact:.5g}",
+            f"{r.exact:.5g} ± {z95 * r.reference_stderr:.2g} (twin)"
+            if r.companion
+            else f"{r.exact:.5g}",
             f"{r.z:+.2f}",
         )
         if biased:
@@ -53,6 +64,14 @@ def format_table(report: CheckReport, sweep: Sweep | None = None) -> str:
         if biased
         else ""
     )
+    if twins:
+        note += (
+            "\ntwin rows (J7, mirror symmetry) compare with a companion run of the "
+            "point's twin (periodic and reflecting faces swapped: the same law), not "
+            "with a closed form; there z = (simulated - twin) / sqrt(se^2 + se_twin^2)."
+        )
+        companions = dict.fromkeys((r.point, r.companion) for r in twins)
+        note += "".join(f"\n  point {p}: {c}" for p, c in companions)
     return (
         f"{text}\n\n{report.outcome()} (|z| <= {Z_PASS:g}; z = (simulated - exact) / "
         f"standard error){note}{unfinished}"

@@ -1,7 +1,9 @@
 """The outcome of ``sweep check``: one row per comparison, the report of a store, its
 verdict (passed, failed, or nothing compared; complete or not) and its JSON form.
 
-A comparison passes when ``|z| <= Z_PASS``, ``z = (simulated - exact) / stderr``.
+A comparison passes when ``|z| <= Z_PASS``, ``z = (simulated - exact) / stderr``; a
+consistency row (``sweep.check.twin``), whose reference is a companion run with its own
+standard error, divides by ``sqrt(stderr² + reference_stderr²)``.
 """
 
 from __future__ import annotations
@@ -31,6 +33,13 @@ class CheckRow:
     #: endpoint monitoring; 0 where the scheme is exact). Reported beside the verdict,
     #: never folded into the tolerance.
     allowance: float = 0.0
+    #: Standard error of ``exact`` when it is itself an estimate: the companion run of
+    #: a consistency row (``sweep.check.twin``); 0 for a closed form. ``z`` divides by
+    #: sqrt(stderr² + reference_stderr²).
+    reference_stderr: float = 0.0
+    #: For a consistency row, the companion run ``exact`` comes from ("reflecting
+    #: twin: 4000 walkers, seed 7, chunks of 1000"); "" for a closed form.
+    companion: str = ""
 
 
 @dataclass(frozen=True)
@@ -108,11 +117,20 @@ class CheckReport:
                 "tasks_done": self.tasks_done,
                 "tasks_total": self.tasks_total,
                 "z_pass": Z_PASS,
-                "rows": [_finite(asdict(r)) for r in self.rows],
+                "rows": [_finite(_json_row(r)) for r in self.rows],
                 "unchecked": [{"point": p, "reason": why} for p, why in self.unchecked],
             },
             indent=2,
         )
+
+
+def _json_row(row: CheckRow) -> dict[str, object]:
+    """The row's fields; a closed form's row leaves out the consistency fields, so
+    its JSON is what it was before consistency rows existed."""
+    fields = asdict(row)
+    if not row.companion:
+        del fields["reference_stderr"], fields["companion"]
+    return fields
 
 
 def _finite(row: dict[str, object]) -> dict[str, object]:
