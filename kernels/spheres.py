@@ -47,7 +47,7 @@ from kernels.rng import normal, uniform, wald
 # The step kernel's helpers, one definition each: the fold at reflecting faces, and the
 # reactive surfaces' Skorokhod push and reaction (with the step kernel's threaded
 # random state, converted from and to this kernel's four words around the call).
-from kernels.walkers import _fold, _react, _stream, _words
+from kernels.walkers import REACH, _fold, _react, _stream, _words
 
 #: The bridge probability is only evaluated when d1 d2 < BRIDGE_CUTOFF * D h (below
 #: exp(-20) beyond), as in kernels.walkers.
@@ -297,6 +297,46 @@ def _radial(y, xo, center, radius):  # type: ignore[no-untyped-def]
         y[i] = center[i] + (y[i] - center[i]) * scale
 
 
+@njit(nogil=True, cache=True, inline="always")
+def _near_reactive(  # type: ignore[no-untyped-def]
+    xo, x, is_ball, react_lo, react_hi, target_center, target_radius,
+    target_reactivity, ball_center, ball_radius, ball_reactive, reach, cut,
+):  # fmt: skip
+    """Whether the step ``xo`` -> ``x`` comes near a reactive surface, so that
+    :func:`_react_step` may do anything: a face product within ``cut``, or an end
+    within ``reach`` of a reactive target or the reactive ball wall (``reach`` =
+    REACH sqrt(2 D h): farther, d1 d2 exceeds the cut). Inlined: most layer steps of
+    a domain with a reactive surface are near another surface, and skip the call."""
+    d = x.shape[0]
+    if not is_ball:
+        for i in range(d):
+            lo = react_lo[i]
+            hi = react_hi[i]
+            if (xo[i] - lo) * (x[i] - lo) <= cut or (xo[i] - hi) * (x[i] - hi) <= cut:
+                return True
+    for k in range(target_radius.shape[0]):
+        if math.isnan(target_reactivity[k]):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = 0.0
+        r2 = 0.0
+        for i in range(d):
+            r1 += (xo[i] - target_center[k, i]) ** 2
+            r2 += (x[i] - target_center[k, i]) ** 2
+        if r1 <= far2 or r2 <= far2:
+            return True
+    if ball_reactive:
+        near2 = max(ball_radius - reach, 0.0) ** 2
+        r1 = 0.0
+        r2 = 0.0
+        for i in range(d):
+            r1 += (xo[i] - ball_center[i]) ** 2
+            r2 += (x[i] - ball_center[i]) ** 2
+        if r1 >= near2 or r2 >= near2:
+            return True
+    return False
+
+
 @njit(nogil=True, cache=True)
 def _react_step(  # type: ignore[no-untyped-def]
     xo, x, is_ball, react_lo, react_hi, q_lo, q_hi, target_center, target_radius,
@@ -316,6 +356,9 @@ def _react_step(  # type: ignore[no-untyped-def]
     d = x.shape[0]
     cut = BRIDGE_CUTOFF * diffusivity * h
     kill_scale = 1.0 / (diffusivity * h)
+    # Targets farther than REACH sqrt(2 D h) from both ends are skipped before any
+    # square root: there d1 d2 > REACH^2 2 D h > cut (as in the step template).
+    reach = REACH * math.sqrt(2.0 * diffusivity * h)
     rs = _stream(a, b, c, w)
     if not is_ball:
         for i in range(d):
@@ -347,6 +390,9 @@ def _react_step(  # type: ignore[no-untyped-def]
         for i in range(d):
             r1 += (xo[i] - target_center[k, i]) ** 2
             r2 += (x[i] - target_center[k, i]) ** 2
+        far2 = (target_radius[k] + reach) ** 2
+        if r1 > far2 and r2 > far2:
+            continue
         d1 = math.sqrt(r1) - target_radius[k]
         d2 = math.sqrt(r2) - target_radius[k]
         if d1 * d2 <= cut:
@@ -626,7 +672,11 @@ def simulate(  # type: ignore[no-untyped-def]
                     yi = _fold(yi, refl_lo[i], refl_hi[i])
                 x[i] = yi
             frac = 2.0
-            if reactive:
+            if reactive and _near_reactive(
+                xo, x, is_ball, react_lo, react_hi, target_center, target_radius,
+                target_reactivity, ball_center, ball_radius, ball_reactive,
+                REACH * sigma, BRIDGE_CUTOFF * diffusivity * h,
+            ):  # fmt: skip
                 # Reactive surfaces, then obstacles: the step kernel's blocks 2b and
                 # 2c (kernels/step.py), in its order and with its helper _react.
                 frac, hit_wall, a, b, c, w = _react_step(
