@@ -4,12 +4,14 @@ Pure computation: numba ``njit(nogil=True)``, the task's SFC64 state passed in (
 uint64 words, :mod:`kernels.rng`), preallocated outputs, no I/O, no validation.
 
 A walker at ``x`` looks for its *protective radius* ``r``: the distance to the nearest
-surface its free path may not cross. Absorbing box faces, targets and the ball wall
-(absorbing or reflecting) count. Reflecting flat box faces do not: reflected Brownian
-motion in a box is the fold of free motion (exact without drift), so the walker moves
-freely in the unfolded space and its position is folded back into the box; the targets'
-mirror images in the reflecting faces then count as targets (per axis the nearest image
-of a target centre is the centre itself or its mirror in the lower or upper face).
+surface its free path may not cross. Absorbing and reactive box faces, targets
+(absorbing or reactive), obstacles and the ball wall (of any kind) count. Reflecting
+flat box faces do not: reflected Brownian motion in a box is the fold of free motion
+(exact without drift), so the walker moves freely in the unfolded space and its
+position is folded back into the box; the mirror images of targets and obstacles in
+the reflecting faces then count too (per axis the nearest image of a centre is the
+centre itself or its mirror in the lower or upper face). Periodic faces are not
+supported (refused by the definition).
 
 * ``r > handover``: **jump**. Free motion started at ``x`` leaves the ball of radius
   ``r`` at a uniformly distributed point of its sphere, at a time ``r**2 / D * tau``
@@ -20,10 +22,14 @@ of a target centre is the centre itself or its mirror in the lower or upper face
   (rotational symmetry), so both are drawn separately. A jump whose exit time passes the
   horizon censors the walker (nothing can absorb it inside the sphere: exact).
 * ``r <= handover``: one **step** of ``dt`` (shorter when the horizon comes first), as
-  in :mod:`kernels.walkers`: a normal increment, folded at reflecting faces, mirrored
-  radially at a reflecting ball wall; absorbing faces, targets and an absorbing ball
-  wall are checked at the step end and (``bridge``) between steps with the
-  Brownian-bridge crossing probability, the hitting time drawn from the bridge's law.
+  in :mod:`kernels.walkers` and in its order: a normal increment, folded at reflecting
+  faces; reactive faces, targets and ball wall pushed back and reacting by the step
+  kernel's ``_react`` (boundary local time against an exponential threshold of rate
+  kappa / D, drawn afresh each step: memoryless, so nothing carries across jumps,
+  which add no local time); mirrored radially out of obstacles and into a reflecting
+  ball wall; absorbing faces, targets and an absorbing ball wall are checked at the
+  step end and (``bridge``) between steps with the Brownian-bridge crossing
+  probability, the hitting time drawn from the bridge's law.
 
 The Markov property makes the switch between jumps and steps exact; the only
 approximation is that of the steps in the layer next to surfaces (O(dt) with bridge
