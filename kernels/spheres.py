@@ -4,12 +4,14 @@ Pure computation: numba ``njit(nogil=True)``, the task's SFC64 state passed in (
 uint64 words, :mod:`kernels.rng`), preallocated outputs, no I/O, no validation.
 
 A walker at ``x`` looks for its *protective radius* ``r``: the distance to the nearest
-surface its free path may not cross. Absorbing box faces, targets and the ball wall
-(absorbing or reflecting) count. Reflecting flat box faces do not: reflected Brownian
-motion in a box is the fold of free motion (exact without drift), so the walker moves
-freely in the unfolded space and its position is folded back into the box; the targets'
-mirror images in the reflecting faces then count as targets (per axis the nearest image
-of a target centre is the centre itself or its mirror in the lower or upper face).
+surface its free path may not cross. Absorbing and reactive box faces, targets
+(absorbing or reactive), obstacles and the ball wall (of any kind) count. Reflecting
+flat box faces do not: reflected Brownian motion in a box is the fold of free motion
+(exact without drift), so the walker moves freely in the unfolded space and its
+position is folded back into the box; the mirror images of targets and obstacles in
+the reflecting faces then count too (per axis the nearest image of a centre is the
+centre itself or its mirror in the lower or upper face). Periodic faces are not
+supported (refused by the definition).
 
 * ``r > handover``: **jump**. Free motion started at ``x`` leaves the ball of radius
   ``r`` at a uniformly distributed point of its sphere, at a time ``r**2 / D * tau``
@@ -20,10 +22,14 @@ of a target centre is the centre itself or its mirror in the lower or upper face
   (rotational symmetry), so both are drawn separately. A jump whose exit time passes the
   horizon censors the walker (nothing can absorb it inside the sphere: exact).
 * ``r <= handover``: one **step** of ``dt`` (shorter when the horizon comes first), as
-  in :mod:`kernels.walkers`: a normal increment, folded at reflecting faces, mirrored
-  radially at a reflecting ball wall; absorbing faces, targets and an absorbing ball
-  wall are checked at the step end and (``bridge``) between steps with the
-  Brownian-bridge crossing probability, the hitting time drawn from the bridge's law.
+  in :mod:`kernels.walkers` and in its order: a normal increment, folded at reflecting
+  faces; reactive faces, targets and ball wall pushed back and reacting by the step
+  kernel's ``_react`` (boundary local time against an exponential threshold of rate
+  kappa / D, drawn afresh each step: memoryless, so nothing carries across jumps,
+  which add no local time); mirrored radially out of obstacles and into a reflecting
+  ball wall; absorbing faces, targets and an absorbing ball wall are checked at the
+  step end and (``bridge``) between steps with the Brownian-bridge crossing
+  probability, the hitting time drawn from the bridge's law.
 
 The Markov property makes the switch between jumps and steps exact; the only
 approximation is that of the steps in the layer next to surfaces (O(dt) with bridge
@@ -43,7 +49,11 @@ import numpy as np
 from numba import njit
 
 from kernels.rng import normal, uniform, wald
-from kernels.walkers import _fold  # the step kernel's mirror, one definition
+
+# The step kernel's helpers, one definition each: the fold at reflecting faces, and the
+# reactive surfaces' Skorokhod push and reaction (with the step kernel's threaded
+# random state, converted from and to this kernel's four words around the call).
+from kernels.walkers import REACH, _fold, _react, _stream, _words
 
 #: The bridge probability is only evaluated when d1 d2 < BRIDGE_CUTOFF * D h (below
 #: exp(-20) beyond), as in kernels.walkers.
@@ -272,11 +282,186 @@ def _reflect_ball(y, center, radius):  # type: ignore[no-untyped-def]
 
 
 @njit(nogil=True, cache=True)
+def _radial(y, xo, center, radius):  # type: ignore[no-untyped-def]
+    """Move ``y`` along its radius from ``center`` to distance ``radius`` (the step's
+    start ``xo`` gives the direction if ``y`` is the center itself), as the step
+    template's ``radial`` (kernels/step_surfaces.py)."""
+    d = y.shape[0]
+    r2 = 0.0
+    for i in range(d):
+        r2 += (y[i] - center[i]) ** 2
+    if r2 == 0.0:
+        for i in range(d):
+            y[i] = xo[i]
+            r2 += (y[i] - center[i]) ** 2
+        if r2 == 0.0:
+            for i in range(d):
+                y[i] = center[i] + (radius if i == 0 else 0.0)
+            return
+    scale = radius / math.sqrt(r2)
+    for i in range(d):
+        y[i] = center[i] + (y[i] - center[i]) * scale
+
+
+@njit(nogil=True, cache=True, inline="always")
+def _near_reactive(  # type: ignore[no-untyped-def]
+    xo, x, is_ball, react_lo, react_hi, target_center, target_radius,
+    target_reactivity, ball_center, ball_radius, ball_reactive, reach, cut,
+):  # fmt: skip
+    """Whether the step ``xo`` -> ``x`` comes near a reactive surface, so that
+    :func:`_react_step` may do anything: a face product within ``cut``, or an end
+    within ``reach`` of a reactive target or the reactive ball wall (``reach`` =
+    REACH sqrt(2 D h): farther, d1 d2 exceeds the cut). Inlined: most layer steps of
+    a domain with a reactive surface are near another surface, and skip the call."""
+    d = x.shape[0]
+    if not is_ball:
+        for i in range(d):
+            lo = react_lo[i]
+            hi = react_hi[i]
+            if (xo[i] - lo) * (x[i] - lo) <= cut or (xo[i] - hi) * (x[i] - hi) <= cut:
+                return True
+    for k in range(target_radius.shape[0]):
+        if math.isnan(target_reactivity[k]):
+            continue
+        far2 = (target_radius[k] + reach) ** 2
+        r1 = 0.0
+        r2 = 0.0
+        for i in range(d):
+            r1 += (xo[i] - target_center[k, i]) ** 2
+            r2 += (x[i] - target_center[k, i]) ** 2
+        if r1 <= far2 or r2 <= far2:
+            return True
+    if ball_reactive:
+        near2 = max(ball_radius - reach, 0.0) ** 2
+        r1 = 0.0
+        r2 = 0.0
+        for i in range(d):
+            r1 += (xo[i] - ball_center[i]) ** 2
+            r2 += (x[i] - ball_center[i]) ** 2
+        if r1 >= near2 or r2 >= near2:
+            return True
+    return False
+
+
+@njit(nogil=True, cache=True)
+def _react_step(  # type: ignore[no-untyped-def]
+    xo, x, is_ball, react_lo, react_hi, q_lo, q_hi, target_center, target_radius,
+    target_reactivity, ball_center, ball_radius, ball_reactivity, n_box_walls,
+    diffusivity, h, frac, hit_wall, a, b, c, w,
+):  # fmt: skip
+    """Reactive surfaces for the step ``xo`` -> ``x`` of duration ``h`` (``x`` after
+    the fold; pushed back in place): faces axis by axis (lower first), then reactive
+    targets in index order, then a reactive ball wall, each resolved by the step
+    kernel's :func:`kernels.walkers._react` (Skorokhod push by the bridge's minimum,
+    reaction when the push passes an exponential threshold of rate kappa / D, drawn
+    afresh each step: memoryless, so no state carries between steps or across jumps,
+    which touch no surface). Curved surfaces use the distance along the radius and
+    push radially, as ``reactive_spheres`` in kernels/step_surfaces.py. Surfaces with
+    d1 d2 above the bridge cut (20 D h) are skipped, as there. Returns (frac, hit_wall,
+    a, b, c, w)."""
+    d = x.shape[0]
+    cut = BRIDGE_CUTOFF * diffusivity * h
+    kill_scale = 1.0 / (diffusivity * h)
+    # Targets farther than REACH sqrt(2 D h) from both ends are skipped before any
+    # square root: there d1 d2 > REACH^2 2 D h > cut (as in the step template).
+    reach = REACH * math.sqrt(2.0 * diffusivity * h)
+    rs = _stream(a, b, c, w)
+    if not is_ball:
+        for i in range(d):
+            lo = react_lo[i]
+            if (xo[i] - lo) * (x[i] - lo) <= cut:
+                f, push, rs = _react(
+                    rs, xo[i] - lo, x[i] - lo, q_lo[i], kill_scale, diffusivity, h
+                )
+                x[i] = x[i] + push
+                if f < frac:
+                    frac = f
+                    hit_wall = 2 * i
+            hi = react_hi[i]
+            if (xo[i] - hi) * (x[i] - hi) <= cut:
+                f, push, rs = _react(
+                    rs, hi - xo[i], hi - x[i], q_hi[i], kill_scale, diffusivity, h
+                )
+                x[i] = x[i] - push
+                if f < frac:
+                    frac = f
+                    hit_wall = 2 * i + 1
+    n_targets = target_radius.shape[0]
+    for k in range(n_targets):
+        kappa = target_reactivity[k]
+        if math.isnan(kappa):
+            continue
+        r1 = 0.0
+        r2 = 0.0
+        for i in range(d):
+            r1 += (xo[i] - target_center[k, i]) ** 2
+            r2 += (x[i] - target_center[k, i]) ** 2
+        far2 = (target_radius[k] + reach) ** 2
+        if r1 > far2 and r2 > far2:
+            continue
+        d1 = math.sqrt(r1) - target_radius[k]
+        d2 = math.sqrt(r2) - target_radius[k]
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, kappa / diffusivity, kill_scale, diffusivity, h
+            )
+            if push > 0.0:
+                _radial(x, xo, target_center[k], target_radius[k] + d2 + push)
+            if f < frac:
+                frac = f
+                hit_wall = n_box_walls + k
+    if is_ball and not math.isnan(ball_reactivity):
+        r1 = 0.0
+        r2 = 0.0
+        for i in range(d):
+            r1 += (xo[i] - ball_center[i]) ** 2
+            r2 += (x[i] - ball_center[i]) ** 2
+        d1 = ball_radius - math.sqrt(r1)
+        d2 = ball_radius - math.sqrt(r2)
+        if d1 * d2 <= cut:
+            f, push, rs = _react(
+                rs, d1, d2, ball_reactivity / diffusivity, kill_scale, diffusivity, h
+            )
+            if push > 0.0:
+                _radial(x, xo, ball_center, max(ball_radius - d2 - push, 0.0))
+            if f < frac:
+                frac = f
+                hit_wall = n_targets
+    a, b, c, w = _words(rs)
+    return frac, hit_wall, a, b, c, w
+
+
+@njit(nogil=True, cache=True)
+def _leave_obstacles(y, obstacle_center, obstacle_radius):  # type: ignore[no-untyped-def]
+    """Mirror ``y`` radially out of every reflecting obstacle it ends inside
+    (distance r -> 2 a - r from the centre), as the step template's
+    ``obstacle_mirror`` (kernels/step_surfaces.py)."""
+    d = y.shape[0]
+    for k in range(obstacle_radius.shape[0]):
+        a = obstacle_radius[k]
+        r2 = 0.0
+        for i in range(d):
+            r2 += (y[i] - obstacle_center[k, i]) ** 2
+        if r2 < a * a:
+            r = math.sqrt(r2)
+            if r == 0.0:
+                for i in range(d):
+                    y[i] = obstacle_center[k, i] + (2.0 * a if i == 0 else 0.0)
+            else:
+                scale = (2.0 * a - r) / r
+                for i in range(d):
+                    y[i] = (
+                        obstacle_center[k, i] + (y[i] - obstacle_center[k, i]) * scale
+                    )
+
+
+@njit(nogil=True, cache=True)
 def simulate(  # type: ignore[no-untyped-def]
     state, n_walkers, start, uniform_start, lower, upper, absorbing_low, absorbing_high,
-    ball_center, ball_radius, ball_absorbing, target_center, target_radius, diffusivity,
-    dt, n_steps, bridge, handover, exit_table, exit_dtable, exit_s0, exit_ds,
-    exit_slope, survival_times, out_time, out_wall, out_position, out_survival,
+    ball_center, ball_radius, ball_absorbing, target_center, target_radius,
+    reactivity_lower, reactivity_upper, ball_reactivity, target_reactivity,
+    obstacle_center, obstacle_radius, diffusivity, dt, n_steps, bridge, handover,
+    exit_table, exit_dtable, exit_s0, exit_ds, exit_slope, survival_times, out_time, out_wall, out_position, out_survival,
     fpt_bin_width, out_fpt_hist, out_moves,
 ):  # fmt: skip
     """Simulate ``n_walkers`` walkers with sphere jumps to absorption or the horizon.
@@ -298,7 +483,16 @@ def simulate(  # type: ignore[no-untyped-def]
         The ball domain; ``ball_radius = inf`` means a box.
     ball_absorbing : bool
     target_center : float64 (k, d), target_radius : float64 (k,)
-        Absorbing balls inside the domain.
+        Absorbing (or reactive) balls inside the domain.
+    reactivity_lower, reactivity_upper : float64 (d,)
+        Reactivity kappa (length / time, 0 to inf) of each reactive box face; NaN for
+        faces that follow ``absorbing_low`` / ``absorbing_high`` (ignored for a ball).
+    ball_reactivity : float
+        Reactivity of the ball wall; NaN when it is absorbing or reflecting.
+    target_reactivity : float64 (k,)
+        Reactivity of each target; NaN for absorbing targets.
+    obstacle_center : float64 (m, d), obstacle_radius : float64 (m,)
+        Reflecting balls inside the domain.
     diffusivity : float
         D, length^2 / time (no drift: jumps assume free motion).
     dt : float
@@ -319,8 +513,8 @@ def simulate(  # type: ignore[no-untyped-def]
     out_time : float64 (n_walkers,)
         First-passage time; NaN when censored.
     out_wall : int16 (n_walkers,)
-        Index of the absorbing wall (box faces, then targets, then the ball surface);
-        -1 when censored.
+        Index of the absorbing or reactive wall (box faces, then targets, then the
+        ball surface); -1 when censored.
     out_position : float64 (n_walkers, d)
         Position at absorption; NaN when censored.
     out_survival : int64 (m,)
@@ -348,16 +542,42 @@ def simulate(  # type: ignore[no-untyped-def]
     abs_hi = np.full(d, math.inf)
     refl_lo = np.full(d, -math.inf)
     refl_hi = np.full(d, math.inf)
+    # Reactive faces (kl, kh at -+inf when absent, q = kappa / D): never folded; like
+    # absorbing faces they limit the protective radius (lim_lo, lim_hi).
+    react_lo = np.full(d, -math.inf)
+    react_hi = np.full(d, math.inf)
+    q_lo = np.zeros(d)
+    q_hi = np.zeros(d)
     if not is_ball:
         for i in range(d):
             if absorbing_low[i]:
                 abs_lo[i] = lower[i]
+            elif not math.isnan(reactivity_lower[i]):
+                react_lo[i] = lower[i]
+                q_lo[i] = reactivity_lower[i] / diffusivity
             else:
                 refl_lo[i] = lower[i]
             if absorbing_high[i]:
                 abs_hi[i] = upper[i]
+            elif not math.isnan(reactivity_upper[i]):
+                react_hi[i] = upper[i]
+                q_hi[i] = reactivity_upper[i] / diffusivity
             else:
                 refl_hi[i] = upper[i]
+    lim_lo = np.maximum(abs_lo, react_lo)
+    lim_hi = np.minimum(abs_hi, react_hi)
+    # Balls that limit the protective radius: targets (absorbing or reactive), then
+    # obstacles (without obstacles, copies of the targets' arrays: the same arithmetic).
+    n_obstacles = obstacle_radius.shape[0]
+    lim_center = np.concatenate((target_center, obstacle_center))
+    lim_radius = np.concatenate((target_radius, obstacle_radius))
+    reactive = False
+    for i in range(d):
+        reactive = reactive or react_lo[i] > -math.inf or react_hi[i] < math.inf
+    for k in range(n_targets):
+        reactive = reactive or not math.isnan(target_reactivity[k])
+    ball_reactive = is_ball and not math.isnan(ball_reactivity)
+    reactive = reactive or ball_reactive
     ball_r2 = ball_radius * ball_radius
     x = np.empty(d)
     xo = np.empty(d)
@@ -383,6 +603,12 @@ def simulate(  # type: ignore[no-untyped-def]
                         s2 += (x[i] - target_center[k, i]) ** 2
                     if s2 <= target_radius[k] ** 2:
                         free = False
+                for k in range(n_obstacles):
+                    s2 = 0.0
+                    for i in range(d):
+                        s2 += (x[i] - obstacle_center[k, i]) ** 2
+                    if s2 <= obstacle_radius[k] ** 2:
+                        free = False
                 if free:
                     break
         else:
@@ -395,8 +621,8 @@ def simulate(  # type: ignore[no-untyped-def]
                 x0, x1, x2, t, censored, n_jumps, a, b, c, w = _jumps(
                     d, x[0], x[1] if d > 1 else 0.0, x[2] if d > 2 else 0.0, t,
                     horizon, handover, diffusivity, is_ball, ball_center,
-                    ball_radius, abs_lo, abs_hi, refl_lo, refl_hi, target_center,
-                    target_radius, exit_table, exit_dtable, exit_s0, exit_ds,
+                    ball_radius, lim_lo, lim_hi, refl_lo, refl_hi, lim_center,
+                    lim_radius, exit_table, exit_dtable, exit_s0, exit_ds,
                     exit_slope, a, b, c, w,
                 )  # fmt: skip
                 jumps += n_jumps
@@ -410,8 +636,8 @@ def simulate(  # type: ignore[no-untyped-def]
                 r = 0.0  # inside the handover layer: step
             else:
                 r = _radius(
-                    x, is_ball, ball_center, ball_radius, abs_lo, abs_hi, refl_lo,
-                    refl_hi, target_center, target_radius,
+                    x, is_ball, ball_center, ball_radius, lim_lo, lim_hi, refl_lo,
+                    refl_hi, lim_center, lim_radius,
                 )  # fmt: skip
             if r > handover:
                 # 2. Jump to a uniform point of the sphere of radius r.
@@ -452,6 +678,21 @@ def simulate(  # type: ignore[no-untyped-def]
                     yi = _fold(yi, refl_lo[i], refl_hi[i])
                 x[i] = yi
             frac = 2.0
+            if reactive and _near_reactive(
+                xo, x, is_ball, react_lo, react_hi, target_center, target_radius,
+                target_reactivity, ball_center, ball_radius, ball_reactive,
+                REACH * sigma, BRIDGE_CUTOFF * diffusivity * h,
+            ):  # fmt: skip
+                # Reactive surfaces, then obstacles: the step kernel's blocks 2b and
+                # 2c (kernels/step.py), in its order and with its helper _react.
+                frac, hit_wall, a, b, c, w = _react_step(
+                    xo, x, is_ball, react_lo, react_hi, q_lo, q_hi, target_center,
+                    target_radius, target_reactivity, ball_center, ball_radius,
+                    ball_reactivity, n_box_walls, diffusivity, h, frac, hit_wall,
+                    a, b, c, w,
+                )  # fmt: skip
+            if n_obstacles > 0:
+                _leave_obstacles(x, obstacle_center, obstacle_radius)
             if not is_ball:
                 # Absorbing faces, axis by axis, lower first; the earliest wins.
                 for i in range(d):
@@ -468,7 +709,7 @@ def simulate(  # type: ignore[no-untyped-def]
                             if f < frac:
                                 frac = f
                                 hit_wall = 2 * i + side
-            else:
+            elif not ball_reactive:
                 if not ball_absorbing:
                     _reflect_ball(x, ball_center, ball_radius)
                 else:
@@ -487,6 +728,8 @@ def simulate(  # type: ignore[no-untyped-def]
                             frac = f
                             hit_wall = n_targets
             for k in range(n_targets):
+                if not math.isnan(target_reactivity[k]):
+                    continue  # reactive: resolved above
                 r1 = 0.0
                 r2 = 0.0
                 for i in range(d):

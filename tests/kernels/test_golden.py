@@ -47,7 +47,8 @@ fpt_bins = 30
 #: Short runs through each compiled loop and every kind of draw: step normals,
 #: bridge uniforms and hitting times (inverse Gaussian, Levy), exit points, uniform
 #: starts; box (1-D, 3-D), box with targets, ball with a target, 4-D (the array loop),
-#: and the spheres scheme (kernels/spheres.py: jumps and layer steps).
+#: and the spheres scheme (kernels/spheres.py: jumps and layer steps; with reactive
+#: walls and targets and an obstacle).
 RUNS: dict[str, str] = {
     "interval-drift-bridge": _HEAD.format(seed=1, monitoring="")
     + """
@@ -119,6 +120,28 @@ upper = [1.0, 1.0, 1.0]
 walls = { x_lower = "reflecting", x_upper = "reflecting", y_lower = "reflecting", y_upper = "reflecting", z_lower = "absorbing", z_upper = "reflecting" }
 targets = [{ center = [0.0, 0.0, 0.0], radius = 0.2 }]
 """,
+    "spheres-reactive-obstacle": """
+[sweep]
+seed = 6
+walkers = 300
+[time]
+dt = 0.001
+horizon = 3.0
+scheme = "spheres"
+[record]
+survival = { stop = 3.0, points = 7 }
+fpt_bins = 30
+[motion]
+dimension = 3
+diffusivity = 1.0
+start = "uniform"
+[domain]
+lower = [-1.0, -1.0, -1.0]
+upper = [1.0, 1.0, 1.0]
+walls = { x_lower = "reflecting", x_upper = { reactivity = 0.5 }, y_lower = "reflecting", y_upper = "reflecting", z_lower = "absorbing", z_upper = "reflecting" }
+targets = [{ center = [0.0, 0.0, 0.0], radius = 0.2, reactivity = 2.0 }, { center = [0.5, 0.5, 0.5], radius = 0.15 }]
+obstacles = [{ center = [-0.5, 0.5, 0.0], radius = 0.2 }]
+""",
 }
 
 #: sha256 of each run's outputs (first task), in the order of :func:`digest`.
@@ -137,6 +160,9 @@ GOLDEN: dict[str, str] = {
     ),
     "spheres-cube-target": (
         "c5842c71784e92dc0a708234dd65ab1b141ed77e66866680fd23bbd2b7ad886b"
+    ),
+    "spheres-reactive-obstacle": (
+        "cdaab80c2f2e34f239135aed66a42fff514dca74e464458a680ec0ea029c31a6"
     ),
 }
 

@@ -57,6 +57,11 @@ def run(
     survival_times: list[float] = (),  # type: ignore[assignment]
     seed: int = 1,
     uniform_start: bool = False,
+    reactivity_low: list[float] | None = None,
+    reactivity_high: list[float] | None = None,
+    ball_reactivity: float = math.nan,
+    target_reactivity: list[float | None] | None = None,
+    obstacles: list[tuple[list[float], float]] = (),  # type: ignore[assignment]
 ) -> Out:
     """Run the compiled kernel (ball domains centred at the origin)."""
     d = len(start)
@@ -90,6 +95,19 @@ def run(
         ball_absorbing,
         tc,
         tr,
+        np.array(reactivity_low or [math.nan] * d),
+        np.array(reactivity_high or [math.nan] * d),
+        ball_reactivity,
+        np.array(
+            [math.nan if k is None else k for k in target_reactivity]
+            if target_reactivity
+            else [math.nan] * len(targets),
+            dtype=np.float64,
+        ),
+        np.array([c for c, _ in obstacles], dtype=np.float64).reshape(
+            len(obstacles), d
+        ),
+        np.array([r for _, r in obstacles], dtype=np.float64),
         diffusivity,
         dt,
         n_steps,

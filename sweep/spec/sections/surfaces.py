@@ -168,13 +168,18 @@ def check_point(ctx: Context, domain: Domain, motion: Motion, timing: Timing) ->
                         "examined in the frame of a step's start). Move it inward, "
                         "make it smaller, or lower time.dt.",
                     )
-    if timing.scheme == "spheres" and domain.has_surface_kinds():
+    if timing.scheme == "spheres" and any(domain.periodic):
+        # Reactive walls and targets and obstacles limit the protective radius (see
+        # docs/surfaces.md, "The spheres scheme"); periodic faces would need the
+        # nearest periodic images of every ball and a wrapped jump, not built.
         raise ctx.fail(
             "time.scheme",
-            '"spheres" supports absorbing and reflecting walls and absorbing targets '
-            "only; this point has "
-            + ", ".join(domain.surface_kinds())
-            + ' (their laws inside a jump are not implemented). Use time.scheme = "steps".',
+            '"spheres" does not support periodic faces (its jumps would need the '
+            "periodic images of targets and obstacles); this point has periodic faces "
+            "on axes "
+            + ", ".join(str(i) for i, p in enumerate(domain.periodic) if p)
+            + '. Use time.scheme = "steps" (the default) for periodic faces, or make '
+            "those faces reflecting.",
         )
 
 

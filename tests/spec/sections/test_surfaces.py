@@ -128,9 +128,10 @@ REFUSED = [
             extra="obstacles = [{ center = [0.5, 0.5], radius = 0.1 }]",
             scheme='scheme = "spheres"',
         ),
-        '[time.scheme] "spheres" supports absorbing and reflecting walls and absorbing '
-        "targets only; this point has reactive walls, periodic faces, obstacles",
-        id="spheres-with-surfaces",
+        '[time.scheme] "spheres" does not support periodic faces (its jumps would '
+        "need the periodic images of targets and obstacles); this point has periodic "
+        'faces on axes 1. Use time.scheme = "steps"',
+        id="spheres-with-periodic-faces",
     ),
     pytest.param(
         definition(
@@ -143,6 +144,20 @@ REFUSED = [
         id="target-reactivity-not-number",
     ),
 ]
+
+
+def test_spheres_accept_reactive_surfaces_and_obstacles() -> None:
+    # Reactive walls and targets and obstacles limit the spheres scheme's protective
+    # radius (docs/surfaces.md); only periodic faces stay refused (above).
+    text = definition(
+        '{ x_lower = "absorbing", x_upper = { reactivity = 2.0 }, '
+        'y_lower = "reflecting", y_upper = "reflecting" }',
+        extra="targets = [{ center = [0.6, 0.5], radius = 0.1, reactivity = 1.0 }]\n"
+        "obstacles = [{ center = [0.3, 0.2], radius = 0.1 }]",
+        scheme='scheme = "spheres"',
+    )
+    point = parse_spec(text, "ok.toml").points[0]
+    assert point.timing.scheme == "spheres"
 
 
 @pytest.mark.parametrize(("text", "message"), REFUSED)
