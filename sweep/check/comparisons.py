@@ -55,6 +55,11 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
     split = stats.splitting_probability(ds) if per_walker else None
     cosines = exit_cosines(ds, sweep)
     msd = surfaces.mean_square_displacement(ds)
+    # The points with J7 companion runs share one walker-step budget.
+    sharing = sum(
+        twin.mirror_twin(point) is not None and int(ds["walkers_done"][p]) > 0
+        for p, point in enumerate(sweep.points)
+    )
     for p, point in enumerate(sweep.points):
         if int(ds["walkers_done"][p]) == 0:
             unchecked.append((p, "no finished tasks yet"))
@@ -73,7 +78,7 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
             # A centred target in a periodic or reflecting box: no closed form, but
             # identity J7 against a companion run of its mirror twin.
             found, why = twin.consistency_rows(
-                p, point, sweep, ds, SURVIVAL_RANGE, SURVIVAL_TIMES
+                p, point, sweep, ds, SURVIVAL_RANGE, SURVIVAL_TIMES, sharing
             )
             rows += found
             if not found:

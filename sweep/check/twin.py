@@ -45,6 +45,11 @@ COMPANION_WALKERS = 10_000
 #: the stored point's mean time to absorption or the horizon, whichever comes first:
 #: an overnight point's walkers may each need 10^5-10^6 steps.
 COMPANION_STEPS = 2e8
+#: ... and all companion runs of one check together at most about this many
+#: walker-steps (shared equally among the points J7 applies to), so a check of a
+#: thousand-point overnight sweep adds minutes, not hours; each point still gets at
+#: least MIN_COMPANION_WALKERS.
+COMPANION_STEPS_TOTAL = 2e9
 #: ... but never fewer walkers than this (or than the store holds for the point): below
 #: it the comparison says little.
 MIN_COMPANION_WALKERS = 100
@@ -161,6 +166,7 @@ def consistency_rows(
     ds: xr.Dataset,
     survival_range: tuple[float, float],
     survival_times: int,
+    sharing: int = 1,
 ) -> tuple[list[CheckRow], str]:
     """The J7 rows of stored point ``p`` (whose :func:`mirror_twin` is not None) and,
     when there are none, why.
@@ -175,6 +181,9 @@ def consistency_rows(
     ----------
     ds : xarray.Dataset
         The store's Dataset (all points; point ``p`` is read).
+    sharing : int
+        How many points of this check run companions (they share
+        ``COMPANION_STEPS_TOTAL``).
     """
     twin = mirror_twin(point)
     assert twin is not None
@@ -182,7 +191,7 @@ def consistency_rows(
     per_walker = "first_passage_time" in ds
     has_times = per_walker or "fpt_histogram" in ds
     m1 = stats.mean_first_passage_time(stored).isel(point=0) if has_times else None
-    walkers = companion_walkers(point, int(stored["walkers_done"][0]), m1)
+    walkers = companion_walkers(point, int(stored["walkers_done"][0]), m1, sharing)
     other = companion_dataset(twin, sweep, walkers, per_walker)
     kind = twin_kind(twin)
     companion = (
@@ -252,10 +261,13 @@ def consistency_rows(
     return [], f"J7 {companion}: " + "; ".join(reasons)
 
 
-def companion_walkers(point: PointSpec, stored: int, mean: xr.Dataset | None) -> int:
+def companion_walkers(
+    point: PointSpec, stored: int, mean: xr.Dataset | None, sharing: int = 1
+) -> int:
     """Walkers of a companion run: ``COMPANION_WALKERS``, fewer when that would take
-    more than ``COMPANION_STEPS`` walker-steps, at least ``MIN_COMPANION_WALKERS``, and
-    never more than the ``stored`` walkers of the point.
+    more than ``COMPANION_STEPS`` walker-steps (or than this point's share of
+    ``COMPANION_STEPS_TOTAL`` among ``sharing`` points), at least
+    ``MIN_COMPANION_WALKERS``, and never more than the ``stored`` walkers of the point.
 
     A walker's steps are judged by the stored point: its mean first-passage time over
     absorbed walkers and the horizon for censored ones (``mean``: the point's row of
@@ -270,7 +282,8 @@ def companion_walkers(point: PointSpec, stored: int, mean: xr.Dataset | None) ->
         if math.isfinite(estimate) and math.isfinite(censored):
             expected = (1.0 - censored) * estimate + censored * horizon
     steps = max(expected / tm.dt, 1.0)
-    affordable = max(int(COMPANION_STEPS / steps), MIN_COMPANION_WALKERS)
+    budget = min(COMPANION_STEPS, COMPANION_STEPS_TOTAL / max(sharing, 1))
+    affordable = max(int(budget / steps), MIN_COMPANION_WALKERS)
     return min(stored, COMPANION_WALKERS, affordable)
 
 

@@ -174,6 +174,10 @@ def test_companion_walkers_are_capped_by_steps() -> None:
     )
     assert twin.companion_walkers(glacial, 10**6, None) == twin.MIN_COMPANION_WALKERS
     assert twin.companion_walkers(glacial, 50, None) == 50
+    # A thousand points share 2e9 walker-steps: 2e6 each -> 100 walkers at 200 s; with
+    # ten points the per-point cap (2e8) rules.
+    assert twin.companion_walkers(slow, 10**6, mean(200.0), sharing=1000) == 100
+    assert twin.companion_walkers(slow, 10**6, mean(200.0), sharing=10) == 1000
 
 
 def test_periodic_store_passes_against_its_reflecting_twin(tmp_path: Path) -> None:
