@@ -16,13 +16,12 @@ from typing import Any
 
 import numpy as np
 import pytest
-from scipy import stats
 
 from sweep import analytic
 from sweep.plan import HANDOVER
 from tests.kernels.spheres_reference import simulate_reference
-from tests.kernels.test_spheres import run, z_fraction, z_mean
-from tests.tolerances import P_MIN, RTOL_NUMERIC, Z_STAT
+from tests.kernels.test_spheres import assert_same_law, run, z_fraction, z_mean
+from tests.tolerances import RTOL_NUMERIC, Z_STAT
 
 #: Cases for the reference comparison: every new surface kind, in a box and a ball.
 CASES: dict[str, dict[str, Any]] = {
@@ -93,15 +92,7 @@ def test_kernel_matches_numpy_reference(case: str) -> None:
     out = run(n, **kw)
     assert out.moves[0] > 0 and out.moves[1] > 0  # both jumps and layer steps
     ref_time, ref_wall = _reference(kw, n, seed=5)
-    a = out.time[~np.isnan(out.time)]
-    b = ref_time[~np.isnan(ref_time)]
-    p_ks = stats.ks_2samp(a, b).pvalue
-    walls = np.arange(-1, int(max(out.wall.max(), ref_wall.max())) + 1)
-    table = np.array([[np.sum(out.wall == w), np.sum(ref_wall == w)] for w in walls])
-    table = table[table.sum(axis=1) > 0]
-    p_chi = stats.chi2_contingency(table).pvalue if table.shape[0] > 1 else 1.0
-    print(f"{case}: KS p = {p_ks:.3g}, walls chi2 p = {p_chi:.3g}, walls {table.T}")
-    assert p_ks > P_MIN and p_chi > P_MIN
+    assert_same_law(case, out.time, out.wall, ref_time, ref_wall)
 
 
 def test_reactive_interval_end_mean_time() -> None:
