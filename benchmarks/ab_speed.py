@@ -63,6 +63,19 @@ CASES: dict[str, dict[str, Any]] = {
         target_radius=[0.1], start=[0.2] * 3, diffusivity=1.0, dt=1e-4,
         n_steps=40_000, bridge=True,
     ),
+    # `sweep bench`'s reflecting box with a target (D = 0.5, dt = 1e-3, radius 0.2).
+    "bench refl. box 3-D + target, endpoint": dict(
+        lower=[0.0] * 3, upper=[1.0] * 3, absorbing_lower=[False] * 3,
+        absorbing_upper=[False] * 3, target_center=[[0.5, 0.5, 0.5]],
+        target_radius=[0.2], start=[0.1] * 3, diffusivity=0.5, dt=1e-3,
+        n_steps=50_000, bridge=False,
+    ),
+    "bench refl. box 3-D + target, bridge": dict(
+        lower=[0.0] * 3, upper=[1.0] * 3, absorbing_lower=[False] * 3,
+        absorbing_upper=[False] * 3, target_center=[[0.5, 0.5, 0.5]],
+        target_radius=[0.2], start=[0.1] * 3, diffusivity=0.5, dt=1e-3,
+        n_steps=50_000, bridge=True,
+    ),
     "4-D box + target, bridge": dict(
         lower=[0.0] * 4, upper=[1.0] * 4, absorbing_lower=[True] * 4,
         absorbing_upper=[False] * 4, target_center=[[0.5] * 4], target_radius=[0.1],

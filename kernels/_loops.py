@@ -3,7 +3,7 @@ EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,
 ``FORCE_LOOPS[kind, dim]`` those with a force field.
-Digest of template, generator, kernels/walkers.py and rng.py: 20782881d46649794208c20db69fad25
+Digest of template, generator, kernels/walkers.py and rng.py: 37b99cc44c0975dc892e4b8fe983b572
 """
 
 # ruff: noqa
@@ -159,6 +159,9 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -568,6 +571,9 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -1086,6 +1092,9 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -1713,6 +1722,9 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -2449,6 +2461,9 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -3294,6 +3309,9 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -4248,6 +4266,9 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -5311,6 +5332,9 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -6139,6 +6163,9 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -6204,6 +6231,16 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                             c0 = _fold(y0, rl0, rh0)
                     y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -6672,6 +6709,9 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -6746,6 +6786,17 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                     y0 = c0
                     y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -7315,6 +7366,9 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -7398,6 +7452,18 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                     y1 = c1
                     y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -8068,6 +8134,9 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -8160,6 +8229,19 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                     y2 = c2
                     y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -8931,6 +9013,9 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -9032,6 +9117,20 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                     y3 = c3
                     y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -9904,6 +10003,9 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -10014,6 +10116,21 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                     y4 = c4
                     y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -10987,6 +11104,9 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -11106,6 +11226,22 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                     y5 = c5
                     y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    x6 = y6
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -12180,6 +12316,9 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -12308,6 +12447,23 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                     y6 = c6
                     y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2 + (y7 - tc7) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    x6 = y6
+                    x7 = y7
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -13152,6 +13308,9 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -13701,6 +13860,9 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -14308,6 +14470,9 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -14973,6 +15138,9 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -15696,6 +15864,9 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -16477,6 +16648,9 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -17316,6 +17490,9 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -18032,6 +18209,9 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -18447,6 +18627,9 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -18977,6 +19160,9 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -19622,6 +19808,9 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -20382,6 +20571,9 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -21257,6 +21449,9 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -22247,6 +22442,9 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -23352,6 +23550,9 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -24228,6 +24429,9 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -24299,6 +24503,16 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
                             c0 = _fold(y0, rl0, rh0)
                     y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -24767,6 +24981,9 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -24853,6 +25070,17 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
                     y0 = c0
                     y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -25422,6 +25650,9 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -25523,6 +25754,18 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
                     y1 = c1
                     y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -26193,6 +26436,9 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -26309,6 +26555,19 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
                     y2 = c2
                     y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -27080,6 +27339,9 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -27211,6 +27473,20 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
                     y3 = c3
                     y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -28083,6 +28359,9 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -28229,6 +28508,21 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
                     y4 = c4
                     y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -29202,6 +29496,9 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -29363,6 +29660,22 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
                     y5 = c5
                     y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    x6 = y6
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -30437,6 +30750,9 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -30613,6 +30929,23 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
                     y6 = c6
                     y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                # A quiet step: inside the band, start and end beyond the reach
+                # of the only target, and no reactive, obstacle or periodic
+                # surface. Every test below is then known to fail, so the step
+                # skips them on one branch (the common step of a box with a
+                # target otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2 + (y7 - tc7) ** 2)
+                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    x6 = y6
+                    x7 = y7
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -31457,6 +31790,9 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -32018,6 +32354,9 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -32643,6 +32982,9 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -33332,6 +33674,9 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -34085,6 +34430,9 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -34902,6 +35250,9 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
@@ -35783,6 +36134,9 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
     steps_done = 0
 
     for w in range(n_walkers):
