@@ -3,7 +3,7 @@ EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,
 ``FORCE_LOOPS[kind, dim]`` those with a force field.
-Digest of template, generator, kernels/walkers.py and rng.py: 37b99cc44c0975dc892e4b8fe983b572
+Digest of template, generator, kernels/walkers.py and rng.py: d9ee8fc6257ef262ff268237ce2dcc52
 """
 
 # ruff: noqa
@@ -15,6 +15,7 @@ from numba import njit
 
 from kernels.walkers import (
     BRIDGE_CUTOFF,
+    NORMAL_BOUND,
     REACH,
     SURFACE_MARGIN,
     _band,
@@ -162,6 +163,13 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -182,6 +190,8 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -208,13 +218,25 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -574,6 +596,15 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
     steps_done = 0
 
     for w in range(n_walkers):
@@ -596,6 +627,8 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -624,13 +657,27 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -1095,6 +1142,17 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
     steps_done = 0
 
     for w in range(n_walkers):
@@ -1119,6 +1177,8 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1149,13 +1209,29 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -1725,6 +1801,19 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
     steps_done = 0
 
     for w in range(n_walkers):
@@ -1751,6 +1840,8 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1783,13 +1874,31 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -2464,6 +2573,21 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
     steps_done = 0
 
     for w in range(n_walkers):
@@ -2492,6 +2616,8 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -2526,13 +2652,33 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -3312,6 +3458,23 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
     steps_done = 0
 
     for w in range(n_walkers):
@@ -3342,6 +3505,8 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3378,13 +3543,35 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -4269,6 +4456,25 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
     steps_done = 0
 
     for w in range(n_walkers):
@@ -4301,6 +4507,8 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4339,13 +4547,37 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -5335,6 +5567,27 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
     steps_done = 0
 
     for w in range(n_walkers):
@@ -5369,6 +5622,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -5409,13 +5664,39 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    y7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -6166,6 +6447,13 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -6186,6 +6474,8 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6212,13 +6502,26 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -6231,13 +6534,18 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                             c0 = _fold(y0, rl0, rh0)
                     y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     r1_0 = r2
                     continue
@@ -6712,6 +7020,15 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
     steps_done = 0
 
     for w in range(n_walkers):
@@ -6734,6 +7051,8 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6762,13 +7081,28 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -6786,13 +7120,18 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                     y0 = c0
                     y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     r1_0 = r2
@@ -7369,6 +7708,17 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
     steps_done = 0
 
     for w in range(n_walkers):
@@ -7393,6 +7743,8 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7423,13 +7775,30 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -7452,13 +7821,18 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                     y1 = c1
                     y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -8137,6 +8511,19 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
     steps_done = 0
 
     for w in range(n_walkers):
@@ -8163,6 +8550,8 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8195,13 +8584,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -8229,13 +8637,18 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                     y2 = c2
                     y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -9016,6 +9429,21 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
     steps_done = 0
 
     for w in range(n_walkers):
@@ -9044,6 +9472,8 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -9078,13 +9508,34 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -9117,13 +9568,18 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                     y3 = c3
                     y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -10006,6 +10462,23 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
     steps_done = 0
 
     for w in range(n_walkers):
@@ -10036,6 +10509,8 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -10072,13 +10547,36 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -10116,13 +10614,18 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                     y4 = c4
                     y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -11107,6 +11610,25 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
     steps_done = 0
 
     for w in range(n_walkers):
@@ -11139,6 +11661,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -11177,13 +11701,38 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -11226,13 +11775,18 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                     y5 = c5
                     y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -12319,6 +12873,27 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
     steps_done = 0
 
     for w in range(n_walkers):
@@ -12353,6 +12928,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -12393,13 +12970,40 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    y7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -12447,13 +13051,18 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                     y6 = c6
                     y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2 + (y7 - tc7) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -13311,6 +13920,15 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
     steps_done = 0
 
     for w in range(n_walkers):
@@ -13333,6 +13951,8 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -13863,6 +14483,17 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
     steps_done = 0
 
     for w in range(n_walkers):
@@ -13887,6 +14518,8 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -14473,6 +15106,19 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
     steps_done = 0
 
     for w in range(n_walkers):
@@ -14499,6 +15145,8 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -15141,6 +15789,21 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
     steps_done = 0
 
     for w in range(n_walkers):
@@ -15169,6 +15832,8 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -15867,6 +16532,23 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
     steps_done = 0
 
     for w in range(n_walkers):
@@ -15897,6 +16579,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -16651,6 +17335,25 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
     steps_done = 0
 
     for w in range(n_walkers):
@@ -16683,6 +17386,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -17493,6 +18198,27 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
     steps_done = 0
 
     for w in range(n_walkers):
@@ -17527,6 +18253,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -18212,6 +18940,14 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -18232,6 +18968,8 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -18264,13 +19002,25 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
                     y0 += force_scale * _slope(
                         x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -18630,6 +19380,16 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -18652,6 +19412,8 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -18692,13 +19454,27 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
                     y1 += force_scale * _slope(
                         x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -19163,6 +19939,18 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -19187,6 +19975,8 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -19235,13 +20025,29 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
                     y2 += force_scale * _slope(
                         x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -19811,6 +20617,20 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -19837,6 +20657,8 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -19893,13 +20715,31 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
                     y3 += force_scale * _slope(
                         x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -20574,6 +21414,22 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -20602,6 +21458,8 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -20666,13 +21524,33 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
                     y4 += force_scale * _slope(
                         x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -21452,6 +22330,24 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -21482,6 +22378,8 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -21554,13 +22452,35 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
                     y5 += force_scale * _slope(
                         x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -22445,6 +23365,26 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -22477,6 +23417,8 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -22557,13 +23499,37 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
                     y6 += force_scale * _slope(
                         x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -23553,6 +24519,28 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -23587,6 +24575,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -23675,13 +24665,39 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
                     y7 += force_scale * _slope(
                         x7, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    y7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -24432,6 +25448,14 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -24452,6 +25476,8 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -24484,13 +25510,26 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
                     y0 += force_scale * _slope(
                         x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -24503,13 +25542,18 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
                             c0 = _fold(y0, rl0, rh0)
                     y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     r1_0 = r2
                     continue
@@ -24984,6 +26028,16 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -25006,6 +26060,8 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -25046,13 +26102,28 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
                     y1 += force_scale * _slope(
                         x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -25070,13 +26141,18 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
                     y0 = c0
                     y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     r1_0 = r2
@@ -25653,6 +26729,18 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -25677,6 +26765,8 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -25725,13 +26815,30 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
                     y2 += force_scale * _slope(
                         x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -25754,13 +26861,18 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
                     y1 = c1
                     y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -26439,6 +27551,20 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -26465,6 +27591,8 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -26521,13 +27649,32 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
                     y3 += force_scale * _slope(
                         x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -26555,13 +27702,18 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
                     y2 = c2
                     y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -27342,6 +28494,22 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -27370,6 +28538,8 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -27434,13 +28604,34 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
                     y4 += force_scale * _slope(
                         x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -27473,13 +28664,18 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
                     y3 = c3
                     y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -28362,6 +29558,24 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -28392,6 +29606,8 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -28464,13 +29680,36 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
                     y5 += force_scale * _slope(
                         x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -28508,13 +29747,18 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
                     y4 = c4
                     y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -29499,6 +30743,26 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -29531,6 +30795,8 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -29611,13 +30877,38 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
                     y6 += force_scale * _slope(
                         x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -29660,13 +30951,18 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
                     y5 = c5
                     y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -30753,6 +32049,28 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -30787,6 +32105,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -30875,13 +32195,40 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
                     y7 += force_scale * _slope(
                         x7, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    y7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -30929,13 +32276,18 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
                     y6 = c6
                     y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                # A quiet step: inside the band, start and end beyond the reach
-                # of the only target, and no reactive, obstacle or periodic
-                # surface. Every test below is then known to fail, so the step
-                # skips them on one branch (the common step of a box with a
-                # target otherwise passes eight).
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
                 r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2 + (y7 - tc7) ** 2)
-                if (not near) & plain & (r2 > reach_0) & (r1_0 > reach_0):
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
                     x0 = y0
                     x1 = y1
                     x2 = y2
@@ -31793,6 +33145,16 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -31815,6 +33177,8 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -32357,6 +33721,18 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -32381,6 +33757,8 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -32985,6 +34363,20 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -33011,6 +34403,8 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -33677,6 +35071,22 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -33705,6 +35115,8 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -34433,6 +35845,24 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -34463,6 +35893,8 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -35253,6 +36685,26 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -35285,6 +36737,8 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -36137,6 +37591,28 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
     # surfaces that move a step's end or wrap it.
     plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -36171,6 +37647,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
