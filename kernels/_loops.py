@@ -3,7 +3,7 @@ EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,
 ``FORCE_LOOPS[kind, dim]`` those with a force field.
-Digest of template, generator, kernels/walkers.py and rng.py: d9ee8fc6257ef262ff268237ce2dcc52
+Digest of template, generator, kernels/walkers.py and rng.py: 6a6a48c72695814fd3ff12b41cac5859
 """
 
 # ruff: noqa

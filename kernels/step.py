@@ -46,7 +46,10 @@ reaction), 2c obstacles (``obstacle_mirror``); periodic faces wrap the new posit
 after the step, and the bookkeeping adds the widths crossed to the displacement.
 Each new kind also has one setup line per axis (its face positions) and a flag that
 skips its block, so definitions without it run the same instructions and draws as
-before (``benchmarks/bit_identity.py``).
+before (``benchmarks/bit_identity.py``). Two shortcuts of a box with targets skip
+tests that are known to fail, and a new kind must switch both off when present: the
+quiet step (``plain``: one absorbing target and nothing else near) and mirror-only
+steps (``short_mirror``: reflecting faces only, no step half as long as the box).
 """
 
 
