@@ -4,7 +4,8 @@ checkout's, on the bench's main cases, alternating the two builds run by run.
     PYTHONPATH=. python benchmarks/ab_speed.py [--ref main] [--rounds 15]
 
 Prints, per case, the fastest rate of each build (walker-steps per second) and their
-ratio (this checkout / ref), plus the median of the paired ratios. The first call of
+ratio (this checkout / ref), plus the median of the paired ratios and their spread
+(the lowest and highest pair). The first call of
 each case and build is timed too: with a cold numba cache (``NUMBA_CACHE_DIR`` pointing
 at an empty directory) it is the compile time of that variant. Rates on a shared
 machine are noisy: compare ratios from one run, never rates from different runs. Rates
@@ -63,6 +64,19 @@ CASES: dict[str, dict[str, Any]] = {
         target_radius=[0.1], start=[0.2] * 3, diffusivity=1.0, dt=1e-4,
         n_steps=40_000, bridge=True,
     ),
+    # `sweep bench`'s reflecting box with a target (D = 0.5, dt = 1e-3, radius 0.2).
+    "bench refl. box 3-D + target, endpoint": dict(
+        lower=[0.0] * 3, upper=[1.0] * 3, absorbing_lower=[False] * 3,
+        absorbing_upper=[False] * 3, target_center=[[0.5, 0.5, 0.5]],
+        target_radius=[0.2], start=[0.1] * 3, diffusivity=0.5, dt=1e-3,
+        n_steps=50_000, bridge=False,
+    ),
+    "bench refl. box 3-D + target, bridge": dict(
+        lower=[0.0] * 3, upper=[1.0] * 3, absorbing_lower=[False] * 3,
+        absorbing_upper=[False] * 3, target_center=[[0.5, 0.5, 0.5]],
+        target_radius=[0.2], start=[0.1] * 3, diffusivity=0.5, dt=1e-3,
+        n_steps=50_000, bridge=True,
+    ),
     "4-D box + target, bridge": dict(
         lower=[0.0] * 4, upper=[1.0] * 4, absorbing_lower=[True] * 4,
         absorbing_upper=[False] * 4, target_center=[[0.5] * 4], target_radius=[0.1],
@@ -88,7 +102,8 @@ def main(argv: list[str] | None = None) -> int:
     bi.N_WALKERS = args.walkers
     builds = {"ref": reference_module(args.ref), "new": walkers}
     print(f"{'case':38s} {'first call ref/new (s)':>24s} {'M steps/s ref':>14s} "
-          f"{'new':>7s} {'best new/ref':>13s} {'median pair':>12s}")  # fmt: skip
+          f"{'new':>7s} {'best new/ref':>13s} {'median pair':>12s} "
+          f"{'pairs min-max':>14s}")  # fmt: skip
     for name, config in CASES.items():
         if args.cases not in name:
             continue
@@ -111,7 +126,8 @@ def main(argv: list[str] | None = None) -> int:
         print(
             f"{name:38s} {first['ref']:11.2f} / {first['new']:<10.2f} "
             f"{best['ref'] / 1e6:14.1f} {best['new'] / 1e6:7.1f} "
-            f"{best['new'] / best['ref']:13.3f} {statistics.median(pairs):12.3f}"
+            f"{best['new'] / best['ref']:13.3f} {statistics.median(pairs):12.3f} "
+            f"{min(pairs):8.3f}-{max(pairs):.3f}"
         )
     return 0
 

@@ -153,6 +153,28 @@ def configurations() -> list[dict[str, Any]]:
             survival_times=[0.05, 0.3], occupancy_steps=[0, 10, 10, 40],
             occupancy_bins=3, fpt_bins=3, fpt_bin_width=0.2,
         ))  # fmt: skip
+    # Reflecting boxes with steps shorter than half their width (the loop's mirror-only
+    # path, kernels/step.py): with and without targets, an absent face, drift,
+    # uniform starts, starts on a face.
+    for d, n_targets, bridge, variant in itertools.product(
+        (1, 2, 3, 4), (0, 1, 2), (True, False), ("plain", "drift", "uniform", "face")
+    ):
+        if d == 1 and n_targets == 2:
+            continue
+        centers = [[0.7 - 0.4 * k] + [0.5] * (d - 1) for k in range(n_targets)]
+        start = [0.0] + [0.9] * (d - 1) if variant == "face" else [0.04] * d
+        configs.append(dict(
+            lower=[0.0] * d,
+            upper=[1.0] + [1.2] * (d - 1) if variant == "uniform"
+            else [1.0] + [1.2] * (d - 2) + [math.inf] * (d > 1),
+            absorbing_lower=[False] * d, absorbing_upper=[False] * d,
+            target_center=centers, target_radius=[0.15 + 0.03 * k for k in range(n_targets)],
+            start=None if variant == "uniform" else start,
+            drift=[0.5 * (-1) ** i for i in range(d)] if variant == "drift" else None,
+            diffusivity=0.5, dt=1e-3, n_steps=120, bridge=bridge,
+            survival_times=[0.05, 0.1], occupancy_steps=[0, 60], occupancy_bins=2,
+            fpt_bins=3 if n_targets else 0, fpt_bin_width=0.05,
+        ))  # fmt: skip
     rng = np.random.default_rng(7)
     for bridge in (True, False):
         centers = rng.uniform(0.05, 0.95, size=(70, 2)).tolist()

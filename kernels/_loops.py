@@ -3,7 +3,7 @@ EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).
 
 One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,
 ``FORCE_LOOPS[kind, dim]`` those with a force field.
-Digest of template, generator, kernels/walkers.py and rng.py: 20782881d46649794208c20db69fad25
+Digest of template, generator, kernels/walkers.py and rng.py: 6a6a48c72695814fd3ff12b41cac5859
 """
 
 # ruff: noqa
@@ -15,6 +15,7 @@ from numba import njit
 
 from kernels.walkers import (
     BRIDGE_CUTOFF,
+    NORMAL_BOUND,
     REACH,
     SURFACE_MARGIN,
     _band,
@@ -159,6 +160,16 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -179,6 +190,8 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -205,13 +218,25 @@ def simulate_loop_box1(state, n_walkers, geometry, motion, recording, out):
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -568,6 +593,18 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
     steps_done = 0
 
     for w in range(n_walkers):
@@ -590,6 +627,8 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -618,13 +657,27 @@ def simulate_loop_box2(state, n_walkers, geometry, motion, recording, out):
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -1086,6 +1139,20 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
     steps_done = 0
 
     for w in range(n_walkers):
@@ -1110,6 +1177,8 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1140,13 +1209,29 @@ def simulate_loop_box3(state, n_walkers, geometry, motion, recording, out):
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -1713,6 +1798,22 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
     steps_done = 0
 
     for w in range(n_walkers):
@@ -1739,6 +1840,8 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -1771,13 +1874,31 @@ def simulate_loop_box4(state, n_walkers, geometry, motion, recording, out):
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -2449,6 +2570,24 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
     steps_done = 0
 
     for w in range(n_walkers):
@@ -2477,6 +2616,8 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -2511,13 +2652,33 @@ def simulate_loop_box5(state, n_walkers, geometry, motion, recording, out):
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -3294,6 +3455,26 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
     steps_done = 0
 
     for w in range(n_walkers):
@@ -3324,6 +3505,8 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -3360,13 +3543,35 @@ def simulate_loop_box6(state, n_walkers, geometry, motion, recording, out):
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -4248,6 +4453,28 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
     steps_done = 0
 
     for w in range(n_walkers):
@@ -4280,6 +4507,8 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -4318,13 +4547,37 @@ def simulate_loop_box7(state, n_walkers, geometry, motion, recording, out):
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -5311,6 +5564,30 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
     steps_done = 0
 
     for w in range(n_walkers):
@@ -5345,6 +5622,8 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -5385,13 +5664,39 @@ def simulate_loop_box8(state, n_walkers, geometry, motion, recording, out):
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    y7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -6139,6 +6444,16 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
     steps_done = 0
 
     for w in range(n_walkers):
@@ -6159,6 +6474,8 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6185,13 +6502,26 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                 #    only when that overshoots the opposite face).
                 z, rs = draw_normal(rs)
                 y0 = x0 + s0 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -6204,6 +6534,21 @@ def simulate_loop_box_targets1(state, n_walkers, geometry, motion, recording, ou
                             c0 = _fold(y0, rl0, rh0)
                     y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -6672,6 +7017,18 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
     steps_done = 0
 
     for w in range(n_walkers):
@@ -6694,6 +7051,8 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -6722,13 +7081,28 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                 y0 = x0 + s0 + sigma * z
                 z, rs = draw_normal(rs)
                 y1 = x1 + s1 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -6746,6 +7120,22 @@ def simulate_loop_box_targets2(state, n_walkers, geometry, motion, recording, ou
                     y0 = c0
                     y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -7315,6 +7705,20 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
     steps_done = 0
 
     for w in range(n_walkers):
@@ -7339,6 +7743,8 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -7369,13 +7775,30 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                 y1 = x1 + s1 + sigma * z
                 z, rs = draw_normal(rs)
                 y2 = x2 + s2 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -7398,6 +7821,23 @@ def simulate_loop_box_targets3(state, n_walkers, geometry, motion, recording, ou
                     y1 = c1
                     y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -8068,6 +8508,22 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
     steps_done = 0
 
     for w in range(n_walkers):
@@ -8094,6 +8550,8 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8126,13 +8584,32 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                 y2 = x2 + s2 + sigma * z
                 z, rs = draw_normal(rs)
                 y3 = x3 + s3 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -8160,6 +8637,24 @@ def simulate_loop_box_targets4(state, n_walkers, geometry, motion, recording, ou
                     y2 = c2
                     y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -8931,6 +9426,24 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
     steps_done = 0
 
     for w in range(n_walkers):
@@ -8959,6 +9472,8 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -8993,13 +9508,34 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                 y3 = x3 + s3 + sigma * z
                 z, rs = draw_normal(rs)
                 y4 = x4 + s4 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -9032,6 +9568,25 @@ def simulate_loop_box_targets5(state, n_walkers, geometry, motion, recording, ou
                     y3 = c3
                     y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -9904,6 +10459,26 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
     steps_done = 0
 
     for w in range(n_walkers):
@@ -9934,6 +10509,8 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -9970,13 +10547,36 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                 y4 = x4 + s4 + sigma * z
                 z, rs = draw_normal(rs)
                 y5 = x5 + s5 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -10014,6 +10614,26 @@ def simulate_loop_box_targets6(state, n_walkers, geometry, motion, recording, ou
                     y4 = c4
                     y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -10987,6 +11607,28 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
     steps_done = 0
 
     for w in range(n_walkers):
@@ -11019,6 +11661,8 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -11057,13 +11701,38 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                 y5 = x5 + s5 + sigma * z
                 z, rs = draw_normal(rs)
                 y6 = x6 + s6 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -11106,6 +11775,27 @@ def simulate_loop_box_targets7(state, n_walkers, geometry, motion, recording, ou
                     y5 = c5
                     y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    x6 = y6
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -12180,6 +12870,30 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
     steps_done = 0
 
     for w in range(n_walkers):
@@ -12214,6 +12928,8 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -12254,13 +12970,40 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                 y6 = x6 + s6 + sigma * z
                 z, rs = draw_normal(rs)
                 y7 = x7 + s7 + sigma * z
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    y7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -12308,6 +13051,28 @@ def simulate_loop_box_targets8(state, n_walkers, geometry, motion, recording, ou
                     y6 = c6
                     y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2 + (y7 - tc7) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    x6 = y6
+                    x7 = y7
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -13152,6 +13917,18 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
     steps_done = 0
 
     for w in range(n_walkers):
@@ -13174,6 +13951,8 @@ def simulate_loop_ball2(state, n_walkers, geometry, motion, recording, out):
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -13701,6 +14480,20 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
     steps_done = 0
 
     for w in range(n_walkers):
@@ -13725,6 +14518,8 @@ def simulate_loop_ball3(state, n_walkers, geometry, motion, recording, out):
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -14308,6 +15103,22 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
     steps_done = 0
 
     for w in range(n_walkers):
@@ -14334,6 +15145,8 @@ def simulate_loop_ball4(state, n_walkers, geometry, motion, recording, out):
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -14973,6 +15786,24 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
     steps_done = 0
 
     for w in range(n_walkers):
@@ -15001,6 +15832,8 @@ def simulate_loop_ball5(state, n_walkers, geometry, motion, recording, out):
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -15696,6 +16529,26 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
     steps_done = 0
 
     for w in range(n_walkers):
@@ -15726,6 +16579,8 @@ def simulate_loop_ball6(state, n_walkers, geometry, motion, recording, out):
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -16477,6 +17332,28 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
     steps_done = 0
 
     for w in range(n_walkers):
@@ -16509,6 +17386,8 @@ def simulate_loop_ball7(state, n_walkers, geometry, motion, recording, out):
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -17316,6 +18195,30 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
     steps_done = 0
 
     for w in range(n_walkers):
@@ -17350,6 +18253,8 @@ def simulate_loop_ball8(state, n_walkers, geometry, motion, recording, out):
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -18032,6 +18937,17 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -18052,6 +18968,8 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -18084,13 +19002,25 @@ def simulate_loop_box1_force(state, n_walkers, geometry, motion, recording, out)
                     y0 += force_scale * _slope(
                         x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -18447,6 +19377,19 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -18469,6 +19412,8 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -18509,13 +19454,27 @@ def simulate_loop_box2_force(state, n_walkers, geometry, motion, recording, out)
                     y1 += force_scale * _slope(
                         x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -18977,6 +19936,21 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -19001,6 +19975,8 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -19049,13 +20025,29 @@ def simulate_loop_box3_force(state, n_walkers, geometry, motion, recording, out)
                     y2 += force_scale * _slope(
                         x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -19622,6 +20614,23 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -19648,6 +20657,8 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -19704,13 +20715,31 @@ def simulate_loop_box4_force(state, n_walkers, geometry, motion, recording, out)
                     y3 += force_scale * _slope(
                         x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -20382,6 +21411,25 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -20410,6 +21458,8 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -20474,13 +21524,33 @@ def simulate_loop_box5_force(state, n_walkers, geometry, motion, recording, out)
                     y4 += force_scale * _slope(
                         x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -21257,6 +22327,27 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -21287,6 +22378,8 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -21359,13 +22452,35 @@ def simulate_loop_box6_force(state, n_walkers, geometry, motion, recording, out)
                     y5 += force_scale * _slope(
                         x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -22247,6 +23362,29 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -22279,6 +23417,8 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -22359,13 +23499,37 @@ def simulate_loop_box7_force(state, n_walkers, geometry, motion, recording, out)
                     y6 += force_scale * _slope(
                         x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -23352,6 +24516,31 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -23386,6 +24575,8 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -23474,13 +24665,39 @@ def simulate_loop_box8_force(state, n_walkers, geometry, motion, recording, out)
                     y7 += force_scale * _slope(
                         x7, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    y7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -24228,6 +25445,17 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -24248,6 +25476,8 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
         x0 = x[0]
         wrap0 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -24280,13 +25510,26 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
                     y0 += force_scale * _slope(
                         x0, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -24299,6 +25542,21 @@ def simulate_loop_box_targets1_force(state, n_walkers, geometry, motion, recordi
                             c0 = _fold(y0, rl0, rh0)
                     y0 = c0
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -24767,6 +26025,19 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -24789,6 +26060,8 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -24829,13 +26102,28 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
                     y1 += force_scale * _slope(
                         x1, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -24853,6 +26141,22 @@ def simulate_loop_box_targets2_force(state, n_walkers, geometry, motion, recordi
                     y0 = c0
                     y1 = c1
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -25422,6 +26726,21 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -25446,6 +26765,8 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -25494,13 +26815,30 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
                     y2 += force_scale * _slope(
                         x2, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -25523,6 +26861,23 @@ def simulate_loop_box_targets3_force(state, n_walkers, geometry, motion, recordi
                     y1 = c1
                     y2 = c2
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -26193,6 +27548,23 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -26219,6 +27591,8 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -26275,13 +27649,32 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
                     y3 += force_scale * _slope(
                         x3, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -26309,6 +27702,24 @@ def simulate_loop_box_targets4_force(state, n_walkers, geometry, motion, recordi
                     y2 = c2
                     y3 = c3
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -27080,6 +28491,25 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -27108,6 +28538,8 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -27172,13 +28604,34 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
                     y4 += force_scale * _slope(
                         x4, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -27211,6 +28664,25 @@ def simulate_loop_box_targets5_force(state, n_walkers, geometry, motion, recordi
                     y3 = c3
                     y4 = c4
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -28083,6 +29555,27 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -28113,6 +29606,8 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -28185,13 +29680,36 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
                     y5 += force_scale * _slope(
                         x5, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -28229,6 +29747,26 @@ def simulate_loop_box_targets6_force(state, n_walkers, geometry, motion, recordi
                     y4 = c4
                     y5 = c5
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -29202,6 +30740,29 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -29234,6 +30795,8 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -29314,13 +30877,38 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
                     y6 += force_scale * _slope(
                         x6, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -29363,6 +30951,27 @@ def simulate_loop_box_targets7_force(state, n_walkers, geometry, motion, recordi
                     y5 = c5
                     y6 = c6
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    x6 = y6
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -30437,6 +32046,31 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
         inner = ball_radius * (1.0 - SURFACE_MARGIN)
     inner2 = inner * inner if inner > 0.0 else -1.0
     has_targets = True
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -30471,6 +32105,8 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -30559,13 +32195,40 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
                     y7 += force_scale * _slope(
                         x7, fk, fp0, fp1, fp2, ftable, flower, fspacing
                     )
-                # Box faces matter only to a step that starts or ends outside
-                # the band; the common step skips the folds and face products,
-                # whose outcome (nothing) is known there. x_inside: the next
-                # step's start (this step's end, after any fold).
-                y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
-                near = not (x_inside & y_inside)
-                x_inside = y_inside
+                mirror = False  # a box without targets: the band (one branch less)
+                mirror = mirror_only
+                if mirror:
+                    # Only reflecting faces, no step half as long as the box:
+                    # the mirror image below cannot overshoot the opposite
+                    # face, so it is _fold's, taken on every step without a
+                    # branch (a walker near a face folds at random steps:
+                    # branches mispredict) and without the band's tests.
+                    c0 = 2.0 * rl0 - y0 if y0 < rl0 else y0
+                    y0 = 2.0 * rh0 - y0 if y0 > rh0 else c0
+                    c1 = 2.0 * rl1 - y1 if y1 < rl1 else y1
+                    y1 = 2.0 * rh1 - y1 if y1 > rh1 else c1
+                    c2 = 2.0 * rl2 - y2 if y2 < rl2 else y2
+                    y2 = 2.0 * rh2 - y2 if y2 > rh2 else c2
+                    c3 = 2.0 * rl3 - y3 if y3 < rl3 else y3
+                    y3 = 2.0 * rh3 - y3 if y3 > rh3 else c3
+                    c4 = 2.0 * rl4 - y4 if y4 < rl4 else y4
+                    y4 = 2.0 * rh4 - y4 if y4 > rh4 else c4
+                    c5 = 2.0 * rl5 - y5 if y5 < rl5 else y5
+                    y5 = 2.0 * rh5 - y5 if y5 > rh5 else c5
+                    c6 = 2.0 * rl6 - y6 if y6 < rl6 else y6
+                    y6 = 2.0 * rh6 - y6 if y6 > rh6 else c6
+                    c7 = 2.0 * rl7 - y7 if y7 < rl7 else y7
+                    y7 = 2.0 * rh7 - y7 if y7 > rh7 else c7
+                    near = False
+                else:
+                    # Box faces matter only to a step that starts or ends
+                    # outside the band; the common step skips the folds and
+                    # face products, whose outcome (nothing) is known there.
+                    # x_inside: the next step's start (this step's end, after
+                    # any fold).
+                    y_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                    near = not (x_inside & y_inside)
+                    x_inside = y_inside
                 if near:
                     # The mirror image in the face crossed, as _fold makes it,
                     # chosen without a branch per axis (a walker near a face
@@ -30613,6 +32276,28 @@ def simulate_loop_box_targets8_force(state, n_walkers, geometry, motion, recordi
                     y6 = c6
                     y7 = c7
                     x_inside = (((blo0 <= y0) & (y0 <= bhi0)) & ((blo1 <= y1) & (y1 <= bhi1)) & ((blo2 <= y2) & (y2 <= bhi2)) & ((blo3 <= y3) & (y3 <= bhi3)) & ((blo4 <= y4) & (y4 <= bhi4)) & ((blo5 <= y5) & (y5 <= bhi5)) & ((blo6 <= y6) & (y6 <= bhi6)) & ((blo7 <= y7) & (y7 <= bhi7)))
+                # A quiet step: inside the band (or folded, in a box without
+                # absorbing faces), start and end beyond the reach of the only
+                # target, and no reactive, obstacle or periodic surface. Every
+                # test below is then known to fail, so the step skips them on
+                # one branch (the common step otherwise passes eight).
+                r2 = ((y0 - tc0) ** 2 + (y1 - tc1) ** 2 + (y2 - tc2) ** 2 + (y3 - tc3) ** 2 + (y4 - tc4) ** 2 + (y5 - tc5) ** 2 + (y6 - tc6) ** 2 + (y7 - tc7) ** 2)
+                if (
+                    ((not near) | fold_ok)
+                    & plain
+                    & (r2 > reach_0)
+                    & (r1_0 > reach_0)
+                ):
+                    x0 = y0
+                    x1 = y1
+                    x2 = y2
+                    x3 = y3
+                    x4 = y4
+                    x5 = y5
+                    x6 = y6
+                    x7 = y7
+                    r1_0 = r2
+                    continue
                 # 2b. Reactive surfaces (faces, targets, the ball's wall): reflected
                 #     by the Skorokhod push, reacting when the push (local time)
                 #     passes an exponential threshold (_react); a reaction is a
@@ -31457,6 +33142,19 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -31479,6 +33177,8 @@ def simulate_loop_ball2_force(state, n_walkers, geometry, motion, recording, out
         x1 = x[1]
         wrap1 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -32018,6 +33718,21 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -32042,6 +33757,8 @@ def simulate_loop_ball3_force(state, n_walkers, geometry, motion, recording, out
         x2 = x[2]
         wrap2 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -32643,6 +34360,23 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -32669,6 +34403,8 @@ def simulate_loop_ball4_force(state, n_walkers, geometry, motion, recording, out
         x3 = x[3]
         wrap3 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -33332,6 +35068,25 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -33360,6 +35115,8 @@ def simulate_loop_ball5_force(state, n_walkers, geometry, motion, recording, out
         x4 = x[4]
         wrap4 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -34085,6 +35842,27 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -34115,6 +35893,8 @@ def simulate_loop_ball6_force(state, n_walkers, geometry, motion, recording, out
         x5 = x[5]
         wrap5 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -34902,6 +36682,29 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -34934,6 +36737,8 @@ def simulate_loop_ball7_force(state, n_walkers, geometry, motion, recording, out
         x6 = x[6]
         wrap6 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)))
         hit_wall = -1
         frac = 2.0
         step = 0
@@ -35783,6 +37588,31 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
     if not math.isnan(geometry.ball_reactivity):
         inner2 = math.inf  # resolved in block 2b, never as an absorbing wall
     has_targets = n_targets > 0
+    # Quiet steps (KIND == BOX_TARGETS, below) need one target and none of the
+    # surfaces that move a step's end or wrap it.
+    plain = n_targets == 1 and not reactive and n_obstacles == 0 and not periodic
+    # Without absorbing faces a folded step is quiet too (its end is in the box).
+    fold_ok = plain and not absorbing_faces
+    # A box whose faces all reflect (or are absent), with steps shorter than half its
+    # width on every axis: |z| <= NORMAL_BOUND for every normal the generator draws.
+    short_mirror = not (absorbing_faces or reactive or periodic or n_obstacles > 0)
+    step_bound = abs(s0) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh0 - rl0
+    step_bound = abs(s1) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh1 - rl1
+    step_bound = abs(s2) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh2 - rl2
+    step_bound = abs(s3) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh3 - rl3
+    step_bound = abs(s4) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh4 - rl4
+    step_bound = abs(s5) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh5 - rl5
+    step_bound = abs(s6) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh6 - rl6
+    step_bound = abs(s7) + sigma * NORMAL_BOUND
+    short_mirror = short_mirror and 2.0 * step_bound < rh7 - rl7
+    short_mirror = False  # a force's steps have no such bound
     steps_done = 0
 
     for w in range(n_walkers):
@@ -35817,6 +37647,8 @@ def simulate_loop_ball8_force(state, n_walkers, geometry, motion, recording, out
         x7 = x[7]
         wrap7 = 0.0  # periodic widths crossed, for the unwrapped displacement
         x_inside = (((blo0 <= x0) & (x0 <= bhi0)) & ((blo1 <= x1) & (x1 <= bhi1)) & ((blo2 <= x2) & (x2 <= bhi2)) & ((blo3 <= x3) & (x3 <= bhi3)) & ((blo4 <= x4) & (x4 <= bhi4)) & ((blo5 <= x5) & (x5 <= bhi5)) & ((blo6 <= x6) & (x6 <= bhi6)) & ((blo7 <= x7) & (x7 <= bhi7)))
+        # Mirror-only steps need a start in the box; their ends stay in it.
+        mirror_only = short_mirror and (((rl0 <= x0) & (x0 <= rh0)) & ((rl1 <= x1) & (x1 <= rh1)) & ((rl2 <= x2) & (x2 <= rh2)) & ((rl3 <= x3) & (x3 <= rh3)) & ((rl4 <= x4) & (x4 <= rh4)) & ((rl5 <= x5) & (x5 <= rh5)) & ((rl6 <= x6) & (x6 <= rh6)) & ((rl7 <= x7) & (x7 <= rh7)))
         hit_wall = -1
         frac = 2.0
         step = 0

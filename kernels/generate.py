@@ -35,7 +35,7 @@ KINDS = {"box": 0, "box_targets": 1, "ball": 2}
 DIMENSIONS = range(1, 9)
 #: Names the template imports from kernels/walkers.py.
 HELPERS = (
-    "BRIDGE_CUTOFF", "REACH", "SURFACE_MARGIN", "_band", "_cell_next", "_crossing",
+    "BRIDGE_CUTOFF", "NORMAL_BOUND", "REACH", "SURFACE_MARGIN", "_band", "_cell_next", "_crossing",
     "_earliest", "_fold", "_free", "_outside", "_random_state", "_react",
     "_slope", "_store_state", "draw_normal", "draw_uniform",
 )  # fmt: skip

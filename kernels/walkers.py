@@ -190,6 +190,13 @@ def draw_normals(generator, n_steps, dimension):  # type: ignore[no-untyped-def]
 #: docs/kernels.md).
 BRIDGE_CUTOFF = 20.0
 
+#: No standard normal the generator draws exceeds this in magnitude: the ziggurat's
+#: rectangles and wedges give |z| < r = 3.6542 (ziggurat_nor_r), its tail r + xx with
+#: xx = -log1p(-u) / r and a uniform u <= 1 - 2^-53, so xx <= 53 ln 2 / r = 10.05 and
+#: |z| <= 13.71 (kernels/rng.py). The step loop uses it to know that no step of a
+#: reflecting box can overshoot the opposite face (``short_mirror``).
+NORMAL_BOUND = 14.0
+
 #: See _crossing: 1 + 1e-12 exceeds the rounding error of u * cubic (a few 1e-16) and
 #: of exp (under one unit in the last place).
 EXP_MARGIN = 1.0 + 1e-12

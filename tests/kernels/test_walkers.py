@@ -24,11 +24,15 @@ from typing import Any
 import numpy as np
 import pytest
 from numba import njit
+from numba.np.random._constants import wi_double, ziggurat_nor_inv_r, ziggurat_nor_r
 from numpy.typing import NDArray
 from scipy import special, stats
 
+from kernels import _loops
 from kernels.walkers import (
     BOX,
+    BOX_TARGETS,
+    NORMAL_BOUND,
     _band,
     _hit_fraction,
     _normal,
@@ -863,3 +867,44 @@ def test_band_is_where_every_face_test_fails() -> None:
                 assert (x - ah) * (y - ah) > cut, (ah, cut, x, y)
                 checked += 1
     assert checked > 10_000, checked
+
+
+def test_normal_bound_exceeds_every_normal_drawn() -> None:
+    # NORMAL_BOUND must exceed every |z| the ziggurat (kernels/rng.py) can return: the
+    # candidates of its layers are below wi_double[0] 2^52 (layer 0, the widest), and
+    # its tail returns r + xx, xx = -log1p(-u) / r, largest for the largest uniform
+    # u = 1 - 2^-53 (numpy's 53-bit doubles).
+    tail = ziggurat_nor_r - ziggurat_nor_inv_r * math.log1p(-(1.0 - 2.0**-53))
+    assert tail < NORMAL_BOUND, tail
+    assert float(np.max(wi_double)) * 2.0**52 < NORMAL_BOUND
+
+
+@pytest.mark.parametrize("dim", [1, 2, 3])
+def test_mirror_only_steps_identical_to_band_and_fold(
+    dim: int, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # In a box whose faces all reflect and whose steps are all shorter than half its
+    # width, the loop takes the mirror image on every step without the band's tests
+    # (short_mirror in kernels/step.py), exact only because no step can overshoot the
+    # opposite face. The compiled loop takes that path; its uncompiled copy, with
+    # NORMAL_BOUND so high that no box qualifies, the band and _fold: they must agree
+    # to the last bit, stream included. Starts next to faces, so walkers fold often.
+    box = Domain(
+        start=(0.03, 1.17, 0.5)[:dim], lower=(0.0,) * dim,
+        upper=(1.0, 1.2, 1.5)[:dim], absorbing_lower=(False,) * dim,
+        absorbing_upper=(False,) * dim, diffusivity=0.5, drift=(0.3, -0.2, 0.1)[:dim],
+        dt=1e-3, n_steps=200, bridge=True, survival_times=(0.05, 0.2),
+        target_centers=((0.5,) * dim,), target_radii=(0.2,),
+    )  # fmt: skip
+    sigma = math.sqrt(2.0 * box.diffusivity * box.dt)
+    for axis in range(dim):
+        bound = abs(box.drift[axis]) * box.dt + sigma * NORMAL_BOUND
+        assert 2.0 * bound < box.upper[axis] - box.lower[axis], "not a short-step box"
+    compiled_state = stream(41)
+    python_state = stream(41)
+    compiled = run(box, 20, compiled_state)
+    monkeypatch.setattr(_loops, "NORMAL_BOUND", math.inf)
+    python = run(box, 20, python_state, kernel=uncompiled_loop(BOX_TARGETS, dim))
+    assert_runs_identical(compiled, python)
+    np.testing.assert_array_equal(compiled_state, python_state)
+    assert np.any(compiled.wall >= 0)
