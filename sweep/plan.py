@@ -252,45 +252,115 @@ def coordinate_columns(sweep: Sweep) -> dict[str, list[Any]]:
     ``motion.diffusivity`` becomes ``diffusivity``; ``domain.upper`` becomes
     ``upper_x``, ``upper_y``, ...; ``domain.targets.0.radius`` becomes
     ``target_0_radius``. A name that would repeat gets its table as prefix.
+
+    A whole table swept at once gets the columns its parts would get if swept one
+    by one: ``domain.walls`` one per wall (``wall_x_lower``, ...), ``domain.targets``
+    and ``domain.obstacles`` one per entry and key (``target_0_center_x``,
+    ``target_0_radius``, ...); a part absent at a point is NaN there (``""`` in a
+    text column). A column of numbers is float; of numeric vectors, split per axis
+    (NaN past a shorter vector's end); any other mixture (``"uniform"`` beside
+    points, a wall kind beside ``{ reactivity = 2.0 }``) is one text column, each
+    value as written (tables and lists as JSON text).
     """
     axes = axis_names(sweep.dimension)
-    columns: dict[str, list[Any]] = {}
-    leaves = [_leaf_name(key) for key in sweep.swept]
+    parts: list[tuple[str, str, list[Any]]] = []  # (key, leaf name, value per point)
     for j, key in enumerate(sweep.swept):
-        name = leaves[j]
-        if leaves.count(name) > 1:
-            name = key.replace(".", "_")
         values = [v[j] for v in sweep.values]
-        if any(isinstance(v, list) for v in values):
-            width = max(len(v) if isinstance(v, list) else 1 for v in values)
+        for sub, sub_values in _split_tables(key, values):
+            parts.append((key, _leaf_name(sub), sub_values))
+    leaves = [leaf for _, leaf, _ in parts]
+    columns: dict[str, list[Any]] = {}
+    for key, leaf, values in parts:
+        # Two keys with one leaf name (domain.lower, force.lower): prefix the table.
+        name = f"{key.split('.')[0]}_{leaf}" if leaves.count(leaf) > 1 else leaf
+        vectors = _as_vectors(values, sweep.dimension)
+        if vectors is not None:
+            width = max(len(v) for v in vectors)
             for i in range(width):
                 label = axes[i] if i < len(axes) else str(i)
                 columns[f"{name}_{label}"] = [
-                    float(v[i] if isinstance(v, list) else v) for v in values
+                    float(v[i]) if i < len(v) else math.nan for v in vectors
                 ]
+        elif all(v is _ABSENT or _is_number(v) for v in values):
+            columns[name] = [math.nan if v is _ABSENT else float(v) for v in values]
         else:
-            columns[name] = [_coordinate_value(v) for v in values]
+            columns[name] = [_text(v) for v in values]
     return columns
+
+
+#: A part of a swept table missing at a point (a wall not named, fewer obstacles).
+_ABSENT: Any = object()
+
+
+def _split_tables(key: str, values: list[Any]) -> list[tuple[str, list[Any]]]:
+    """A swept whole table as its sweepable parts: (dotted key, value per point)."""
+    section_key = key.split(".")[1:]
+    if section_key == ["walls"] and all(isinstance(v, dict) for v in values):
+        names = list(dict.fromkeys(w for v in values for w in v))
+        return [(f"{key}.{w}", [v.get(w, _ABSENT) for v in values]) for w in names]
+    if section_key in (["targets"], ["obstacles"]) and all(
+        isinstance(v, list) and all(isinstance(e, dict) for e in v) for v in values
+    ):
+        found = dict.fromkeys(
+            (i, field) for v in values for i, e in enumerate(v) for field in e
+        )
+        return [
+            (
+                f"{key}.{i}.{field}",
+                [v[i].get(field, _ABSENT) if i < len(v) else _ABSENT for v in values],
+            )
+            # entry by entry, each entry's keys in the order first written
+            for i, field in sorted(found, key=lambda f: f[0])
+        ]
+    return [(key, values)]
+
+
+def _is_number(value: Any) -> bool:
+    """A number or an infinity spelled as text (stored as a float)."""
+    if isinstance(value, str):
+        return value.strip() in ("inf", "+inf", "-inf")
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _as_vectors(values: list[Any], dimension: int) -> list[list[Any]] | None:
+    """The values as lists of numbers (absent ones empty), or None if any is not.
+
+    In one dimension a bare number stands for a one-element list (as the definition
+    allows), so ``[0.2, [0.3]]`` is one vector column; elsewhere a bare number beside
+    lists makes the column text, never a number repeated along every axis.
+    """
+    if not any(isinstance(v, list) for v in values):
+        return None
+    vectors: list[list[Any]] = []
+    for v in values:
+        if v is _ABSENT:
+            vectors.append([])
+        elif isinstance(v, list) and all(_is_number(x) for x in v):
+            vectors.append(v)
+        elif dimension == 1 and _is_number(v):
+            vectors.append([v])
+        else:
+            return None
+    return vectors
 
 
 def _leaf_name(key: str) -> str:
     parts = key.split(".")
-    if parts[1] == "targets":
+    if parts[1] == "targets" and len(parts) == 4:
         return f"target_{parts[2]}_{parts[3]}"
-    if parts[1] == "obstacles":
+    if parts[1] == "obstacles" and len(parts) == 4:
         return f"obstacle_{parts[2]}_{parts[3]}"
     if parts[1] == "walls" and len(parts) == 4:
         return f"{parts[2]}_{parts[3]}"  # x_upper_reactivity
-    if parts[1] == "walls":
+    if parts[1] == "walls" and len(parts) == 3:
         return f"wall_{parts[2]}"
     return parts[-1]
 
 
-def _coordinate_value(value: Any) -> Any:
-    if isinstance(value, str) and value.strip() in ("inf", "+inf", "-inf"):
-        return float(value)  # a reactivity swept up to "inf" stays a numeric column
-    if isinstance(value, bool) or isinstance(value, str):
+def _text(value: Any) -> str:
+    """A value of a text column: a string as written, anything else as JSON text."""
+    if value is _ABSENT:
+        return ""
+    if isinstance(value, str):
         return value
-    if isinstance(value, int | float):
-        return float(value)
     return json.dumps(value)
