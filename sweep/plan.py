@@ -246,12 +246,24 @@ def make_plan(sweep: Sweep) -> Plan:
     return Plan(sweep=sweep, tasks=tuple(tasks))
 
 
+#: Names a parameter coordinate must not take: the store's dimensions
+#: (sweep.store.layout) and the variables of every statistic's result (sweep.stats),
+#: which carry the point coordinates; a clash breaks xarray's merge.
+#: tests/store/test_layout.py and tests/test_swept_values.py keep these in step.
+RESERVED_NAMES = frozenset(
+    ("point", "walker", "chunk", "axis", "time", "wall", "fpt_bin", "snapshot")
+    + ("estimate", "stderr", "lower", "upper", "n")
+)
+
+
 def coordinate_columns(sweep: Sweep) -> dict[str, list[Any]]:
     """Per-point coordinate values of every swept key, vectors split per axis.
 
     ``motion.diffusivity`` becomes ``diffusivity``; ``domain.upper`` becomes
     ``upper_x``, ``upper_y``, ...; ``domain.targets.0.radius`` becomes
-    ``target_0_radius``. A name that would repeat gets its table as prefix.
+    ``target_0_radius``. A name that would repeat, or one of
+    :data:`RESERVED_NAMES` (``domain.wall``, ``force.axis``, ``force.upper``), gets
+    its table as prefix (``domain_wall``, ``force_axis``, ``force_upper``).
 
     A whole table swept at once gets the columns its parts would get if swept one
     by one: ``domain.walls`` one per wall (``wall_x_lower``, ...), ``domain.targets``
@@ -271,8 +283,10 @@ def coordinate_columns(sweep: Sweep) -> dict[str, list[Any]]:
     leaves = [leaf for _, leaf, _ in parts]
     columns: dict[str, list[Any]] = {}
     for key, leaf, values in parts:
-        # Two keys with one leaf name (domain.lower, force.lower): prefix the table.
-        name = f"{key.split('.')[0]}_{leaf}" if leaves.count(leaf) > 1 else leaf
+        # Two keys with one leaf name (domain.lower, force.lower), or a reserved
+        # leaf (domain.wall, force.axis, force.upper): prefix the table.
+        clash = leaves.count(leaf) > 1 or leaf in RESERVED_NAMES
+        name = f"{key.split('.')[0]}_{leaf}" if clash else leaf
         vectors = _as_vectors(values, sweep.dimension)
         if vectors is not None:
             width = max(len(v) for v in vectors)
