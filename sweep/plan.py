@@ -283,16 +283,20 @@ def coordinate_columns(sweep: Sweep) -> dict[str, list[Any]]:
     leaves = [leaf for _, leaf, _ in parts]
     columns: dict[str, list[Any]] = {}
     for key, leaf, values in parts:
-        # Two keys with one leaf name (domain.lower, force.lower), or a reserved
-        # leaf (domain.wall, force.axis, force.upper): prefix the table.
-        clash = leaves.count(leaf) > 1 or leaf in RESERVED_NAMES
-        name = f"{key.split('.')[0]}_{leaf}" if clash else leaf
         vectors = _as_vectors(values, sweep.dimension)
+        labels = [""]
         if vectors is not None:
             width = max(len(v) for v in vectors)
-            for i in range(width):
-                label = axes[i] if i < len(axes) else str(i)
-                columns[f"{name}_{label}"] = [
+            labels = [f"_{axes[i]}" if i < len(axes) else f"_{i}" for i in range(width)]
+        # Two keys with one leaf name (domain.lower, force.lower), or a reserved
+        # name (domain.wall, force.axis, a scalar force.upper): prefix the table.
+        clash = leaves.count(leaf) > 1 or any(
+            leaf + label in RESERVED_NAMES for label in labels
+        )
+        name = f"{key.split('.')[0]}_{leaf}" if clash else leaf
+        if vectors is not None:
+            for i, label in enumerate(labels):
+                columns[name + label] = [
                     float(v[i]) if i < len(v) else math.nan for v in vectors
                 ]
         elif all(v is _ABSENT or _is_number(v) for v in values):

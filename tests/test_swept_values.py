@@ -340,3 +340,16 @@ def test_whole_target_list_splits_per_entry_and_key() -> None:
     # An entry absent at a point is NaN there.
     assert math.isnan(columns["obstacle_1_radius"][0])
     assert columns["obstacle_1_center_y"][1] == 0.8
+
+
+def test_reserved_names_take_their_table_as_prefix() -> None:
+    """A scalar named like a statistic's variable (force.upper: ``upper``) is
+    prefixed; a vector split per axis (domain.upper: ``upper_x``) is not."""
+    scalar = coordinate_columns(
+        parse_spec(definition("grid", {"force.upper": [1.0, 2.0]}, TABLE))
+    )
+    assert list(scalar) == ["force_upper"]
+    vector = coordinate_columns(
+        parse_spec(definition("grid", {"domain.upper": [[1.0, 1.0], [2.0, 1.0]]}))
+    )
+    assert list(vector) == ["upper_x", "upper_y"]
