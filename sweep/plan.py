@@ -246,51 +246,139 @@ def make_plan(sweep: Sweep) -> Plan:
     return Plan(sweep=sweep, tasks=tuple(tasks))
 
 
+#: Names a parameter coordinate must not take: the store's dimensions
+#: (sweep.store.layout) and the variables of every statistic's result (sweep.stats),
+#: which carry the point coordinates; a clash breaks xarray's merge.
+#: tests/store/test_layout.py and tests/test_swept_values.py keep these in step.
+RESERVED_NAMES = frozenset(
+    ("point", "walker", "chunk", "axis", "time", "wall", "fpt_bin", "snapshot")
+    + ("estimate", "stderr", "lower", "upper", "n")
+)
+
+
 def coordinate_columns(sweep: Sweep) -> dict[str, list[Any]]:
     """Per-point coordinate values of every swept key, vectors split per axis.
 
     ``motion.diffusivity`` becomes ``diffusivity``; ``domain.upper`` becomes
     ``upper_x``, ``upper_y``, ...; ``domain.targets.0.radius`` becomes
-    ``target_0_radius``. A name that would repeat gets its table as prefix.
+    ``target_0_radius``. A name that would repeat, or one of
+    :data:`RESERVED_NAMES` (``domain.wall``, ``force.axis``, ``force.upper``), gets
+    its table as prefix (``domain_wall``, ``force_axis``, ``force_upper``).
+
+    A whole table swept at once gets the columns its parts would get if swept one
+    by one: ``domain.walls`` one per wall (``wall_x_lower``, ...), ``domain.targets``
+    and ``domain.obstacles`` one per entry and key (``target_0_center_x``,
+    ``target_0_radius``, ...); a part absent at a point is NaN there (``""`` in a
+    text column). A column of numbers is float; of numeric vectors, split per axis
+    (NaN past a shorter vector's end); any other mixture (``"uniform"`` beside
+    points, a wall kind beside ``{ reactivity = 2.0 }``) is one text column, each
+    value as written (tables and lists as JSON text).
     """
     axes = axis_names(sweep.dimension)
-    columns: dict[str, list[Any]] = {}
-    leaves = [_leaf_name(key) for key in sweep.swept]
+    parts: list[tuple[str, str, list[Any]]] = []  # (key, leaf name, value per point)
     for j, key in enumerate(sweep.swept):
-        name = leaves[j]
-        if leaves.count(name) > 1:
-            name = key.replace(".", "_")
         values = [v[j] for v in sweep.values]
-        if any(isinstance(v, list) for v in values):
-            width = max(len(v) if isinstance(v, list) else 1 for v in values)
-            for i in range(width):
-                label = axes[i] if i < len(axes) else str(i)
-                columns[f"{name}_{label}"] = [
-                    float(v[i] if isinstance(v, list) else v) for v in values
+        for sub, sub_values in _split_tables(key, values):
+            parts.append((key, _leaf_name(sub), sub_values))
+    leaves = [leaf for _, leaf, _ in parts]
+    columns: dict[str, list[Any]] = {}
+    for key, leaf, values in parts:
+        vectors = _as_vectors(values, sweep.dimension)
+        labels = [""]
+        if vectors is not None:
+            width = max(len(v) for v in vectors)
+            labels = [f"_{axes[i]}" if i < len(axes) else f"_{i}" for i in range(width)]
+        # Two keys with one leaf name (domain.lower, force.lower), or a reserved
+        # name (domain.wall, force.axis, a scalar force.upper): prefix the table.
+        clash = leaves.count(leaf) > 1 or any(
+            leaf + label in RESERVED_NAMES for label in labels
+        )
+        name = f"{key.split('.')[0]}_{leaf}" if clash else leaf
+        if vectors is not None:
+            for i, label in enumerate(labels):
+                columns[name + label] = [
+                    float(v[i]) if i < len(v) else math.nan for v in vectors
                 ]
+        elif all(v is _ABSENT or _is_number(v) for v in values):
+            columns[name] = [math.nan if v is _ABSENT else float(v) for v in values]
         else:
-            columns[name] = [_coordinate_value(v) for v in values]
+            columns[name] = [_text(v) for v in values]
     return columns
+
+
+#: A part of a swept table missing at a point (a wall not named, fewer obstacles).
+_ABSENT: Any = object()
+
+
+def _split_tables(key: str, values: list[Any]) -> list[tuple[str, list[Any]]]:
+    """A swept whole table as its sweepable parts: (dotted key, value per point)."""
+    section_key = key.split(".")[1:]
+    if section_key == ["walls"] and all(isinstance(v, dict) for v in values):
+        names = list(dict.fromkeys(w for v in values for w in v))
+        return [(f"{key}.{w}", [v.get(w, _ABSENT) for v in values]) for w in names]
+    if section_key in (["targets"], ["obstacles"]) and all(
+        isinstance(v, list) and all(isinstance(e, dict) for e in v) for v in values
+    ):
+        found = dict.fromkeys(
+            (i, field) for v in values for i, e in enumerate(v) for field in e
+        )
+        return [
+            (
+                f"{key}.{i}.{field}",
+                [v[i].get(field, _ABSENT) if i < len(v) else _ABSENT for v in values],
+            )
+            # entry by entry, each entry's keys in the order first written
+            for i, field in sorted(found, key=lambda f: f[0])
+        ]
+    return [(key, values)]
+
+
+def _is_number(value: Any) -> bool:
+    """A number or an infinity spelled as text (stored as a float)."""
+    if isinstance(value, str):
+        return value.strip() in ("inf", "+inf", "-inf")
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _as_vectors(values: list[Any], dimension: int) -> list[list[Any]] | None:
+    """The values as lists of numbers (absent ones empty), or None if any is not.
+
+    In one dimension a bare number stands for a one-element list (as the definition
+    allows), so ``[0.2, [0.3]]`` is one vector column; elsewhere a bare number beside
+    lists makes the column text, never a number repeated along every axis.
+    """
+    if not any(isinstance(v, list) for v in values):
+        return None
+    vectors: list[list[Any]] = []
+    for v in values:
+        if v is _ABSENT:
+            vectors.append([])
+        elif isinstance(v, list) and all(_is_number(x) for x in v):
+            vectors.append(v)
+        elif dimension == 1 and _is_number(v):
+            vectors.append([v])
+        else:
+            return None
+    return vectors
 
 
 def _leaf_name(key: str) -> str:
     parts = key.split(".")
-    if parts[1] == "targets":
+    if parts[1] == "targets" and len(parts) == 4:
         return f"target_{parts[2]}_{parts[3]}"
-    if parts[1] == "obstacles":
+    if parts[1] == "obstacles" and len(parts) == 4:
         return f"obstacle_{parts[2]}_{parts[3]}"
     if parts[1] == "walls" and len(parts) == 4:
         return f"{parts[2]}_{parts[3]}"  # x_upper_reactivity
-    if parts[1] == "walls":
+    if parts[1] == "walls" and len(parts) == 3:
         return f"wall_{parts[2]}"
     return parts[-1]
 
 
-def _coordinate_value(value: Any) -> Any:
-    if isinstance(value, str) and value.strip() in ("inf", "+inf", "-inf"):
-        return float(value)  # a reactivity swept up to "inf" stays a numeric column
-    if isinstance(value, bool) or isinstance(value, str):
+def _text(value: Any) -> str:
+    """A value of a text column: a string as written, anything else as JSON text."""
+    if value is _ABSENT:
+        return ""
+    if isinstance(value, str):
         return value
-    if isinstance(value, int | float):
-        return float(value)
     return json.dumps(value)

@@ -172,3 +172,22 @@ def test_every_statistic_takes_one_point(small_store: pathlib.Path, name: str) -
     if isinstance(whole, xr.DataArray):
         whole, single = whole.to_dataset(name=name), single.to_dataset(name=name)
     xr.testing.assert_allclose(single, whole, rtol=RTOL_F64)
+
+
+def test_no_statistic_names_a_variable_like_a_parameter(
+    small_store: pathlib.Path,
+) -> None:
+    """Results carry the point coordinates, so a statistic's variable named like a
+    swept parameter's coordinate (``force.upper`` is ``upper``) breaks the merge
+    unless plan.RESERVED_NAMES makes that parameter ``force_upper``."""
+    from sweep.plan import RESERVED_NAMES, _leaf_name
+    from sweep.spec import SECTIONS, SWEEPABLE_SECTIONS
+
+    leaves = {_leaf_name(f"{s}.{k}") for s in SWEEPABLE_SECTIONS for k in SECTIONS[s]}
+    ds = sweep.open(small_store)
+    for name in STATISTICS:
+        result = call(name, ds)
+        if isinstance(result, xr.DataArray):
+            result = result.to_dataset(name=result.name or name)
+        names = set(result.variables) - set(ds.variables)
+        assert names & leaves <= RESERVED_NAMES, name

@@ -129,3 +129,13 @@ def test_chunk_keys_follow_the_arrays_own_encoding(
         if p.is_file() and p.name != "zarr.json"
     ]
     assert written == [expected]
+
+
+def test_parameter_coordinates_avoid_every_dimension_name() -> None:
+    """plan.RESERVED_NAMES lists every dimension of the array table (bins aside),
+    so a swept key named like one (domain.wall, force.axis) gets another name."""
+    from sweep.plan import RESERVED_NAMES
+    from sweep.store.layout import ARRAYS, BINS
+
+    dims = {d for spec in ARRAYS for d in spec.dims if d != BINS}
+    assert dims <= RESERVED_NAMES
