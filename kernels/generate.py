@@ -65,7 +65,9 @@ def _dedent(lines: list[str], by: int) -> list[str]:
     return [line[by:] if line.strip() else "" for line in lines]
 
 
-_CONDITION = re.compile(r"^\s*(KIND|DIM|FORCE)\s*(==|!=|>=|<=|>|<)\s*(\w+)\s*$")
+_CONDITION = re.compile(
+    r"^\s*(KIND|DIM|FORCE|SURFACES)\s*(==|!=|>=|<=|>|<)\s*(\w+)\s*$"
+)
 _COMPARE = {
     "==": int.__eq__, "!=": int.__ne__, ">=": int.__ge__, "<=": int.__le__,
     ">": int.__gt__, "<": int.__lt__,
@@ -179,11 +181,17 @@ def _functions(source: str) -> list[tuple[str, str]]:
     ]
 
 
-def specialise(source: str, kind: str, dim: int, force: int = 0) -> str:
+def specialise(
+    source: str, kind: str, dim: int, force: int = 0, surfaces: int = 1
+) -> str:
     """Every template function for one kind of domain and dimension, without (0) or
-    with (1) a force field."""
-    env = {"KIND": KINDS[kind], "DIM": dim, "FORCE": force, **KINDS_CONSTANTS}
-    suffix = f"_{kind}{dim}" + ("_force" if force else "")
+    with (1) a force field, without (0) or with (1) the code of reactive, periodic
+    and obstacle surfaces."""
+    env = {
+        "KIND": KINDS[kind], "DIM": dim, "FORCE": force, "SURFACES": surfaces,
+        **KINDS_CONSTANTS,
+    }  # fmt: skip
+    suffix = f"_{kind}{dim}" + VARIANTS[force, surfaces][0]
     functions = _functions(source)
     out = []
     for _, text in functions:
@@ -215,6 +223,15 @@ def specialise(source: str, kind: str, dim: int, force: int = 0) -> str:
     return "\n\n\n".join([out[0], *used])
 
 
+#: (FORCE, SURFACES) -> (suffix of the generated names, name of their table in
+#: _loops.py). Loops without surfaces are the fast common case; a force's loops keep
+#: the surfaces' code (a force's step costs more than their tests).
+VARIANTS = {
+    (0, 0): ("", "LOOPS"),
+    (0, 1): ("_surfaces", "SURFACE_LOOPS"),
+    (1, 1): ("_force", "FORCE_LOOPS"),
+}
+
 #: The template's names of the kinds (values of KIND).
 KINDS_CONSTANTS = {"BOX": 0, "BOX_TARGETS": 1, "BALL": 2}
 
@@ -241,7 +258,8 @@ def generate() -> str:
         "EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).",
         "",
         "One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,",
-        "``FORCE_LOOPS[kind, dim]`` those with a force field.",
+        "``SURFACE_LOOPS[kind, dim]`` those for reactive, periodic or obstacle surfaces,",
+        "``FORCE_LOOPS[kind, dim]`` those with a force field (and any surface).",
         f"Digest of template, generator, kernels/walkers.py and rng.py: {digest()}",
         '"""',
         "",
@@ -256,30 +274,25 @@ def generate() -> str:
         *(f"    {name}," for name in HELPERS),
         ")",
     ]
-    tables: tuple[list[str], list[str]] = ([], [])
-    for force in (0, 1):
-        tail = "_force" if force else ""
+    tables: list[tuple[str, list[str]]] = []
+    for (force, surfaces), (tail, table) in VARIANTS.items():
+        rows = []
         for kind, value in KINDS.items():
             for dim in DIMENSIONS:
                 if kind == "ball" and dim < 2:
                     continue
-                parts += ["", "", specialise(source, kind, dim, force)]
-                tables[force].append(
-                    f"    ({value}, {dim}): simulate_loop_{kind}{dim}{tail},"
-                )
-    parts += [
-        "",
-        "",
-        "#: (kind, dimension) -> its compiled loop.",
-        "LOOPS = {",
-        *tables[0],
-        "}",
-        "",
-        "#: (kind, dimension) -> its compiled loop with a force field (FORCE == 1).",
-        "FORCE_LOOPS = {",
-        *tables[1],
-        "}",
-    ]
+                parts += ["", "", specialise(source, kind, dim, force, surfaces)]
+                rows.append(f"    ({value}, {dim}): simulate_loop_{kind}{dim}{tail},")
+        tables.append((table, rows))
+    for table, rows in tables:
+        parts += [
+            "",
+            "",
+            f"#: (kind, dimension) -> its compiled loop ({table}).",
+            f"{table} = {{",
+            *rows,
+            "}",
+        ]
     return "\n".join(parts) + "\n"
 
 

@@ -14,9 +14,11 @@ Python with three mechanical rules, so it reads top to bottom as the algorithm:
   (sums from the first axis on, in order; ``all`` joins booleans with ``&``, one
   branch on the whole).
 * ``if static(COND):`` (with an optional ``else:``) is decided when generating, from
-  ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``), ``DIM`` and ``FORCE`` (0: no force,
-  1: a potential, ``kernels.inputs.Force``): each loop holds only the code of its own
-  kind of domain, and the loops without a force hold none of its code.
+  ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``), ``DIM``, ``FORCE`` (0: no force,
+  1: a potential, ``kernels.inputs.Force``) and ``SURFACES`` (0: no reactive,
+  periodic or obstacle surface; 1: any): each loop holds only the code of its own
+  kind of domain, the loops without a force hold none of its code, and the loops
+  without surfaces none of theirs (their flags are constants there).
 * Every function here is emitted once per (kind, dimension) under a suffixed name, and
   calls between them are renamed to match.
 
@@ -50,6 +52,9 @@ before (``benchmarks/bit_identity.py``). Two shortcuts of a box with targets ski
 tests that are known to fail, and a new kind must switch both off when present: the
 quiet step (``plain``: one absorbing target and nothing else near) and mirror-only
 steps (``short_mirror``: reflecting faces only, no step half as long as the box).
+And it lives in the surface loops only: its flag is a constant under
+``static(SURFACES == 0)``, and ``kernels.walkers.loop_table`` sends a geometry that
+has it to ``SURFACE_LOOPS``.
 """
 
 
@@ -183,6 +188,15 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
     )
     n_obstacles = obstacle_radius.shape[0]
     record_displacement = out.displacement.shape[0] > 0
+    if static(SURFACES == 0):
+        # The loops for geometries without reactive, periodic or obstacle surfaces
+        # and without displacement output (kernels.walkers.simulate picks them): the
+        # flags are constants, so the compiler drops those blocks from the step. Their
+        # tests, though never taken, cost the 1-D interval 13-17 % (paired A/B).
+        reactive = False
+        periodic = False
+        n_obstacles = 0
+        record_displacement = False
     reach_0 = reach2[0] if n_targets > 0 else -1.0
     ball_r2 = ball_radius * ball_radius
     if bridge:

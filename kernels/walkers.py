@@ -275,10 +275,30 @@ def simulate(
         kind = BOX_TARGETS
     else:
         kind = BOX
-    # Loops with a force are separate variants: those without stay as they were.
-    loops = _loops.LOOPS if motion.force.kind == inputs.NO_FORCE else _loops.FORCE_LOOPS
-    loop = loops[kind, geometry.lower.shape[0]]
+    loop = loop_table(geometry, motion, out)[kind, geometry.lower.shape[0]]
     return loop(state, n_walkers, geometry, motion, recording, out)  # type: ignore[no-any-return]
+
+
+def loop_table(geometry: Geometry, motion: Motion, out: Outputs) -> dict:  # type: ignore[type-arg]
+    """The table of generated loops (kernels/_loops.py) for these inputs.
+
+    Loops with a force, and loops for reactive, periodic or obstacle surfaces (or a
+    displacement output), are separate variants: the common loops hold none of their
+    code, which costs plain steps even when never taken. The test is conservative:
+    anything else than a plain geometry gets the loops that handle every surface.
+    """
+    if motion.force.kind != inputs.NO_FORCE:
+        return _loops.FORCE_LOOPS  # type: ignore[no-any-return]
+    plain = (
+        np.isnan(geometry.reactivity_lower).all()
+        and np.isnan(geometry.reactivity_upper).all()
+        and not np.any(geometry.periodic)
+        and np.isnan(geometry.target_reactivity).all()
+        and math.isnan(geometry.ball_reactivity)
+        and geometry.obstacle_radius.shape[0] == 0
+        and out.displacement.shape[0] == 0
+    )
+    return _loops.LOOPS if plain else _loops.SURFACE_LOOPS  # type: ignore[no-any-return]
 
 
 #: Kinds of domain, each stepped by its own compiled loops (KIND in kernels/step.py):

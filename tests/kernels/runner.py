@@ -171,11 +171,13 @@ def run(
     return Run(*out, steps=int(steps))
 
 
-def uncompiled_loop(kind: int, dim: int) -> Callable[..., Any]:
+def uncompiled_loop(kind: int, dim: int, surfaces: bool = False) -> Callable[..., Any]:
     """The generated step loop for ``kind`` (BOX, BOX_TARGETS or BALL) and ``dim``
     axes, uncompiled (its ``py_func``), calling the compiled helpers; ``simulate``
-    itself only dispatches to a compiled loop."""
-    return _loops.LOOPS[kind, dim].py_func  # type: ignore[no-any-return]
+    itself only dispatches to a compiled loop. ``surfaces``: the variant for
+    reactive, periodic or obstacle surfaces (``kernels.walkers.loop_table``)."""
+    table = _loops.SURFACE_LOOPS if surfaces else _loops.LOOPS
+    return table[kind, dim].py_func  # type: ignore[no-any-return]
 
 
 def assert_runs_identical(a: Run, b: Run) -> None:

@@ -313,5 +313,5 @@ def test_python_loop_identical_to_compiled(kind: int, domain: Domain) -> None:
     """The generated loop run as Python (calling the compiled helpers) gives the
     compiled loop's numbers bit for bit, for the new surfaces too."""
     compiled = run(domain, 40, 26)
-    python = run(domain, 40, 26, kernel=uncompiled_loop(kind, 2))
+    python = run(domain, 40, 26, kernel=uncompiled_loop(kind, 2, surfaces=True))
     assert_runs_identical(compiled, python)
