@@ -10,7 +10,7 @@ infinities are allowed (TOML's bare ``inf`` too).
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from typing import Any
 
 from sweep.spec.context import Context, short_int, toml_text
@@ -87,3 +87,37 @@ def boolean(ctx: Context, value: Any, key: str) -> bool:
     if not isinstance(value, bool):
         raise ctx.fail(key, f"must be true or false; got {toml_text(value)}.")
     return value
+
+
+def balls(
+    ctx: Context,
+    table: dict[str, Any],
+    name: str,
+    allowed: Sequence[str],
+    dimension: int,
+) -> Iterator[tuple[str, dict[str, Any], tuple[float, ...], float]]:
+    """``domain.<name>``: a list of tables ``{ center = [...], radius = ... }`` (plus
+    the other ``allowed`` keys); per entry its key (``domain.<name>.<i>``), the table,
+    the centre (``dimension`` numbers) and the radius (> 0), yielded one entry at a
+    time so the caller checks each entry's placement before the next is read (the
+    order of the messages)."""
+    raw = table.get(name, [])
+    if not isinstance(raw, list):
+        raise ctx.fail(
+            f"domain.{name}", f"must be a list of tables; got {toml_text(raw)}."
+        )
+    for i, entry in enumerate(raw):
+        key = f"domain.{name}.{i}"
+        if not isinstance(entry, dict):
+            raise ctx.fail(
+                key,
+                f"must be a table {{ center = [...], radius = ... }}; got {toml_text(entry)}.",
+            )
+        ctx.keys(entry, allowed, key)
+        center = vector(
+            ctx, ctx.required(entry, "center", key), f"{key}.center", dimension
+        )
+        radius = number(
+            ctx, ctx.required(entry, "radius", key), f"{key}.radius", positive=True
+        )
+        yield key, entry, center, radius

@@ -16,7 +16,7 @@ from sweep.spec.context import Context, toml_text
 from sweep.spec.model import MAX_DIMENSION, Domain, Target, axis_names, distance
 from sweep.spec.sections import surfaces
 from sweep.spec.sections.section import Section
-from sweep.spec.values import choice, number, vector
+from sweep.spec.values import balls, choice, number, vector
 
 SECTION = Section(
     "domain",
@@ -226,26 +226,10 @@ def _targets(
 ) -> tuple[Target, ...]:
     """``domain.targets``: absorbing (or reactive) balls, each centred inside
     ``domain``."""
-    targets = table.get("targets", [])
-    if not isinstance(targets, list):
-        raise ctx.fail(
-            "domain.targets", f"must be a list of tables; got {toml_text(targets)}."
-        )
     parsed: list[Target] = []
-    for i, target in enumerate(targets):
-        key = f"domain.targets.{i}"
-        if not isinstance(target, dict):
-            raise ctx.fail(
-                key,
-                f"must be a table {{ center = [...], radius = ... }}; got {toml_text(target)}.",
-            )
-        ctx.keys(target, TARGET_KEYS, key)
-        center = vector(
-            ctx, ctx.required(target, "center", key), f"{key}.center", dimension
-        )
-        radius = number(
-            ctx, ctx.required(target, "radius", key), f"{key}.radius", positive=True
-        )
+    for key, target, center, radius in balls(
+        ctx, table, "targets", TARGET_KEYS, dimension
+    ):
         if not inside_box_or_ball(domain, center):
             raise ctx.fail(
                 f"{key}.center",

@@ -19,7 +19,7 @@ from typing import Any
 
 from sweep.spec.context import Context, toml_text
 from sweep.spec.model import Domain, Motion, Obstacle, Timing
-from sweep.spec.values import number, vector
+from sweep.spec.values import balls, number
 
 #: Keys of a reactive wall's table.
 REACTIVE_KEYS: tuple[str, ...] = ("reactivity",)
@@ -85,25 +85,10 @@ def obstacles(
 ) -> tuple[Obstacle, ...]:
     """``domain.obstacles``: reflecting balls, each inside the domain, clear of every
     target and of each other."""
-    raw = table.get("obstacles", [])
-    if not isinstance(raw, list):
-        raise ctx.fail(
-            "domain.obstacles", f"must be a list of tables; got {toml_text(raw)}."
-        )
-    d = domain.dimension
     parsed: list[Obstacle] = []
-    for i, entry in enumerate(raw):
-        key = f"domain.obstacles.{i}"
-        if not isinstance(entry, dict):
-            raise ctx.fail(
-                key,
-                f"must be a table {{ center = [...], radius = ... }}; got {toml_text(entry)}.",
-            )
-        ctx.keys(entry, OBSTACLE_KEYS, key)
-        center = vector(ctx, ctx.required(entry, "center", key), f"{key}.center", d)
-        radius = number(
-            ctx, ctx.required(entry, "radius", key), f"{key}.radius", positive=True
-        )
+    for key, _, center, radius in balls(
+        ctx, table, "obstacles", OBSTACLE_KEYS, domain.dimension
+    ):
         if not _ball_inside(domain, center, radius):
             raise ctx.fail(
                 key,
