@@ -55,10 +55,11 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
     split = stats.splitting_probability(ds) if per_walker else None
     cosines = exit_cosines(ds, sweep)
     msd = surfaces.mean_square_displacement(ds)
-    # The points with J7 companion runs share one walker-step budget.
+    # Each point's J7 mirror twin (None: the identity does not apply); the points
+    # with companion runs share one walker-step budget.
+    twins = [twin.mirror_twin(point) for point in sweep.points]
     sharing = sum(
-        twin.mirror_twin(point) is not None and int(ds["walkers_done"][p]) > 0
-        for p, point in enumerate(sweep.points)
+        t is not None and int(ds["walkers_done"][p]) > 0 for p, t in enumerate(twins)
     )
     for p, point in enumerate(sweep.points):
         if int(ds["walkers_done"][p]) == 0:
@@ -74,11 +75,11 @@ def check_dataset(ds: xr.Dataset, sweep: Sweep, name: str = "") -> CheckReport:
                 )
             )
             continue
-        if twin.mirror_twin(point) is not None:
+        if twins[p] is not None:
             # A centred target in a periodic or reflecting box: no closed form, but
             # identity J7 against a companion run of its mirror twin.
             found, why = twin.consistency_rows(
-                p, point, sweep, ds, SURVIVAL_RANGE, SURVIVAL_TIMES, sharing
+                p, point, twins[p], sweep, ds, SURVIVAL_RANGE, SURVIVAL_TIMES, sharing
             )
             rows += found
             if not found:

@@ -162,14 +162,15 @@ def companion_dataset(
 def consistency_rows(
     p: int,
     point: PointSpec,
+    twin: PointSpec,
     sweep: Sweep,
     ds: xr.Dataset,
     survival_range: tuple[float, float],
     survival_times: int,
     sharing: int = 1,
 ) -> tuple[list[CheckRow], str]:
-    """The J7 rows of stored point ``p`` (whose :func:`mirror_twin` is not None) and,
-    when there are none, why.
+    """The J7 rows of stored point ``p`` against its ``twin`` (:func:`mirror_twin`
+    of ``point``, not None) and, when there are none, why.
 
     Survival is compared at up to ``survival_times`` grid times where the pooled
     estimate of the two runs lies in ``survival_range``, with the binomial standard
@@ -185,8 +186,6 @@ def consistency_rows(
         How many points of this check run companions (they share
         ``COMPANION_STEPS_TOTAL``).
     """
-    twin = mirror_twin(point)
-    assert twin is not None
     stored = ds.isel(point=[p])
     per_walker = "first_passage_time" in ds
     has_times = per_walker or "fpt_histogram" in ds
