@@ -461,8 +461,8 @@ def simulate(  # type: ignore[no-untyped-def]
     ball_center, ball_radius, ball_absorbing, target_center, target_radius,
     reactivity_lower, reactivity_upper, ball_reactivity, target_reactivity,
     obstacle_center, obstacle_radius, diffusivity, dt, n_steps, bridge, handover,
-    exit_table, exit_dtable, exit_s0, exit_ds, exit_slope, survival_times, out_time, out_wall, out_position, out_survival,
-    fpt_bin_width, out_fpt_hist, out_moves,
+    exit_table, exit_dtable, exit_s0, exit_ds, exit_slope, survival_times, out_time,
+    out_wall, out_position, out_survival, fpt_bin_width, out_fpt_hist, out_moves,
 ):  # fmt: skip
     """Simulate ``n_walkers`` walkers with sphere jumps to absorption or the horizon.
 
@@ -597,17 +597,12 @@ def simulate(  # type: ignore[no-untyped-def]
                     for i in range(d):
                         s2 += (x[i] - ball_center[i]) ** 2
                     free = s2 < ball_r2
-                for k in range(n_targets):
+                # Outside every target and obstacle (the balls of lim_center).
+                for k in range(lim_radius.shape[0]):
                     s2 = 0.0
                     for i in range(d):
-                        s2 += (x[i] - target_center[k, i]) ** 2
-                    if s2 <= target_radius[k] ** 2:
-                        free = False
-                for k in range(n_obstacles):
-                    s2 = 0.0
-                    for i in range(d):
-                        s2 += (x[i] - obstacle_center[k, i]) ** 2
-                    if s2 <= obstacle_radius[k] ** 2:
+                        s2 += (x[i] - lim_center[k, i]) ** 2
+                    if s2 <= lim_radius[k] ** 2:
                         free = False
                 if free:
                     break
