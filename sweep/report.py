@@ -575,4 +575,5 @@ def _reference_cell(row: check.CheckRow) -> str:
     if not row.companion:
         return f"{row.exact:.5g}"
     half = stats.z_value() * row.reference_stderr
-    return html.escape(f"{row.exact:.5g} ± {half:.2g} (twin: {row.companion})")
+    # The companion names its kind ("reflecting twin: 2000 walkers, ..."): no prefix.
+    return html.escape(f"{row.exact:.5g} ± {half:.2g} ({row.companion})")

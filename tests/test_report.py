@@ -219,6 +219,6 @@ def test_report_cell_of_a_twin_row_names_the_companion() -> None:
     from sweep.report import _reference_cell
 
     row = twin_row(0, "mean", 1.0, 0.03, 1.1, 0.04, "J7", "periodic twin: 400 walkers")
-    assert _reference_cell(row) == "1.1 ± 0.078 (twin: periodic twin: 400 walkers)"
+    assert _reference_cell(row) == "1.1 ± 0.078 (periodic twin: 400 walkers)"
     closed = CheckRow(0, "mean", 1.0, 0.03, 1.1, -3.3, True, "C1")
     assert _reference_cell(closed) == "1.1"
