@@ -18,7 +18,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from sweep.spec.context import Context, toml_text
-from sweep.spec.model import Domain, Motion, Obstacle, Timing
+from sweep.spec.model import Domain, Motion, Obstacle, Timing, axis_names
 from sweep.spec.values import balls, number
 
 #: Keys of a reactive wall's table.
@@ -140,8 +140,12 @@ def check_point(ctx: Context, domain: Domain, motion: Motion, timing: Timing) ->
             for i, o in enumerate(domain.obstacles)
         ]
         for key, center, radius in balls:
-            for axis, (c, lo, hi, periodic) in enumerate(
-                zip(center, domain.lower, domain.upper, domain.periodic)
+            for axis, c, lo, hi, periodic in zip(
+                axis_names(domain.dimension),
+                center,
+                domain.lower,
+                domain.upper,
+                domain.periodic,
             ):
                 gap = min(c - lo, hi - c) - radius
                 if periodic and gap < clearance:
@@ -162,7 +166,11 @@ def check_point(ctx: Context, domain: Domain, motion: Motion, timing: Timing) ->
             '"spheres" does not support periodic faces (its jumps would need the '
             "periodic images of targets and obstacles); this point has periodic faces "
             "on axes "
-            + ", ".join(str(i) for i, p in enumerate(domain.periodic) if p)
+            + ", ".join(
+                name
+                for name, p in zip(axis_names(domain.dimension), domain.periodic)
+                if p
+            )
             + '. Use time.scheme = "steps" (the default) for periodic faces, or make '
             "those faces reflecting.",
         )

@@ -119,7 +119,7 @@ REFUSED = [
         definition(
             PERIODIC_Y, extra="targets = [{ center = [0.5, 0.95], radius = 0.02 }]"
         ),
-        "[domain.targets.0] comes within 0.03 of a periodic face on axis 1",
+        "[domain.targets.0] comes within 0.03 of a periodic face on axis y",
         id="target-near-periodic-face",
     ),
     pytest.param(
@@ -130,7 +130,7 @@ REFUSED = [
         ),
         '[time.scheme] "spheres" does not support periodic faces (its jumps would '
         "need the periodic images of targets and obstacles); this point has periodic "
-        'faces on axes 1. Use time.scheme = "steps"',
+        'faces on axes y. Use time.scheme = "steps"',
         id="spheres-with-periodic-faces",
     ),
     pytest.param(
