@@ -466,12 +466,20 @@ class ChunkKeys:
                 self.arrays[spec.name] = array
 
     def __call__(self, point: int, chunk: int) -> dict[str, str]:
-        keys = {}
-        for name, array in self.arrays.items():
-            dims = tuple(array.metadata.dimension_names or ())
-            coords = task_chunk_coords(dims, point, chunk)
-            keys[name] = f"{array.path}/{array.metadata.encode_chunk_key(coords)}"
-        return keys
+        return {
+            name: task_chunk_key(array, point, chunk)
+            for name, array in self.arrays.items()
+        }
+
+
+def task_chunk_key(
+    array: zarr.Array | zarr.AsyncArray[Any], point: int, chunk: int
+) -> str:
+    """The store key of the chunk task (point, chunk) writes in ``array`` (a task
+    array, synchronous or asynchronous), from the array's own chunk-key encoding."""
+    dims = tuple(array.metadata.dimension_names or ())
+    coords = task_chunk_coords(dims, point, chunk)
+    return f"{array.path}/{array.metadata.encode_chunk_key(coords)}"
 
 
 def read_fill(name: str) -> float | int | None:

@@ -37,13 +37,17 @@ def start_run(
 
 
 def test_sigkilled_run_resumes_bit_identical(
-    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
+    tmp_path: Path, cli_env: dict[str, str]
 ) -> None:
+    # Tasks of some 30 ms (dt 1e-5), so that three kills, each after a few more tasks
+    # have finished, leave some of the twelve undone: with the small sweep's tasks of
+    # a millisecond, a loaded machine finished the run between check and kill.
+    spec = slow_spec(tmp_path, dt=1e-5, walkers=3000, chunk=500)
     reference = tmp_path / "reference.zarr"
-    build_store(small_spec, reference, threads=2)
+    build_store(spec, reference, threads=2)
     out = tmp_path / "killed.zarr"
     for attempt in range(3):
-        proc = start_run(small_spec, out, cli_env, 2, output=subprocess.DEVNULL)
+        proc = start_run(spec, out, cli_env, 2, output=subprocess.DEVNULL)
         deadline = time.monotonic() + PATIENCE
         target = 2 + 3 * attempt
         while time.monotonic() < deadline and proc.poll() is None:
@@ -57,18 +61,19 @@ def test_sigkilled_run_resumes_bit_identical(
         "the run finished before it could be killed; make tasks longer"
     )
     # The killed runner's lock is stale: the rerun takes it over and completes.
-    result = run_cli("run", str(small_spec), "--store", str(out), "--quiet")
+    result = run_cli("run", str(spec), "--store", str(out), "--quiet")
     assert result.returncode == 0, result.stderr
     assert_stores_identical(reference, out)
 
 
 def test_ctrl_c_stops_cleanly_and_resumes(
-    small_spec: Path, tmp_path: Path, cli_env: dict[str, str]
+    tmp_path: Path, cli_env: dict[str, str]
 ) -> None:
+    spec = slow_spec(tmp_path, dt=1e-5, walkers=3000, chunk=500)  # tasks of ~30 ms
     reference = tmp_path / "reference.zarr"
-    build_store(small_spec, reference, threads=2)
+    build_store(spec, reference, threads=2)
     out = tmp_path / "interrupted.zarr"
-    proc = start_run(small_spec, out, cli_env, 1)
+    proc = start_run(spec, out, cli_env, 1)
     deadline = time.monotonic() + PATIENCE
     while (
         time.monotonic() < deadline
@@ -83,17 +88,18 @@ def test_ctrl_c_stops_cleanly_and_resumes(
     assert "rerun" in (stdout + stderr).lower()
     assert len(store.done_tasks(out)) < 12
     assert not (out / store.LOCK_FILE).exists()
-    build_store(small_spec, out, threads=2)
+    build_store(spec, out, threads=2)
     assert_stores_identical(reference, out)
 
 
-def slow_spec(tmp_path: Path, dt: float, walkers: int) -> Path:
-    """The small sweep with a finer step and more walkers, in tasks of 5000 walkers."""
+def slow_spec(tmp_path: Path, dt: float, walkers: int, chunk: int = 5000) -> Path:
+    """The small sweep with a finer step and more walkers, in tasks of ``chunk``
+    walkers."""
     path = tmp_path / "slow.toml"
     path.write_text(
         SMALL_SPEC.replace("dt = 1e-3", f"dt = {dt!r}")
         .replace("walkers = 3000", f"walkers = {walkers}")
-        .replace("chunk = 500", "chunk = 5000")
+        .replace("chunk = 500", f"chunk = {chunk}")
     )
     return path
 

@@ -32,6 +32,7 @@ from sweep.errors import StoreDamagedError, StoreError
 from sweep.execute import RunOptions, run
 from sweep.plan import make_plan
 from sweep.spec import load_spec
+from sweep.store.layout import TASK_ARRAYS
 from tests.cli_cases import assert_one_error
 from tests.conftest import (
     SMALL_SPEC,
@@ -361,6 +362,84 @@ def test_a_chunk_file_that_should_exist_and_does_not_is_an_error(
     (tmp_path / key).parent.mkdir(parents=True)
     (tmp_path / key).write_bytes(b"data")
     assert store.sync_chunks(tmp_path, {key: True})[key][0] == 4
+
+
+def _task_files(path: Path) -> dict[str, bytes]:
+    """Every chunk file of a store (not its metadata or markers): key → bytes."""
+    return {
+        str(f.relative_to(path)): f.read_bytes()
+        for f in sorted(path.rglob("*"))
+        if f.is_file()
+        and f.name != "zarr.json"
+        and store.MARKER_DIR not in f.parts
+        and not f.name.startswith("_")
+    }
+
+
+@pytest.mark.parametrize(
+    "definition", [SMALL_SPEC, ALL_CENSORED], ids=["absorbed", "all-censored"]
+)
+def test_a_task_writes_the_bytes_of_zarrs_synchronous_api(
+    definition: str, tmp_path: Path
+) -> None:
+    """write_task hands zarr every array of a task in one asynchronous batch; the
+    chunk files are byte for byte those of zarr's ordinary ``array[region] = data``,
+    written into a second store made from the same plan."""
+    from sweep.simulate import simulate_task
+
+    spec = tmp_path / "def.toml"
+    spec.write_text(definition)
+    plan = make_plan(load_spec(spec))
+    batched = store.prepare(tmp_path / "batched.zarr", plan)
+    plain = store.prepare(tmp_path / "plain.zarr", plan)
+    created = _task_files(plain)
+    assert created.keys() == _task_files(batched).keys()  # coordinates only
+    store_id = store.read_attrs(batched)["store_id"]
+    root = zarr.open_group(str(plain), mode="r+")
+    for task in plan.tasks[4:8]:
+        output, _ = simulate_task(task)
+        store.write_task(str(batched), task, output, {}, store_id)
+        walkers = slice(task.first_walker, task.first_walker + task.n_walkers)
+        for spec_ in TASK_ARRAYS:
+            if spec_.name not in root:
+                continue
+            array = root[spec_.name]
+            assert isinstance(array, zarr.Array)
+            region = tuple(
+                {"point": task.point, "chunk": task.chunk, "walker": walkers}.get(
+                    d, slice(None)
+                )
+                for d in array.metadata.dimension_names or ()
+            )
+            array[region] = getattr(output, str(spec_.output))
+    written = _task_files(batched)
+    assert written.keys() > created.keys(), "no chunk file written"
+    assert written == _task_files(plain)
+
+
+def test_a_store_replaced_at_the_same_path_is_written_in_its_own_layout(
+    tmp_path: Path,
+) -> None:
+    """Tasks reuse the arrays opened for an earlier task of the same store; a store
+    made again at that path with other chunks (its zarr.json differs) is opened
+    afresh, and its tasks land where its own layout says."""
+    from sweep.simulate import simulate_task
+
+    path = tmp_path / "s.zarr"
+    for chunk in (500, 250):
+        spec = tmp_path / f"def-{chunk}.toml"
+        spec.write_text(SMALL_SPEC.replace("chunk = 500", f"chunk = {chunk}"))
+        plan = make_plan(load_spec(spec))
+        shutil.rmtree(path, ignore_errors=True)
+        store.prepare(path, plan)
+        store_id = store.read_attrs(path)["store_id"]
+        task = next(t for t in plan.tasks if (t.point, t.chunk) == (1, 2))
+        output, _ = simulate_task(task)
+        store.write_task(str(path), task, output, {"point": 1}, store_id)
+        got = zarr.open_group(str(path), mode="r")["first_passage_time"]
+        walkers = slice(task.first_walker, task.first_walker + task.n_walkers)
+        np.testing.assert_array_equal(got[1, walkers], output.time, strict=True)
+        assert np.isnan(got[1, : task.first_walker]).all()
 
 
 # --------------------------------------------------------------------------- full disk
