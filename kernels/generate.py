@@ -66,7 +66,7 @@ def _dedent(lines: list[str], by: int) -> list[str]:
 
 
 _CONDITION = re.compile(
-    r"^\s*(KIND|DIM|FORCE|SURFACES)\s*(==|!=|>=|<=|>|<)\s*(\w+)\s*$"
+    r"^\s*(KIND|DIM|FORCE|SURFACES|DRIFT)\s*(==|!=|>=|<=|>|<)\s*(\w+)\s*$"
 )
 _COMPARE = {
     "==": int.__eq__, "!=": int.__ne__, ">=": int.__ge__, "<=": int.__le__,
@@ -182,16 +182,16 @@ def _functions(source: str) -> list[tuple[str, str]]:
 
 
 def specialise(
-    source: str, kind: str, dim: int, force: int = 0, surfaces: int = 1
+    source: str, kind: str, dim: int, force: int = 0, surfaces: int = 1, drift: int = 1
 ) -> str:
     """Every template function for one kind of domain and dimension, without (0) or
     with (1) a force field, without (0) or with (1) the code of reactive, periodic
-    and obstacle surfaces."""
+    and obstacle surfaces, without (0) or with (1) a drift."""
     env = {
         "KIND": KINDS[kind], "DIM": dim, "FORCE": force, "SURFACES": surfaces,
-        **KINDS_CONSTANTS,
+        "DRIFT": drift, **KINDS_CONSTANTS,
     }  # fmt: skip
-    suffix = f"_{kind}{dim}" + VARIANTS[force, surfaces][0]
+    suffix = f"_{kind}{dim}" + VARIANTS[force, surfaces, drift][0]
     functions = _functions(source)
     out = []
     for _, text in functions:
@@ -223,13 +223,15 @@ def specialise(
     return "\n\n\n".join([out[0], *used])
 
 
-#: (FORCE, SURFACES) -> (suffix of the generated names, name of their table in
-#: _loops.py). Loops without surfaces are the fast common case; a force's loops keep
-#: the surfaces' code (a force's step costs more than their tests).
+#: (FORCE, SURFACES, DRIFT) -> (suffix of the generated names, name of their table in
+#: _loops.py). Loops without surfaces or drift are the fast common case, and plain
+#: geometries with a drift have their own; the surfaces' and a force's loops keep the
+#: drift (their steps cost more than its add), a force's the surfaces' code too.
 VARIANTS = {
-    (0, 0): ("", "LOOPS"),
-    (0, 1): ("_surfaces", "SURFACE_LOOPS"),
-    (1, 1): ("_force", "FORCE_LOOPS"),
+    (0, 0, 0): ("", "LOOPS"),
+    (0, 0, 1): ("_drift", "DRIFT_LOOPS"),
+    (0, 1, 1): ("_surfaces", "SURFACE_LOOPS"),
+    (1, 1, 1): ("_force", "FORCE_LOOPS"),
 }
 
 #: The template's names of the kinds (values of KIND).
@@ -258,8 +260,9 @@ def generate() -> str:
         "EDIT (edit the template and regenerate; tests/kernels/test_generated.py checks).",
         "",
         "One step loop per kind of domain and dimension; ``LOOPS[kind, dim]`` holds them,",
-        "``SURFACE_LOOPS[kind, dim]`` those for reactive, periodic or obstacle surfaces,",
-        "``FORCE_LOOPS[kind, dim]`` those with a force field (and any surface).",
+        "``DRIFT_LOOPS[kind, dim]`` those with a drift, ``SURFACE_LOOPS[kind, dim]``",
+        "those for reactive, periodic or obstacle surfaces, ``FORCE_LOOPS[kind, dim]``",
+        "those with a force field (and any surface).",
         f"Digest of template, generator, kernels/walkers.py and rng.py: {digest()}",
         '"""',
         "",
@@ -275,13 +278,13 @@ def generate() -> str:
         ")",
     ]
     tables: list[tuple[str, list[str]]] = []
-    for (force, surfaces), (tail, table) in VARIANTS.items():
+    for (force, surfaces, drift), (tail, table) in VARIANTS.items():
         rows = []
         for kind, value in KINDS.items():
             for dim in DIMENSIONS:
                 if kind == "ball" and dim < 2:
                     continue
-                parts += ["", "", specialise(source, kind, dim, force, surfaces)]
+                parts += ["", "", specialise(source, kind, dim, force, surfaces, drift)]
                 rows.append(f"    ({value}, {dim}): simulate_loop_{kind}{dim}{tail},")
         tables.append((table, rows))
     for table, rows in tables:

@@ -15,10 +15,11 @@ Python with three mechanical rules, so it reads top to bottom as the algorithm:
   branch on the whole).
 * ``if static(COND):`` (with an optional ``else:``) is decided when generating, from
   ``KIND`` (``BOX``, ``BOX_TARGETS``, ``BALL``), ``DIM``, ``FORCE`` (0: no force,
-  1: a potential, ``kernels.inputs.Force``) and ``SURFACES`` (0: no reactive,
-  periodic or obstacle surface; 1: any): each loop holds only the code of its own
-  kind of domain, the loops without a force hold none of its code, and the loops
-  without surfaces none of theirs (their flags are constants there).
+  1: a potential, ``kernels.inputs.Force``), ``SURFACES`` (0: no reactive,
+  periodic or obstacle surface; 1: any) and ``DRIFT`` (0: no drift on any axis; 1:
+  drift): each loop holds only the code of its own kind of domain, the loops
+  without a force hold none of its code, the loops without surfaces none of theirs
+  (their flags are constants there), and the drift-free loops do not add a zero drift.
 * Every function here is emitted once per (kind, dimension) under a suffixed name, and
   calls between them are renamed to match.
 
@@ -281,8 +282,14 @@ def simulate_loop(state, n_walkers, geometry, motion, recording, out):
                             y_i += force_scale * _slope(
                                 x_i, fk, fp0, fp1, fp2, ftable, flower, fspacing
                             )
-                    else:
+                    elif static(DRIFT == 1):
                         y_i = x_i + s_i + sigma * z
+                    else:
+                        # No drift (kernels.walkers.loop_table): x + 0.0 is x, but the
+                        # add costs the 3-D box with a target 7 % (a longer chain
+                        # from one position to the next). Same value always; the
+                        # bits differ only in the sign of an exact zero (-0.0 + 0.0).
+                        y_i = x_i + sigma * z
                 if static(KIND != BALL):
                     mirror = False  # a box without targets: the band (one branch less)
                     if static(KIND == BOX_TARGETS):

@@ -32,6 +32,7 @@ per axis. Walls:
 from __future__ import annotations
 
 import math
+from typing import Any
 
 import numpy as np
 from numba import njit
@@ -266,26 +267,33 @@ def simulate(
     int
         Walker-steps simulated.
     """
-    # One compiled loop per kind of domain and dimension (kernels/_loops.py, generated
-    # from the step template kernels/step.py), each compiled on first use; a
-    # plain-Python dispatcher, as an njit one would compile them all at its first call.
+    loop = step_loop(geometry, motion, out)
+    return loop(state, n_walkers, geometry, motion, recording, out)  # type: ignore[no-any-return]
+
+
+def step_loop(geometry: Geometry, motion: Motion, out: Outputs) -> Any:
+    """The compiled loop :func:`simulate` runs for these inputs: one per kind of
+    domain and dimension (kernels/_loops.py, generated from the step template
+    kernels/step.py) in the table :func:`loop_table` picks, each compiled on first
+    use (a plain-Python dispatcher, as an njit one would compile them all at its
+    first call). Its ``py_func`` is the same loop uncompiled, for debugging."""
     if geometry.ball_radius < math.inf:
         kind = BALL
     elif geometry.target_radius.shape[0] > 0:
         kind = BOX_TARGETS
     else:
         kind = BOX
-    loop = loop_table(geometry, motion, out)[kind, geometry.lower.shape[0]]
-    return loop(state, n_walkers, geometry, motion, recording, out)  # type: ignore[no-any-return]
+    return loop_table(geometry, motion, out)[kind, geometry.lower.shape[0]]
 
 
 def loop_table(geometry: Geometry, motion: Motion, out: Outputs) -> dict:  # type: ignore[type-arg]
     """The table of generated loops (kernels/_loops.py) for these inputs.
 
-    Loops with a force, and loops for reactive, periodic or obstacle surfaces (or a
-    displacement output), are separate variants: the common loops hold none of their
-    code, which costs plain steps even when never taken. The test is conservative:
-    anything else than a plain geometry gets the loops that handle every surface.
+    Loops with a force, loops for reactive, periodic or obstacle surfaces (or a
+    displacement output), and plain loops with a drift are separate variants: the
+    common loops hold none of their code, which costs plain steps even when never
+    taken. The test is conservative: anything else than a plain geometry gets the
+    loops that handle every surface (and a drift).
     """
     if motion.force.kind != inputs.NO_FORCE:
         return _loops.FORCE_LOOPS  # type: ignore[no-any-return]
@@ -298,7 +306,11 @@ def loop_table(geometry: Geometry, motion: Motion, out: Outputs) -> dict:  # typ
         and geometry.obstacle_radius.shape[0] == 0
         and out.displacement.shape[0] == 0
     )
-    return _loops.LOOPS if plain else _loops.SURFACE_LOOPS  # type: ignore[no-any-return]
+    if not plain:
+        return _loops.SURFACE_LOOPS  # type: ignore[no-any-return]
+    if np.any(motion.drift != 0.0):
+        return _loops.DRIFT_LOOPS  # type: ignore[no-any-return]
+    return _loops.LOOPS  # type: ignore[no-any-return]
 
 
 #: Kinds of domain, each stepped by its own compiled loops (KIND in kernels/step.py):

@@ -14,9 +14,9 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from kernels import _loops, inputs
+from kernels import inputs
 from kernels.rng import initial_state
-from kernels.walkers import simulate
+from kernels.walkers import simulate, step_loop
 
 
 @dataclass(frozen=True)
@@ -171,13 +171,13 @@ def run(
     return Run(*out, steps=int(steps))
 
 
-def uncompiled_loop(kind: int, dim: int, surfaces: bool = False) -> Callable[..., Any]:
-    """The generated step loop for ``kind`` (BOX, BOX_TARGETS or BALL) and ``dim``
-    axes, uncompiled (its ``py_func``), calling the compiled helpers; ``simulate``
-    itself only dispatches to a compiled loop. ``surfaces``: the variant for
-    reactive, periodic or obstacle surfaces (``kernels.walkers.loop_table``)."""
-    table = _loops.SURFACE_LOOPS if surfaces else _loops.LOOPS
-    return table[kind, dim].py_func  # type: ignore[no-any-return]
+def uncompiled_loop(domain: Domain) -> Callable[..., Any]:
+    """The generated step loop ``simulate`` runs for ``domain``
+    (``kernels.walkers.step_loop``), uncompiled (its ``py_func``), calling the
+    compiled helpers; ``simulate`` itself only dispatches to a compiled loop."""
+    geometry, motion, recording = domain.kernel_inputs()
+    out = inputs.allocate(1, geometry, recording)
+    return step_loop(geometry, motion, out).py_func  # type: ignore[no-any-return]
 
 
 def assert_runs_identical(a: Run, b: Run) -> None:

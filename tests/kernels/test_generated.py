@@ -7,6 +7,7 @@ from __future__ import annotations
 import math
 from dataclasses import replace
 
+import numpy as np
 import pytest
 
 from kernels import _loops, generate, inputs
@@ -31,7 +32,13 @@ def test_every_kind_and_dimension_has_a_loop() -> None:
         for dim in generate.DIMENSIONS
         if not (kind == generate.KINDS["ball"] and dim < 2)
     }
-    assert set(_loops.LOOPS) == expected
+    for table in (
+        _loops.LOOPS,
+        _loops.DRIFT_LOOPS,
+        _loops.SURFACE_LOOPS,
+        _loops.FORCE_LOOPS,
+    ):
+        assert set(table) == expected
 
 
 @pytest.mark.parametrize(
@@ -79,20 +86,44 @@ _PLAIN = {
 
 @pytest.mark.parametrize("name", list(_PLAIN))
 def test_plain_loops_equal_surface_loops_without_surfaces(name: str) -> None:
-    """The loops without surfaces' code (``LOOPS``, the constants of
-    ``static(SURFACES == 0)``) give the surface loops' numbers bit for bit wherever
-    no surface is present, and ``simulate`` picks them there."""
+    """The loops without surfaces' code (``LOOPS`` without a drift, ``DRIFT_LOOPS``
+    with one: the constants of ``static(SURFACES == 0)``) give the surface loops'
+    numbers bit for bit wherever no surface is present, and ``simulate`` picks them
+    there."""
     domain = _PLAIN[name]
+    geometry, motion, recording = domain.kernel_inputs()
+    kind = BALL if domain.is_ball else BOX_TARGETS if domain.target_radii else BOX
+    out = inputs.allocate(1, geometry, recording)
+    table = _loops.DRIFT_LOOPS if domain.drift else _loops.LOOPS
+    assert loop_table(geometry, motion, out) is table
+    dim = domain.dimension
+    plain = run(domain, 200, 7, kernel=table[kind, dim])
+    assert_runs_identical(plain, run(domain, 200, 7))
+    assert_runs_identical(
+        plain, run(domain, 200, 7, kernel=_loops.SURFACE_LOOPS[kind, dim])
+    )
+
+
+@pytest.mark.parametrize("name", list(_PLAIN))
+def test_drift_free_loops_equal_drift_loops_at_zero_drift(name: str) -> None:
+    """The drift-free loops (``static(DRIFT == 0)``: y = x + sigma z) give the numbers
+    of the drift loops (y = x + 0.0 + sigma z) bit for bit when the drift is zero, and
+    ``simulate`` takes them then; a drift on any one axis takes the drift loops."""
+    domain = replace(_PLAIN[name], drift=None)
     geometry, motion, recording = domain.kernel_inputs()
     kind = BALL if domain.is_ball else BOX_TARGETS if domain.target_radii else BOX
     out = inputs.allocate(1, geometry, recording)
     assert loop_table(geometry, motion, out) is _loops.LOOPS
     dim = domain.dimension
-    plain = run(domain, 200, 7, kernel=_loops.LOOPS[kind, dim])
-    assert_runs_identical(plain, run(domain, 200, 7))
+    free = run(domain, 200, 7, kernel=_loops.LOOPS[kind, dim])
+    assert np.any(free.wall >= 0)
     assert_runs_identical(
-        plain, run(domain, 200, 7, kernel=_loops.SURFACE_LOOPS[kind, dim])
+        free, run(domain, 200, 7, kernel=_loops.DRIFT_LOOPS[kind, dim])
     )
+    for axis in range(dim):
+        drift = tuple(0.1 if a == axis else 0.0 for a in range(dim))
+        geometry, motion, recording = replace(domain, drift=drift).kernel_inputs()
+        assert loop_table(geometry, motion, out) is _loops.DRIFT_LOOPS
 
 
 @pytest.mark.parametrize(

@@ -21,7 +21,6 @@ import pytest
 from numpy.typing import NDArray
 from scipy import integrate, stats
 
-from kernels.walkers import BALL, BOX_TARGETS
 from sweep import analytic
 from tests.kernels.runner import (
     Domain,
@@ -837,7 +836,6 @@ def test_general_loop_python_identical_to_compiled(domain: Domain) -> None:
     # The uncompiled generated loop draws through the same compiled samplers
     # (kernels/rng.py) from the same stream, so it (ball and target code in) must give
     # the compiled kernel's outputs to the last bit.
-    kind = BALL if domain.is_ball else BOX_TARGETS
     compiled = run(domain, 30, 1000)
-    python = run(domain, 30, 1000, kernel=uncompiled_loop(kind, domain.dimension))
+    python = run(domain, 30, 1000, kernel=uncompiled_loop(domain))
     assert_runs_identical(compiled, python)

@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 from scipy import special, stats
 
+from kernels import _loops
 from kernels.walkers import BOX, BOX_TARGETS
 from sweep.analytic import reactive as ar
 from tests.kernels.runner import Domain, assert_runs_identical, run, uncompiled_loop
@@ -312,6 +313,8 @@ def test_kernel_matches_numpy_reference() -> None:
 def test_python_loop_identical_to_compiled(kind: int, domain: Domain) -> None:
     """The generated loop run as Python (calling the compiled helpers) gives the
     compiled loop's numbers bit for bit, for the new surfaces too."""
+    loop = uncompiled_loop(domain)
+    assert loop is _loops.SURFACE_LOOPS[kind, 2].py_func
     compiled = run(domain, 40, 26)
-    python = run(domain, 40, 26, kernel=uncompiled_loop(kind, 2, surfaces=True))
+    python = run(domain, 40, 26, kernel=loop)
     assert_runs_identical(compiled, python)

@@ -30,8 +30,6 @@ from scipy import special, stats
 
 from kernels import _loops
 from kernels.walkers import (
-    BOX,
-    BOX_TARGETS,
     NORMAL_BOUND,
     _band,
     _hit_fraction,
@@ -414,11 +412,10 @@ def test_simulate_py_func_identical_to_compiled(box: Domain) -> None:
     # The uncompiled generated loop draws through the same compiled samplers
     # (kernels/rng.py) from the same stream, so it must agree to the last bit and
     # leave the stream in the same state.
-    dim = len(box.start)
     compiled_state = stream(99)
     python_state = stream(99)
     compiled = run(box, 30, compiled_state)
-    python = run(box, 30, python_state, kernel=uncompiled_loop(BOX, dim))
+    python = run(box, 30, python_state, kernel=uncompiled_loop(box))
     assert_runs_identical(compiled, python)
     np.testing.assert_array_equal(compiled_state, python_state)
 
@@ -904,7 +901,7 @@ def test_mirror_only_steps_identical_to_band_and_fold(
     python_state = stream(41)
     compiled = run(box, 20, compiled_state)
     monkeypatch.setattr(_loops, "NORMAL_BOUND", math.inf)
-    python = run(box, 20, python_state, kernel=uncompiled_loop(BOX_TARGETS, dim))
+    python = run(box, 20, python_state, kernel=uncompiled_loop(box))
     assert_runs_identical(compiled, python)
     np.testing.assert_array_equal(compiled_state, python_state)
     assert np.any(compiled.wall >= 0)
